@@ -1,0 +1,473 @@
+//! A validated configuration stored in one backend's number formats.
+
+use fixed::types::{I16F16, I32F32};
+
+use crate::backend::Backend;
+use crate::error::{ConfigError, Setting};
+use crate::q::{self, COEF_REL_TOLERANCE, FixedCoef};
+use crate::settings::{PerSample, Settings};
+
+/// Largest relative error of the stored slew step (fixed point): 1 %.
+pub const SLEW_REL_TOLERANCE: f64 = 0.01;
+
+/// Per-sample coefficients and limits of one controller, in backend `B`'s
+/// formats. Built once from [`Settings`]; `Copy`, so a firmware can keep
+/// several (e.g. per operating mode) in flash.
+///
+/// A `const` configuration is checked by the compiler: see [`crate::config!`].
+///
+/// ```
+/// use evenkeel::{Config, Settings};
+/// use fixed::types::I16F16;
+/// let settings = Settings::new(0.01, 1.5, 3.0, 0.0, 100.0).with_slew_per_s(50.0);
+/// let fixed = Config::<I16F16>::try_new(&settings)?;
+/// let float = Config::<f32>::try_new(&settings)?;
+/// assert_eq!(fixed.slew_step().map(|s| s.to_num::<f64>()), Some(0.5));
+/// assert_eq!(float.slew_step(), Some(0.5));
+/// # Ok::<(), evenkeel::ConfigError>(())
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Config<B: Backend> {
+    pub(crate) kp: B::Coef,
+    pub(crate) setpoint_weight: Option<B::Coef>,
+    pub(crate) ki_ts: B::Coef,
+    pub(crate) tracking_ratio: Option<B::Coef>,
+    pub(crate) filter_alpha: Option<B::Coef>,
+    pub(crate) slew_step: Option<B>,
+    pub(crate) deadband: Option<B>,
+    pub(crate) output_min: B,
+    pub(crate) output_max: B,
+    pub(crate) feed_forward_min: B,
+    pub(crate) feed_forward_max: B,
+    pub(crate) integral_min: B::Accum,
+    pub(crate) integral_max: B::Accum,
+    pub(crate) measurement_min: B,
+    pub(crate) measurement_max: B,
+}
+
+impl<B: Backend> Config<B> {
+    /// Validate `settings` and store them in `B`'s formats.
+    ///
+    /// # Errors
+    /// The first invalid setting, or one that does not fit `B`.
+    pub fn try_new(settings: &Settings) -> Result<Self, ConfigError> {
+        B::configure(settings)
+    }
+
+    /// Command limits `(min, max)`.
+    ///
+    /// ```
+    /// let c = evenkeel::Config::<f64>::try_new(&evenkeel::Settings::new(0.1, 1.0, 0.0, -2.0, 3.0))?;
+    /// assert_eq!(c.output_limits(), (-2.0, 3.0));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
+    pub fn output_limits(&self) -> (B, B) {
+        (self.output_min, self.output_max)
+    }
+
+    /// Largest command change per sample, if slew limiting is on.
+    pub fn slew_step(&self) -> Option<B> {
+        self.slew_step
+    }
+
+    /// Stored Kp.
+    pub fn kp(&self) -> B::Coef {
+        self.kp
+    }
+
+    /// Stored Ki·Ts.
+    pub fn ki_ts(&self) -> B::Coef {
+        self.ki_ts
+    }
+
+    /// Stored Ts/Tt (back-calculation only).
+    pub fn tracking_ratio(&self) -> Option<B::Coef> {
+        self.tracking_ratio
+    }
+
+    /// Stored filter coefficient α.
+    pub fn filter_alpha(&self) -> Option<B::Coef> {
+        self.filter_alpha
+    }
+
+    /// Stored setpoint weight (`None` when it is exactly 1).
+    pub fn setpoint_weight(&self) -> Option<B::Coef> {
+        self.setpoint_weight
+    }
+
+    /// Stored deadband half-width.
+    pub fn deadband(&self) -> Option<B> {
+        self.deadband
+    }
+
+    /// Plausible measurement range `(min, max)`.
+    pub fn measurement_range(&self) -> (B, B) {
+        (self.measurement_min, self.measurement_max)
+    }
+
+    /// The same configuration with new proportional and per-sample integral
+    /// coefficients (used by gain schedules).
+    #[must_use]
+    pub fn with_gains(mut self, kp: B::Coef, ki_ts: B::Coef) -> Self {
+        self.kp = kp;
+        self.ki_ts = ki_ts;
+        self
+    }
+}
+
+/// Unwrap a `Result` inside a `const fn` (no `?` there).
+macro_rules! attempt {
+    ($e:expr) => {
+        match $e {
+            Ok(v) => v,
+            Err(e) => return Err(e),
+        }
+    };
+}
+
+impl Config<I16F16> {
+    /// Fixed-point configuration, usable in `const` context.
+    ///
+    /// Gains are stored as [`FixedCoef`] with relative error ≤ 2⁻²⁰
+    /// (checked); Ki·Ts, Ts/Tt and the filter α must be below 32 768
+    /// (always true for α and Ts/Tt); limits, slew step and deadband are
+    /// rounded to the nearest Q16.16 value (the slew step must come within
+    /// 1 %).
+    ///
+    /// # Errors
+    /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`] and
+    /// [`ConfigError::TooFine`].
+    pub const fn new(settings: &Settings) -> Result<Self, ConfigError> {
+        let p: PerSample = attempt!(settings.per_sample());
+        let kp = attempt!(fixed_coef(p.kp, 0, Setting::Kp));
+        let setpoint_weight = match p.setpoint_weight {
+            Some(b) => Some(attempt!(fixed_coef(b, 0, Setting::SetpointWeight))),
+            None => None,
+        };
+        let ki_ts = attempt!(fixed_coef(p.ki_ts, 16, Setting::Ki));
+        let tracking_ratio = match p.tracking_ratio {
+            Some(r) => Some(attempt!(fixed_coef(r, 16, Setting::TrackingTime))),
+            None => None,
+        };
+        let filter_alpha = match p.filter_alpha {
+            Some(a) => Some(attempt!(fixed_coef(a, 16, Setting::FilterTime))),
+            None => None,
+        };
+        let slew_step = match p.slew_step {
+            Some(s) => {
+                let q = attempt!(fixed_signal(s, Setting::Slew));
+                let err = q.to_bits() as f64 / 65_536.0 - s;
+                if q.to_bits() <= 0 || err > SLEW_REL_TOLERANCE * s || -err > SLEW_REL_TOLERANCE * s
+                {
+                    return Err(ConfigError::TooFine(Setting::Slew));
+                }
+                Some(q)
+            }
+            None => None,
+        };
+        let deadband = match p.deadband {
+            Some(w) => Some(attempt!(fixed_signal(w, Setting::Deadband))),
+            None => None,
+        };
+        let output_min = attempt!(fixed_signal(p.output_min, Setting::OutputMin));
+        let output_max = attempt!(fixed_signal(p.output_max, Setting::OutputMax));
+        if output_min.to_bits() >= output_max.to_bits() {
+            return Err(ConfigError::Inverted(Setting::OutputMax));
+        }
+        let measurement_min = attempt!(fixed_signal(p.measurement_min, Setting::MeasurementMin));
+        let measurement_max = attempt!(fixed_signal(p.measurement_max, Setting::MeasurementMax));
+        if measurement_min.to_bits() >= measurement_max.to_bits() {
+            return Err(ConfigError::Inverted(Setting::MeasurementMax));
+        }
+        // Integrator and feed-forward range: the output range widened by its
+        // span on both sides. Exact in i64.
+        let lo = output_min.to_bits() as i64;
+        let hi = output_max.to_bits() as i64;
+        let span = hi - lo;
+        Ok(Self {
+            kp,
+            setpoint_weight,
+            ki_ts,
+            tracking_ratio,
+            filter_alpha,
+            slew_step,
+            deadband,
+            output_min,
+            output_max,
+            feed_forward_min: I16F16::from_bits(q::saturate_i32(lo - span)),
+            feed_forward_max: I16F16::from_bits(q::saturate_i32(hi + span)),
+            integral_min: I32F32::from_bits((lo - span) << 16),
+            integral_max: I32F32::from_bits((hi + span) << 16),
+            measurement_min,
+            measurement_max,
+        })
+    }
+}
+
+const fn fixed_coef(value: f64, min_shift: u32, which: Setting) -> Result<FixedCoef, ConfigError> {
+    let Some(c) = FixedCoef::from_f64(value, min_shift) else {
+        return Err(ConfigError::OutOfFormat(which));
+    };
+    let err = c.to_f64() - value;
+    let bound = COEF_REL_TOLERANCE * if value < 0.0 { -value } else { value };
+    if err > bound || -err > bound {
+        return Err(ConfigError::TooFine(which));
+    }
+    Ok(c)
+}
+
+const fn fixed_signal(value: f64, which: Setting) -> Result<I16F16, ConfigError> {
+    match q::signal_from_f64(value) {
+        Some(v) => Ok(v),
+        None => Err(ConfigError::OutOfFormat(which)),
+    }
+}
+
+macro_rules! float_config {
+    ($t:ty, $limit:expr, $doc:literal) => {
+        impl Config<$t> {
+            #[doc = $doc]
+            ///
+            /// # Errors
+            /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`]
+            /// for magnitudes beyond the backend's safe range and
+            /// [`ConfigError::TooFine`] for gains that would lose more than
+            /// 2⁻²⁰ relative precision (subnormal numbers).
+            pub const fn new(settings: &Settings) -> Result<Self, ConfigError> {
+                const LIMIT: f64 = $limit;
+                let p: PerSample = attempt!(settings.per_sample());
+                macro_rules! coef {
+                    ($v:expr, $w:expr) => {{
+                        let v: f64 = $v;
+                        let mag = if v < 0.0 { -v } else { v };
+                        if mag > LIMIT {
+                            return Err(ConfigError::OutOfFormat($w));
+                        }
+                        let stored = v as $t;
+                        let err = stored as f64 - v;
+                        if err > COEF_REL_TOLERANCE * mag || -err > COEF_REL_TOLERANCE * mag {
+                            return Err(ConfigError::TooFine($w));
+                        }
+                        stored
+                    }};
+                }
+                macro_rules! signal {
+                    ($v:expr, $w:expr) => {{
+                        let v: f64 = $v;
+                        if v > LIMIT || v < -LIMIT {
+                            return Err(ConfigError::OutOfFormat($w));
+                        }
+                        v as $t
+                    }};
+                }
+                let kp = coef!(p.kp, Setting::Kp);
+                let setpoint_weight = match p.setpoint_weight {
+                    Some(b) => Some(coef!(b, Setting::SetpointWeight)),
+                    None => None,
+                };
+                let ki_ts = coef!(p.ki_ts, Setting::Ki);
+                let tracking_ratio = match p.tracking_ratio {
+                    Some(r) => Some(coef!(r, Setting::TrackingTime)),
+                    None => None,
+                };
+                let filter_alpha = match p.filter_alpha {
+                    Some(a) => Some(coef!(a, Setting::FilterTime)),
+                    None => None,
+                };
+                let slew_step = match p.slew_step {
+                    Some(s) => Some(coef!(s, Setting::Slew)),
+                    None => None,
+                };
+                let deadband = match p.deadband {
+                    Some(w) => Some(signal!(w, Setting::Deadband)),
+                    None => None,
+                };
+                let output_min = signal!(p.output_min, Setting::OutputMin);
+                let output_max = signal!(p.output_max, Setting::OutputMax);
+                if output_min >= output_max {
+                    return Err(ConfigError::Inverted(Setting::OutputMax));
+                }
+                let measurement_min = signal!(p.measurement_min, Setting::MeasurementMin);
+                let measurement_max = signal!(p.measurement_max, Setting::MeasurementMax);
+                if measurement_min >= measurement_max {
+                    return Err(ConfigError::Inverted(Setting::MeasurementMax));
+                }
+                let integral_min = p.integral_min as $t;
+                let integral_max = p.integral_max as $t;
+                Ok(Self {
+                    kp,
+                    setpoint_weight,
+                    ki_ts,
+                    tracking_ratio,
+                    filter_alpha,
+                    slew_step,
+                    deadband,
+                    output_min,
+                    output_max,
+                    feed_forward_min: integral_min,
+                    feed_forward_max: integral_max,
+                    integral_min,
+                    integral_max,
+                    measurement_min,
+                    measurement_max,
+                })
+            }
+        }
+    };
+}
+
+float_config!(
+    f32,
+    1.0e12,
+    "`f32` configuration, usable in `const` context. Every gain and signal magnitude must be ≤ 1e12, so no intermediate result of a step can overflow."
+);
+float_config!(
+    f64,
+    1.0e150,
+    "`f64` configuration, usable in `const` context. Every gain and signal magnitude must be ≤ 1e150, so no intermediate result of a step can overflow."
+);
+
+/// A configuration evaluated at compile time; an invalid one is a compile
+/// error.
+///
+/// ```
+/// use evenkeel::{Config, Settings};
+/// use fixed::types::I16F16;
+/// const SETTINGS: Settings = Settings::new(0.001, 0.8, 12.0, 0.0, 24.0).with_slew_per_s(480.0);
+/// const CONFIG: Config<I16F16> = evenkeel::config!(I16F16, SETTINGS);
+/// assert_eq!(CONFIG.output_limits().1, I16F16::from_num(24));
+/// ```
+///
+/// A negative period does not compile:
+///
+/// ```compile_fail,E0080
+/// use evenkeel::{Config, Settings};
+/// use fixed::types::I16F16;
+/// const BAD: Config<I16F16> = evenkeel::config!(I16F16, Settings::new(-0.001, 0.8, 12.0, 0.0, 24.0));
+/// ```
+///
+/// Nor does a gain too large for Q16.16 fixed point:
+///
+/// ```compile_fail,E0080
+/// use evenkeel::{Config, Settings};
+/// use fixed::types::I16F16;
+/// const BAD: Config<I16F16> = evenkeel::config!(I16F16, Settings::new(0.001, 0.8, 12.0, 0.0, 40_000.0));
+/// ```
+#[macro_export]
+macro_rules! config {
+    ($backend:ty, $settings:expr) => {
+        const {
+            match $crate::Config::<$backend>::new(&$settings) {
+                Ok(config) => config,
+                // Evaluated by the compiler only (inside `const { }`): an
+                // invalid configuration stops the build; no panic path
+                // reaches the firmware.
+                Err(error) => panic!("{}", error.summary()),
+            }
+        }
+    };
+}
+
+impl ConfigError {
+    /// A fixed one-line description (usable in `const` context, where
+    /// `Display` is not).
+    #[must_use]
+    pub const fn summary(self) -> &'static str {
+        match self {
+            Self::NotFinite(_) => "evenkeel configuration: a setting is not a finite number",
+            Self::NotPositive(_) => "evenkeel configuration: a setting that must be > 0 is not",
+            Self::Negative(_) => "evenkeel configuration: a setting that must be >= 0 is negative",
+            Self::Inverted(_) => {
+                "evenkeel configuration: a range has its maximum not above its minimum"
+            }
+            Self::NoAction => "evenkeel configuration: kp and ki are both zero",
+            Self::SetpointWeightOutOfRange => {
+                "evenkeel configuration: setpoint weight outside [0, 1]"
+            }
+            Self::TrackingRatioOutOfRange => "evenkeel configuration: Ts/Tt outside (0, 1]",
+            Self::OutOfFormat(_) => {
+                "evenkeel configuration: a value does not fit the number format"
+            }
+            Self::TooFine(_) => {
+                "evenkeel configuration: a value is too small for the number format's precision"
+            }
+            Self::Schedule => "evenkeel configuration: invalid gain schedule",
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fixed_rejects_out_of_format() {
+        let big = Settings::new(0.01, 1.0, 1.0, 0.0, 40_000.0);
+        assert_eq!(
+            Config::<I16F16>::new(&big),
+            Err(ConfigError::OutOfFormat(Setting::OutputMax))
+        );
+        // Ki·Ts = 4e4 does not fit below 2^15.
+        let fast = Settings::new(1.0, 1.0, 40_000.0, 0.0, 1.0);
+        assert_eq!(
+            Config::<I16F16>::new(&fast),
+            Err(ConfigError::OutOfFormat(Setting::Ki))
+        );
+        let huge_gain = Settings::new(0.01, 3.0e9, 1.0, 0.0, 1.0);
+        assert_eq!(
+            Config::<I16F16>::new(&huge_gain),
+            Err(ConfigError::OutOfFormat(Setting::Kp))
+        );
+    }
+
+    #[test]
+    fn fixed_rejects_too_fine() {
+        // Slew step 2e-5 per sample is about 1.3 LSB: error far above 1 %.
+        let s = Settings::new(0.001, 1.0, 1.0, 0.0, 1.0).with_slew_per_s(0.02);
+        assert_eq!(
+            Config::<I16F16>::new(&s),
+            Err(ConfigError::TooFine(Setting::Slew))
+        );
+        // Ki·Ts = 1e-15 → mantissa ≈ 4612 at shift 62: relative error ≈ 1e-4 > 2^-20.
+        let s = Settings::new(1e-6, 1.0, 1e-9, 0.0, 1.0);
+        assert_eq!(
+            Config::<I16F16>::new(&s),
+            Err(ConfigError::TooFine(Setting::Ki))
+        );
+    }
+
+    #[test]
+    fn float_backends_bound_magnitudes() {
+        let s = Settings::new(0.01, 2.0e12, 1.0, 0.0, 1.0);
+        assert_eq!(
+            Config::<f32>::new(&s),
+            Err(ConfigError::OutOfFormat(Setting::Kp))
+        );
+        assert!(Config::<f64>::new(&s).is_ok());
+        let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1.0e200);
+        assert_eq!(
+            Config::<f64>::new(&s),
+            Err(ConfigError::OutOfFormat(Setting::OutputMax))
+        );
+    }
+
+    #[test]
+    fn fixed_coefficients_are_close() {
+        let s = Settings::new(0.01, 123.456, 7.89, -100.0, 100.0);
+        let c = Config::<I16F16>::new(&s).expect("valid");
+        let rel = |stored: f64, want: f64| ((stored - want) / want).abs();
+        assert!(rel(c.kp().to_f64(), 123.456) < COEF_REL_TOLERANCE);
+        assert!(rel(c.ki_ts().to_f64(), 0.0789) < COEF_REL_TOLERANCE);
+        assert_eq!(c.integral_min.to_num::<f64>(), -300.0);
+        assert_eq!(c.integral_max.to_num::<f64>(), 300.0);
+    }
+
+    #[test]
+    fn rounding_can_collapse_limits() {
+        let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1e-6);
+        assert_eq!(
+            Config::<I16F16>::new(&s),
+            Err(ConfigError::Inverted(Setting::OutputMax))
+        );
+    }
+}

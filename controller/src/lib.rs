@@ -1,0 +1,38 @@
+#![doc = include_str!("../README.md")]
+#![no_std]
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+#![warn(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    clippy::panic,
+    clippy::indexing_slicing,
+    clippy::float_arithmetic
+)]
+// Float arithmetic is allowed where the module says so: configuration (run
+// once, IEEE-exact + − × ÷) and the float backends. The fixed-point step
+// (`controller` with `I16F16`, `q`) uses none.
+
+#[allow(clippy::float_arithmetic)] // float backends
+mod backend;
+#[allow(clippy::float_arithmetic)] // configuration, run once
+mod config;
+mod controller;
+mod error;
+#[allow(clippy::float_arithmetic)] // const conversions from f64, run once
+pub mod q;
+#[allow(clippy::float_arithmetic)] // schedule construction, run once
+mod schedule;
+#[allow(clippy::float_arithmetic)] // configuration, run once
+mod settings;
+mod status;
+
+pub use backend::Backend;
+pub use config::{Config, SLEW_REL_TOLERANCE};
+pub use controller::{Controller, Input, Output};
+pub use error::{ConfigError, Setting};
+pub use fixed;
+pub use q::FixedCoef;
+pub use schedule::{Breakpoint, Schedule};
+pub use settings::{AntiWindup, PerSample, Settings};
+pub use status::Status;

@@ -1,0 +1,149 @@
+//! Gain scheduling: Kp and Ki interpolated linearly between breakpoints of a
+//! scheduling variable (payload, speed, valve opening …).
+
+use heapless::Vec;
+
+use crate::backend::Backend;
+use crate::config::Config;
+use crate::controller::Controller;
+use crate::error::{ConfigError, Setting};
+use crate::settings::Settings;
+
+/// One row of a schedule in physical units.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Breakpoint {
+    /// Value of the scheduling variable.
+    pub at: f64,
+    /// Kp at this point.
+    pub kp: f64,
+    /// Ki at this point, per second.
+    pub ki_per_s: f64,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct Segment<B: Backend> {
+    from: B,
+    to: B,
+    inverse_width: B::Coef,
+    kp: (B::Coef, B::Coef),
+    ki_ts: (B::Coef, B::Coef),
+}
+
+/// A gain schedule of up to `N` breakpoints (`N − 1` segments), stored in
+/// backend `B`'s formats. Apply it with [`Controller::schedule`]; the
+/// change is bumpless (see [`Controller::retune`]).
+///
+/// ```
+/// use evenkeel::{Breakpoint, Config, Controller, Schedule, Settings};
+/// let base = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0);
+/// let table: Schedule<f64, 4> = Schedule::new(&base, &[
+///     Breakpoint { at: 1000.0, kp: 2.0, ki_per_s: 1.0 },
+///     Breakpoint { at: 3000.0, kp: 6.0, ki_per_s: 3.0 },
+/// ])?;
+/// let mut pi = Controller::new(Config::try_new(&base)?);
+/// pi.schedule(&table, 2000.0);
+/// assert_eq!(pi.config().kp(), 4.0);
+/// # Ok::<(), evenkeel::ConfigError>(())
+/// ```
+#[derive(Clone, Debug)]
+pub struct Schedule<B: Backend, const N: usize> {
+    segments: Vec<Segment<B>, N>,
+}
+
+impl<B: Backend, const N: usize> Schedule<B, N> {
+    /// Build from at least two breakpoints with strictly increasing `at`.
+    /// Every row is validated as a full configuration (`base` with the row's
+    /// gains), so each scheduled gain is known to fit the backend.
+    ///
+    /// # Errors
+    /// [`ConfigError::Schedule`] for fewer than two rows, more than `N`, or
+    /// breakpoints not strictly increasing; otherwise the row's
+    /// configuration error.
+    pub fn new(base: &Settings, rows: &[Breakpoint]) -> Result<Self, ConfigError> {
+        if rows.len() < 2 || rows.len() > N {
+            return Err(ConfigError::Schedule);
+        }
+        let mut segments = Vec::new();
+        for pair in rows.windows(2) {
+            let [lo, hi] = pair else {
+                return Err(ConfigError::Schedule);
+            };
+            if !(lo.at.is_finite() && hi.at.is_finite()) {
+                return Err(ConfigError::NotFinite(Setting::Breakpoint));
+            }
+            if hi.at <= lo.at {
+                return Err(ConfigError::Schedule);
+            }
+            row_config::<B>(base, lo)?;
+            row_config::<B>(base, hi)?;
+            let ts = base.period_s;
+            let kp = B::coef_pair(lo.kp, hi.kp, 0).ok_or(ConfigError::OutOfFormat(Setting::Kp))?;
+            let ki_ts = B::coef_pair(lo.ki_per_s * ts, hi.ki_per_s * ts, 16)
+                .ok_or(ConfigError::OutOfFormat(Setting::Ki))?;
+            let (inverse_width, _) = B::coef_pair(1.0 / (hi.at - lo.at), 0.0, 0)
+                .ok_or(ConfigError::OutOfFormat(Setting::Breakpoint))?;
+            let segment = Segment {
+                from: checked_signal::<B>(lo.at)?,
+                to: checked_signal::<B>(hi.at)?,
+                inverse_width,
+                kp,
+                ki_ts,
+            };
+            segments.push(segment).map_err(|_| ConfigError::Schedule)?;
+        }
+        Ok(Self { segments })
+    }
+
+    /// Interpolated `(Kp, Ki·Ts)` at `at`; held constant beyond the ends.
+    /// Loops over at most `N − 1` segments.
+    pub fn gains(&self, at: B) -> Option<(B::Coef, B::Coef)> {
+        let last = self.segments.last()?;
+        let segment = self.segments.iter().find(|s| at <= s.to).unwrap_or(last);
+        let raw = at.sub(segment.from).scale(segment.inverse_width);
+        let one = B::from_f64(1.0);
+        let frac = if raw < B::ZERO {
+            B::ZERO
+        } else if raw > one {
+            one
+        } else {
+            raw
+        };
+        Some((
+            B::coef_lerp(segment.kp.0, segment.kp.1, frac),
+            B::coef_lerp(segment.ki_ts.0, segment.ki_ts.1, frac),
+        ))
+    }
+}
+
+fn row_config<B: Backend>(base: &Settings, row: &Breakpoint) -> Result<Config<B>, ConfigError> {
+    let settings = Settings {
+        kp: row.kp,
+        ki_per_s: row.ki_per_s,
+        ..*base
+    };
+    Config::try_new(&settings)
+}
+
+fn checked_signal<B: Backend>(x: f64) -> Result<B, ConfigError> {
+    let v = B::from_f64(x);
+    if (v.to_f64() - x).abs() <= 1e-3 * x.abs().max(1.0) {
+        Ok(v)
+    } else {
+        Err(ConfigError::OutOfFormat(Setting::Breakpoint))
+    }
+}
+
+impl<B: Backend> Controller<B> {
+    /// Apply the schedule's gains at scheduling value `at`, bumplessly.
+    /// Does nothing if the schedule is empty or `at` is not finite.
+    pub fn schedule<const N: usize>(&mut self, table: &Schedule<B, N>, at: B) {
+        if !at.is_finite() {
+            return;
+        }
+        if let Some((kp, ki_ts)) = table.gains(at) {
+            let config = self.config().with_gains(kp, ki_ts);
+            self.retune(config);
+        }
+    }
+}

@@ -1,0 +1,446 @@
+//! Controller settings in physical units, and their validation.
+//!
+//! [`Settings`] is what an engineer writes down: gains, limits, rates and time
+//! constants in SI units. [`Settings::per_sample`] validates them and turns
+//! them once into per-sample coefficients with + − × ÷ only (IEEE-754
+//! correctly rounded, therefore identical on every target); each backend then
+//! stores those in its own number format (see [`crate::Config`]).
+
+use crate::error::{ConfigError, Setting};
+
+/// How the integrator is kept from winding up while the command is limited.
+///
+/// Both variants treat every limiter alike: the output clamp, the slew
+/// limiter, and a downstream limit reported through
+/// [`crate::Input::applied`].
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum AntiWindup {
+    /// Back-calculation (Åström & Hägglund, *Advanced PID Control*, 2006,
+    /// §3.5, from memory): `I += Ki·Ts·e + (Ts/Tt)·(u − v)`. The tracking
+    /// ratio Ts/Tt must lie in (0, 1].
+    BackCalculation {
+        /// Tracking time constant Tt in seconds.
+        tracking_time_s: f64,
+    },
+    /// Conditional integration (clamping): the integrator stops while the
+    /// command is limited and the error would push it further into the
+    /// limit.
+    ConditionalIntegration,
+}
+
+/// Controller settings in physical units.
+///
+/// Build with [`Settings::new`] (or [`Settings::from_integral_time`]) and the
+/// `with_*` methods; all are `const fn`, so a whole configuration can be a
+/// `const` (see [`crate::Config`]).
+///
+/// ```
+/// use evenkeel::{AntiWindup, Settings};
+/// let s = Settings::new(0.01, 2.0, 0.5, -10.0, 10.0)
+///     .with_slew_per_s(20.0)
+///     .with_filter_time_s(0.05)
+///     .with_anti_windup(AntiWindup::BackCalculation { tracking_time_s: 1.0 });
+/// let c = s.per_sample()?;
+/// assert_eq!(c.ki_ts, 0.5 * 0.01);
+/// # Ok::<(), evenkeel::ConfigError>(())
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Settings {
+    /// Sample period Ts in seconds, > 0.
+    pub period_s: f64,
+    /// Proportional gain Kp (command units per measurement unit), ≥ 0.
+    pub kp: f64,
+    /// Integral gain Ki in command units per (measurement unit · second), ≥ 0.
+    pub ki_per_s: f64,
+    /// Setpoint weight b of the proportional part `Kp·(b·r − y)`, in [0, 1].
+    pub setpoint_weight: f64,
+    /// Lowest command.
+    pub output_min: f64,
+    /// Highest command, > `output_min`.
+    pub output_max: f64,
+    /// Largest command rate in command units per second; `None`: no slew limit.
+    pub slew_per_s: Option<f64>,
+    /// Time constant of the first-order measurement low-pass in seconds;
+    /// `None`: unfiltered.
+    pub filter_time_s: Option<f64>,
+    /// Error deadband half-width in measurement units; `None`: no deadband.
+    pub deadband: Option<f64>,
+    /// Anti-windup method.
+    pub anti_windup: AntiWindup,
+    /// Lowest plausible measurement; readings below raise
+    /// [`crate::Status::MEASUREMENT_RANGE`] and are clamped.
+    pub measurement_min: f64,
+    /// Highest plausible measurement.
+    pub measurement_max: f64,
+}
+
+/// Settings turned into per-sample values (f64), ready to be stored in a
+/// backend's number format.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct PerSample {
+    /// Kp.
+    pub kp: f64,
+    /// Setpoint weight b; `None` when b = 1 (the multiply is skipped).
+    pub setpoint_weight: Option<f64>,
+    /// Ki·Ts.
+    pub ki_ts: f64,
+    /// Ts/Tt for back-calculation; `None` for conditional integration.
+    pub tracking_ratio: Option<f64>,
+    /// Filter coefficient α = Ts/(Tf + Ts) (backward Euler); `None`: no filter.
+    pub filter_alpha: Option<f64>,
+    /// Largest command change per sample R·Ts; `None`: no slew limit.
+    pub slew_step: Option<f64>,
+    /// Deadband half-width.
+    pub deadband: Option<f64>,
+    /// Command limits.
+    pub output_min: f64,
+    /// Command limits.
+    pub output_max: f64,
+    /// Integrator range: output range widened by its span on both sides,
+    /// so a feed-forward of up to one span can be corrected.
+    pub integral_min: f64,
+    /// Integrator range, upper end.
+    pub integral_max: f64,
+    /// Measurement range.
+    pub measurement_min: f64,
+    /// Measurement range.
+    pub measurement_max: f64,
+}
+
+impl Settings {
+    /// Settings with the given period, gains and output limits; no slew
+    /// limit, filter or deadband; setpoint weight 1; conditional integration;
+    /// measurement range ±30 000 (inside the Q16.16 range).
+    #[must_use]
+    pub const fn new(
+        period_s: f64,
+        kp: f64,
+        ki_per_s: f64,
+        output_min: f64,
+        output_max: f64,
+    ) -> Self {
+        Self {
+            period_s,
+            kp,
+            ki_per_s,
+            setpoint_weight: 1.0,
+            output_min,
+            output_max,
+            slew_per_s: None,
+            filter_time_s: None,
+            deadband: None,
+            anti_windup: AntiWindup::ConditionalIntegration,
+            measurement_min: -30_000.0,
+            measurement_max: 30_000.0,
+        }
+    }
+
+    /// Like [`Settings::new`] with the integral time Ti in seconds instead of
+    /// Ki (Ki = Kp/Ti). A non-positive Ti gives a Ki that validation rejects.
+    ///
+    /// ```
+    /// let s = evenkeel::Settings::from_integral_time(0.1, 4.0, 2.0, 0.0, 100.0);
+    /// assert_eq!(s.ki_per_s, 2.0);
+    /// ```
+    #[must_use]
+    pub const fn from_integral_time(
+        period_s: f64,
+        kp: f64,
+        integral_time_s: f64,
+        output_min: f64,
+        output_max: f64,
+    ) -> Self {
+        let ki = if integral_time_s > 0.0 {
+            kp / integral_time_s
+        } else {
+            f64::NAN
+        };
+        Self::new(period_s, kp, ki, output_min, output_max)
+    }
+
+    /// Set the setpoint weight b.
+    #[must_use]
+    pub const fn with_setpoint_weight(mut self, b: f64) -> Self {
+        self.setpoint_weight = b;
+        self
+    }
+
+    /// Limit the command rate to `rate` units per second.
+    #[must_use]
+    pub const fn with_slew_per_s(mut self, rate: f64) -> Self {
+        self.slew_per_s = Some(rate);
+        self
+    }
+
+    /// Filter the measurement with a first-order low-pass of time constant
+    /// `tf` seconds.
+    #[must_use]
+    pub const fn with_filter_time_s(mut self, tf: f64) -> Self {
+        self.filter_time_s = Some(tf);
+        self
+    }
+
+    /// Ignore errors smaller than `width` (continuous deadband: the error is
+    /// shrunk by `width` towards zero).
+    #[must_use]
+    pub const fn with_deadband(mut self, width: f64) -> Self {
+        self.deadband = Some(width);
+        self
+    }
+
+    /// Choose the anti-windup method.
+    #[must_use]
+    pub const fn with_anti_windup(mut self, method: AntiWindup) -> Self {
+        self.anti_windup = method;
+        self
+    }
+
+    /// Set the plausible measurement range.
+    #[must_use]
+    pub const fn with_measurement_range(mut self, min: f64, max: f64) -> Self {
+        self.measurement_min = min;
+        self.measurement_max = max;
+        self
+    }
+
+    /// Validate and compute per-sample values. Backend-independent checks
+    /// only; backends add their own range checks ([`crate::Config`]).
+    ///
+    /// # Errors
+    /// The first violated rule, as a [`ConfigError`].
+    pub const fn per_sample(&self) -> Result<PerSample, ConfigError> {
+        let ts = self.period_s;
+        if !ts.is_finite() {
+            return Err(ConfigError::NotFinite(Setting::Period));
+        }
+        if ts <= 0.0 {
+            return Err(ConfigError::NotPositive(Setting::Period));
+        }
+        if let Err(e) = non_negative(self.kp, Setting::Kp) {
+            return Err(e);
+        }
+        if let Err(e) = non_negative(self.ki_per_s, Setting::Ki) {
+            return Err(e);
+        }
+        if self.kp == 0.0 && self.ki_per_s == 0.0 {
+            return Err(ConfigError::NoAction);
+        }
+        let b = self.setpoint_weight;
+        if !b.is_finite() {
+            return Err(ConfigError::NotFinite(Setting::SetpointWeight));
+        }
+        if b < 0.0 || b > 1.0 {
+            return Err(ConfigError::SetpointWeightOutOfRange);
+        }
+        if !self.output_min.is_finite() {
+            return Err(ConfigError::NotFinite(Setting::OutputMin));
+        }
+        if !self.output_max.is_finite() {
+            return Err(ConfigError::NotFinite(Setting::OutputMax));
+        }
+        if self.output_min >= self.output_max {
+            return Err(ConfigError::Inverted(Setting::OutputMax));
+        }
+        if !self.measurement_min.is_finite() {
+            return Err(ConfigError::NotFinite(Setting::MeasurementMin));
+        }
+        if !self.measurement_max.is_finite() {
+            return Err(ConfigError::NotFinite(Setting::MeasurementMax));
+        }
+        if self.measurement_min >= self.measurement_max {
+            return Err(ConfigError::Inverted(Setting::MeasurementMax));
+        }
+        let slew_step = match self.slew_per_s {
+            None => None,
+            Some(rate) => match positive(rate, Setting::Slew) {
+                Ok(rate) => Some(rate * ts),
+                Err(e) => return Err(e),
+            },
+        };
+        let filter_alpha = match self.filter_time_s {
+            None => None,
+            Some(tf) => match positive(tf, Setting::FilterTime) {
+                Ok(tf) => Some(ts / (tf + ts)),
+                Err(e) => return Err(e),
+            },
+        };
+        let deadband = match self.deadband {
+            None => None,
+            Some(w) => match non_negative(w, Setting::Deadband) {
+                Ok(w) => Some(w),
+                Err(e) => return Err(e),
+            },
+        };
+        let tracking_ratio = match self.anti_windup {
+            AntiWindup::ConditionalIntegration => None,
+            AntiWindup::BackCalculation { tracking_time_s } => {
+                if !tracking_time_s.is_finite() {
+                    return Err(ConfigError::NotFinite(Setting::TrackingTime));
+                }
+                if tracking_time_s <= 0.0 {
+                    return Err(ConfigError::TrackingRatioOutOfRange);
+                }
+                let ratio = ts / tracking_time_s;
+                if !(ratio > 0.0 && ratio <= 1.0) {
+                    return Err(ConfigError::TrackingRatioOutOfRange);
+                }
+                Some(ratio)
+            }
+        };
+        let span = self.output_max - self.output_min;
+        Ok(PerSample {
+            kp: self.kp,
+            setpoint_weight: if b == 1.0 { None } else { Some(b) },
+            ki_ts: self.ki_per_s * ts,
+            tracking_ratio,
+            filter_alpha,
+            slew_step,
+            deadband,
+            output_min: self.output_min,
+            output_max: self.output_max,
+            integral_min: self.output_min - span,
+            integral_max: self.output_max + span,
+            measurement_min: self.measurement_min,
+            measurement_max: self.measurement_max,
+        })
+    }
+}
+
+const fn non_negative(x: f64, which: Setting) -> Result<f64, ConfigError> {
+    if !x.is_finite() {
+        Err(ConfigError::NotFinite(which))
+    } else if x < 0.0 {
+        Err(ConfigError::Negative(which))
+    } else {
+        Ok(x)
+    }
+}
+
+const fn positive(x: f64, which: Setting) -> Result<f64, ConfigError> {
+    if !x.is_finite() {
+        Err(ConfigError::NotFinite(which))
+    } else if x <= 0.0 {
+        Err(ConfigError::NotPositive(which))
+    } else {
+        Ok(x)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const BASE: Settings = Settings::new(0.01, 2.0, 1.0, -5.0, 5.0);
+
+    #[test]
+    fn coefficients_from_physical_units() {
+        let s = BASE
+            .with_slew_per_s(10.0)
+            .with_filter_time_s(0.09)
+            .with_anti_windup(AntiWindup::BackCalculation {
+                tracking_time_s: 0.5,
+            });
+        let p = s.per_sample().expect("valid");
+        assert_eq!(p.ki_ts, 0.01);
+        assert_eq!(p.slew_step, Some(0.1));
+        // α = Ts/(Tf+Ts) = 0.01/0.1 (backward Euler, common practice).
+        assert!((p.filter_alpha.expect("on") - 0.1).abs() < 1e-15);
+        assert_eq!(p.tracking_ratio, Some(0.02));
+        assert_eq!(p.integral_min, -15.0);
+        assert_eq!(p.integral_max, 15.0);
+        assert_eq!(p.setpoint_weight, None);
+    }
+
+    #[test]
+    fn rejects_each_rule() {
+        let cases: [(Settings, ConfigError); 12] = [
+            (
+                Settings {
+                    period_s: 0.0,
+                    ..BASE
+                },
+                ConfigError::NotPositive(Setting::Period),
+            ),
+            (
+                Settings {
+                    period_s: f64::NAN,
+                    ..BASE
+                },
+                ConfigError::NotFinite(Setting::Period),
+            ),
+            (
+                Settings { kp: -1.0, ..BASE },
+                ConfigError::Negative(Setting::Kp),
+            ),
+            (
+                Settings {
+                    ki_per_s: f64::INFINITY,
+                    ..BASE
+                },
+                ConfigError::NotFinite(Setting::Ki),
+            ),
+            (
+                Settings {
+                    kp: 0.0,
+                    ki_per_s: 0.0,
+                    ..BASE
+                },
+                ConfigError::NoAction,
+            ),
+            (
+                BASE.with_setpoint_weight(1.5),
+                ConfigError::SetpointWeightOutOfRange,
+            ),
+            (
+                Settings {
+                    output_min: 5.0,
+                    ..BASE
+                },
+                ConfigError::Inverted(Setting::OutputMax),
+            ),
+            (
+                BASE.with_measurement_range(1.0, 1.0),
+                ConfigError::Inverted(Setting::MeasurementMax),
+            ),
+            (
+                BASE.with_slew_per_s(0.0),
+                ConfigError::NotPositive(Setting::Slew),
+            ),
+            (
+                BASE.with_filter_time_s(-1.0),
+                ConfigError::NotPositive(Setting::FilterTime),
+            ),
+            (
+                BASE.with_deadband(-0.1),
+                ConfigError::Negative(Setting::Deadband),
+            ),
+            (
+                BASE.with_anti_windup(AntiWindup::BackCalculation {
+                    tracking_time_s: 0.001,
+                }),
+                ConfigError::TrackingRatioOutOfRange,
+            ),
+        ];
+        for (settings, want) in cases {
+            assert_eq!(settings.per_sample(), Err(want), "{settings:?}");
+        }
+    }
+
+    #[test]
+    fn tracking_ratio_one_is_accepted() {
+        let s = BASE.with_anti_windup(AntiWindup::BackCalculation {
+            tracking_time_s: 0.01,
+        });
+        assert_eq!(s.per_sample().map(|p| p.tracking_ratio), Ok(Some(1.0)));
+    }
+
+    #[test]
+    fn integral_time_form() {
+        let s = Settings::from_integral_time(0.01, 3.0, 1.5, 0.0, 1.0);
+        assert_eq!(s.ki_per_s, 2.0);
+        let bad = Settings::from_integral_time(0.01, 3.0, 0.0, 0.0, 1.0);
+        assert_eq!(bad.per_sample(), Err(ConfigError::NotFinite(Setting::Ki)));
+    }
+}

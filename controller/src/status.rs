@@ -1,0 +1,168 @@
+//! What happened in one step: which limit acted, which fault was seen.
+
+use core::fmt;
+
+/// Set of flags returned with every command.
+///
+/// ```
+/// use evenkeel::Status;
+/// let s = Status::CLAMP_HIGH | Status::INTEGRATOR_HELD;
+/// assert!(s.contains(Status::CLAMP_HIGH));
+/// assert!(s.is_limited());
+/// assert!(!s.is_fault());
+/// ```
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Status(u16);
+
+impl Status {
+    /// No flag.
+    pub const NONE: Self = Self(0);
+    /// The command was clamped to `output_max`.
+    pub const CLAMP_HIGH: Self = Self(1 << 0);
+    /// The command was clamped to `output_min`.
+    pub const CLAMP_LOW: Self = Self(1 << 1);
+    /// The slew limiter shortened the command change.
+    pub const SLEW: Self = Self(1 << 2);
+    /// The actuator reported (in [`crate::Input::applied`]) a value other
+    /// than the last command: something downstream limited or overrode it.
+    pub const DOWNSTREAM: Self = Self(1 << 3);
+    /// Conditional integration held the integrator this step.
+    pub const INTEGRATOR_HELD: Self = Self(1 << 4);
+    /// The error was inside the deadband.
+    pub const DEADBAND: Self = Self(1 << 5);
+    /// The controller tracked an external actuator value this step.
+    pub const TRACKING: Self = Self(1 << 6);
+    /// This step engaged the controller bumplessly.
+    pub const ENGAGED: Self = Self(1 << 7);
+    /// Fault: a non-finite input (float backends); the last command was held
+    /// and the state was not touched.
+    pub const NON_FINITE: Self = Self(1 << 8);
+    /// Fault: the measurement was outside its configured range and was
+    /// clamped into it.
+    pub const MEASUREMENT_RANGE: Self = Self(1 << 9);
+    /// Fault: the setpoint was outside the measurement range and was clamped
+    /// into it.
+    pub const SETPOINT_RANGE: Self = Self(1 << 10);
+
+    const LIMITS: u16 = Self::CLAMP_HIGH.0 | Self::CLAMP_LOW.0 | Self::SLEW.0 | Self::DOWNSTREAM.0;
+    const FAULTS: u16 = Self::NON_FINITE.0 | Self::MEASUREMENT_RANGE.0 | Self::SETPOINT_RANGE.0;
+
+    const NAMES: [(Self, &'static str); 11] = [
+        (Self::CLAMP_HIGH, "clamp_high"),
+        (Self::CLAMP_LOW, "clamp_low"),
+        (Self::SLEW, "slew"),
+        (Self::DOWNSTREAM, "downstream"),
+        (Self::INTEGRATOR_HELD, "integrator_held"),
+        (Self::DEADBAND, "deadband"),
+        (Self::TRACKING, "tracking"),
+        (Self::ENGAGED, "engaged"),
+        (Self::NON_FINITE, "non_finite"),
+        (Self::MEASUREMENT_RANGE, "measurement_range"),
+        (Self::SETPOINT_RANGE, "setpoint_range"),
+    ];
+
+    /// The raw bits (stable: bit n is the n-th constant above).
+    #[must_use]
+    pub const fn bits(self) -> u16 {
+        self.0
+    }
+
+    /// Flags from raw bits; unknown bits are dropped.
+    #[must_use]
+    pub const fn from_bits(bits: u16) -> Self {
+        Self(bits & 0x07ff)
+    }
+
+    /// `true` if every flag of `other` is set.
+    #[must_use]
+    pub const fn contains(self, other: Self) -> bool {
+        self.0 & other.0 == other.0
+    }
+
+    /// `true` if any limiter (clamp, slew, downstream) acted.
+    #[must_use]
+    pub const fn is_limited(self) -> bool {
+        self.0 & Self::LIMITS != 0
+    }
+
+    /// `true` if any fault flag is set.
+    #[must_use]
+    pub const fn is_fault(self) -> bool {
+        self.0 & Self::FAULTS != 0
+    }
+
+    /// Each set flag's name, in bit order (`clamp_high`, `slew`, …).
+    pub fn names(self) -> impl Iterator<Item = &'static str> {
+        Self::NAMES
+            .into_iter()
+            .filter(move |(flag, _)| self.contains(*flag))
+            .map(|(_, name)| name)
+    }
+}
+
+impl core::ops::BitOr for Status {
+    type Output = Self;
+    fn bitor(self, rhs: Self) -> Self {
+        Self(self.0 | rhs.0)
+    }
+}
+
+impl core::ops::BitOrAssign for Status {
+    fn bitor_assign(&mut self, rhs: Self) {
+        self.0 |= rhs.0;
+    }
+}
+
+impl fmt::Debug for Status {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str("Status(")?;
+        fmt::Display::fmt(self, f)?;
+        f.write_str(")")
+    }
+}
+
+impl fmt::Display for Status {
+    /// Flag names joined by `|`, or `-` when none is set.
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let mut first = true;
+        for name in self.names() {
+            if !first {
+                f.write_str("|")?;
+            }
+            f.write_str(name)?;
+            first = false;
+        }
+        if first {
+            f.write_str("-")?;
+        }
+        Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    extern crate std;
+    use super::*;
+    use std::string::ToString;
+
+    #[test]
+    fn names_and_display() {
+        let s = Status::SLEW | Status::MEASUREMENT_RANGE;
+        assert_eq!(s.to_string(), "slew|measurement_range");
+        assert_eq!(Status::NONE.to_string(), "-");
+        assert!(s.is_fault() && s.is_limited());
+        assert_eq!(Status::from_bits(0xffff).bits(), 0x07ff);
+    }
+
+    #[test]
+    fn every_flag_has_a_distinct_bit_and_name() {
+        let mut seen = 0u16;
+        for (flag, _) in Status::NAMES {
+            assert_eq!(flag.bits().count_ones(), 1);
+            assert_eq!(seen & flag.bits(), 0);
+            seen |= flag.bits();
+        }
+        assert_eq!(seen, 0x07ff);
+    }
+}
