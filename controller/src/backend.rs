@@ -88,9 +88,14 @@ impl Backend for I16F16 {
         Config::<I16F16>::new(settings)
     }
     fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(FixedCoef, FixedCoef)> {
-        let sa = FixedCoef::from_f64(a, min_shift)?.shift();
-        let sb = FixedCoef::from_f64(b, min_shift)?.shift();
-        let shift = sa.min(sb);
+        // Zero fits any shift: let the other value choose.
+        let natural =
+            |x: f64| FixedCoef::from_f64(x, min_shift).map(|c| (x != 0.0).then_some(c.shift()));
+        let shift = match (natural(a)?, natural(b)?) {
+            (Some(sa), Some(sb)) => sa.min(sb),
+            (Some(s), None) | (None, Some(s)) => s,
+            (None, None) => min_shift,
+        };
         Some((
             FixedCoef::with_shift(a, shift)?,
             FixedCoef::with_shift(b, shift)?,

@@ -201,6 +201,8 @@ impl<B: Backend> Controller<B> {
         } else {
             self.integral = clamp(self.integral, config.integral_min, config.integral_max);
         }
+        // The limits always win: a held command outside new limits moves in.
+        self.last_command = clamp(self.last_command, config.output_min, config.output_max);
         self.config = config;
     }
 
@@ -259,16 +261,19 @@ impl<B: Backend> Controller<B> {
             status |= Status::DEADBAND;
         }
 
+        let mut v = p.add(B::narrow(self.integral)).add(ff);
         if let Some(actuator) = self.engage_at.take() {
-            // Bumpless engage: choose I so that v equals the actuator value.
+            // Bumpless engage: the command continues from the actuator's
+            // value, and I is chosen so that P + I + ff equals it (exactly
+            // unless that I lies outside the integrator range).
             let target = clamp(actuator, c.output_min, c.output_max);
             let i = B::deplete(B::deplete(target.widen(), p), ff);
             self.integral = clamp(i, c.integral_min, c.integral_max);
             self.last_command = target;
+            v = target;
             status |= Status::ENGAGED;
         }
 
-        let v = p.add(B::narrow(self.integral)).add(ff);
         let mut u = v;
         if u > c.output_max {
             u = c.output_max;
@@ -354,5 +359,301 @@ fn clamp<T: PartialOrd>(x: T, lo: T, hi: T) -> T {
         lo
     } else {
         x
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::settings::{AntiWindup, Settings};
+    use fixed::types::I16F16;
+
+    fn q(x: f64) -> I16F16 {
+        I16F16::from_num(x)
+    }
+
+    fn fixed(s: &Settings) -> Controller<I16F16> {
+        Controller::new(Config::try_new(s).expect("valid"))
+    }
+
+    fn float(s: &Settings) -> Controller<f64> {
+        Controller::new(Config::try_new(s).expect("valid"))
+    }
+
+    const LSB: i32 = 1;
+
+    #[test]
+    fn proportional_only_and_clamp() {
+        let mut pi = float(&Settings::new(0.1, 2.0, 0.0, -3.0, 3.0));
+        let out = pi.step(1.0, 0.25);
+        assert_eq!(out.command, 1.5);
+        assert_eq!(out.status, Status::NONE);
+        let out = pi.step(5.0, 0.0);
+        assert_eq!(out.command, 3.0);
+        assert!(out.status.contains(Status::CLAMP_HIGH));
+        let out = pi.step(-5.0, 0.0);
+        assert_eq!(out.command, -3.0);
+        assert!(out.status.contains(Status::CLAMP_LOW));
+    }
+
+    #[test]
+    fn sub_lsb_integral_increments_accumulate() {
+        // Ki·Ts = 1e-4 and a constant error of 1 LSB: each step adds
+        // round(1e-4 · 2^16) = 7 Q32.32 LSB (6.55 exactly); the command
+        // becomes 1 LSB once I ≥ 0.5 LSB = 32768 Q32.32 LSB, i.e. after
+        // ceil(32768 / 7) = 4682 updates, at step 4683 (ideal arithmetic:
+        // 0.5 / 1e-4 = 5000 updates).
+        let s = Settings::new(0.01, 0.0, 0.01, -1.0, 1.0);
+        let mut pi = fixed(&s);
+        let y = I16F16::ZERO;
+        let r = I16F16::from_bits(LSB);
+        let mut first_move = None;
+        for k in 1..=6000 {
+            let out = pi.step(r, y);
+            if out.command != I16F16::ZERO && first_move.is_none() {
+                first_move = Some(k);
+            }
+        }
+        assert_eq!(first_move, Some(4683));
+        // A Q16.16 integrator would never move: 1e-4 · 1 LSB rounds to 0.
+        let naive = I16F16::from_bits(LSB) * I16F16::from_num(1e-4);
+        assert_eq!(naive, I16F16::ZERO);
+    }
+
+    #[test]
+    fn slew_limit_ramps_by_exact_steps() {
+        let s = Settings::new(0.01, 10.0, 0.0, 0.0, 100.0).with_slew_per_s(50.0);
+        let mut pi = fixed(&s);
+        for k in 1..=10 {
+            let out = pi.step(q(5.0), q(0.0));
+            assert_eq!(out.command, q(0.5 * f64::from(k)), "step {k}");
+            assert!(out.status.contains(Status::SLEW));
+        }
+        let out = pi.step(q(5.0), q(0.0));
+        assert_eq!(out.command, q(5.5));
+    }
+
+    #[test]
+    fn back_calculation_settles_at_textbook_equilibrium() {
+        // Saturated with constant error e: I converges to where
+        // Ki·Ts·e + (Ts/Tt)(u_max − v) = 0, i.e. v = u_max + Ki·Tt·e
+        // (Åström & Hägglund 2006, §3.5, back-calculation; from memory).
+        let s =
+            Settings::new(0.01, 1.0, 2.0, 0.0, 1.0).with_anti_windup(AntiWindup::BackCalculation {
+                tracking_time_s: 0.1,
+            });
+        let mut pi = float(&s);
+        for _ in 0..5000 {
+            pi.step(0.5, 0.0);
+        }
+        let p = 0.5;
+        let v = p + pi.integral();
+        assert!((v - (1.0 + 2.0 * 0.1 * 0.5)).abs() < 1e-9, "v = {v}");
+    }
+
+    #[test]
+    fn conditional_integration_holds_while_clamped() {
+        let s = Settings::new(0.01, 1.0, 5.0, 0.0, 1.0);
+        let mut pi = fixed(&s);
+        for _ in 0..200 {
+            pi.step(q(0.9), q(0.0));
+        }
+        let held = pi.integral();
+        let out = pi.step(q(0.9), q(0.0));
+        assert!(
+            out.status
+                .contains(Status::CLAMP_HIGH | Status::INTEGRATOR_HELD)
+        );
+        assert_eq!(pi.integral(), held);
+        // Error reverses: integrator runs again at once, no windup to unload.
+        let out = pi.step(q(0.0), q(0.05));
+        assert!(!out.status.contains(Status::INTEGRATOR_HELD));
+        assert!(pi.integral() < held);
+    }
+
+    #[test]
+    fn slew_limit_also_stops_windup() {
+        for method in [
+            AntiWindup::ConditionalIntegration,
+            AntiWindup::BackCalculation {
+                tracking_time_s: 0.05,
+            },
+        ] {
+            let s = Settings::new(0.01, 1.0, 10.0, -100.0, 100.0)
+                .with_slew_per_s(1.0)
+                .with_anti_windup(method);
+            let mut pi = float(&s);
+            for _ in 0..100 {
+                let out = pi.step(10.0, 0.0);
+                assert!(out.status.contains(Status::SLEW));
+            }
+            // Without anti-windup I would be 10·10·1 = 100; the command is 1.
+            assert!(pi.integral() < 2.5, "{method:?}: I = {}", pi.integral());
+        }
+    }
+
+    #[test]
+    fn downstream_limit_is_treated_like_the_clamp() {
+        let s = Settings::new(0.01, 0.5, 5.0, -10.0, 10.0);
+        let mut pi = float(&s);
+        pi.step(2.0, 0.0);
+        // The actuator only delivered 0.2 of the command: integration that
+        // would raise the command further is held.
+        let before = pi.integral();
+        let input = Input::new(2.0, 0.0).with_applied(0.2);
+        let out = pi.step_with(&input);
+        assert!(
+            out.status
+                .contains(Status::DOWNSTREAM | Status::INTEGRATOR_HELD)
+        );
+        assert_eq!(pi.integral(), before);
+        // With back-calculation the integrator is pulled down by (Ts/Tt)·d.
+        let s = s.with_anti_windup(AntiWindup::BackCalculation {
+            tracking_time_s: 0.02,
+        });
+        let mut pi = float(&s);
+        let u = pi.step(2.0, 0.0).command;
+        let i0 = pi.integral();
+        pi.step_with(&Input::new(2.0, 0.0).with_applied(u - 1.0));
+        let expected = i0 + 0.05 * 2.0 + 0.5 * (-1.0);
+        assert!((pi.integral() - expected).abs() < 1e-12);
+    }
+
+    #[test]
+    fn engage_is_bumpless_within_one_lsb() {
+        let s = Settings::new(0.01, 3.3, 1.7, -50.0, 50.0)
+            .with_setpoint_weight(0.6)
+            .with_slew_per_s(10.0)
+            .with_filter_time_s(0.1);
+        for a in [-49.9, -7.25, 0.0, 0.001, 13.37, 49.99] {
+            let mut pi = fixed(&s);
+            pi.step(q(2.0), q(1.0));
+            pi.engage(q(a));
+            let out = pi.step_with(&Input::new(q(4.5), q(-3.2)).with_feed_forward(q(1.25)));
+            let diff = (out.command - q(a)).to_bits().abs();
+            assert!(diff <= 1, "a = {a}: off by {diff} LSB");
+            assert!(out.status.contains(Status::ENGAGED));
+        }
+    }
+
+    #[test]
+    fn track_then_auto_is_bumpless() {
+        let s = Settings::new(0.01, 2.0, 4.0, 0.0, 20.0).with_slew_per_s(5.0);
+        let mut pi = float(&s);
+        let input = Input::new(3.0, 2.0);
+        for _ in 0..50 {
+            let out = pi.track(&input, 12.0);
+            assert_eq!(out.command, 12.0);
+            assert!(out.status.contains(Status::TRACKING));
+        }
+        let out = pi.step_with(&input);
+        // Continues from 12 plus one integration step Ki·Ts·e = 0.04.
+        assert!((out.command - 12.04).abs() < 1e-9, "{}", out.command);
+    }
+
+    #[test]
+    fn filter_follows_backward_euler() {
+        // y_f[k] = y_f[k−1] + α (y[k] − y_f[k−1]), α = Ts/(Tf+Ts)
+        // (backward-Euler discretisation of 1/(Tf s + 1); common practice).
+        let s = Settings::new(0.01, 1.0, 0.0, -10.0, 10.0).with_filter_time_s(0.04);
+        let mut pi = float(&s);
+        let alpha = 0.01 / 0.05;
+        pi.step(0.0, 0.0); // primes the filter at 0
+        let mut y_f = 0.0;
+        for _ in 0..20 {
+            y_f += alpha * (1.0 - y_f);
+            let out = pi.step(0.0, 1.0);
+            assert!((out.command + y_f).abs() < 1e-12);
+        }
+    }
+
+    #[test]
+    fn deadband_is_continuous_and_stops_integration() {
+        let s = Settings::new(0.01, 2.0, 1.0, -10.0, 10.0).with_deadband(0.5);
+        let mut pi = float(&s);
+        let out = pi.step(0.3, 0.0);
+        assert_eq!(out.command, 0.0);
+        assert!(out.status.contains(Status::DEADBAND));
+        assert_eq!(pi.integral(), 0.0);
+        let out = pi.step(0.75, 0.0);
+        assert!((out.command - 0.5).abs() < 1e-12); // Kp·(0.75 − 0.5)
+    }
+
+    #[test]
+    fn setpoint_weight_and_feed_forward() {
+        let s = Settings::new(0.01, 2.0, 0.0, -10.0, 10.0).with_setpoint_weight(0.25);
+        let mut pi = float(&s);
+        let out = pi.step_with(&Input::new(4.0, 1.0).with_feed_forward(0.5));
+        // Kp·(b·r − y) + ff = 2·(1 − 1) + 0.5
+        assert_eq!(out.command, 0.5);
+    }
+
+    #[test]
+    fn non_finite_input_holds_and_touches_nothing() {
+        let s = Settings::new(0.01, 1.0, 1.0, -10.0, 10.0);
+        let mut pi = float(&s);
+        let u = pi.step(1.0, 0.0).command;
+        let before = pi;
+        for bad in [f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
+            for input in [
+                Input::new(bad, 0.0),
+                Input::new(1.0, bad),
+                Input::new(1.0, 0.0).with_feed_forward(bad),
+                Input::new(1.0, 0.0).with_applied(bad),
+            ] {
+                let out = pi.step_with(&input);
+                assert_eq!(out.command, u);
+                assert_eq!(out.status, Status::NON_FINITE);
+                assert_eq!(pi.integral, before.integral);
+                assert_eq!(pi.filtered, before.filtered);
+            }
+        }
+    }
+
+    #[test]
+    fn out_of_range_measurement_is_flagged_and_clamped() {
+        let s = Settings::new(0.01, 1.0, 0.0, -100.0, 100.0).with_measurement_range(0.0, 50.0);
+        let mut pi = fixed(&s);
+        let out = pi.step(q(10.0), q(80.0));
+        assert!(out.status.contains(Status::MEASUREMENT_RANGE));
+        assert_eq!(out.command, q(-40.0));
+        let out = pi.step(q(-5.0), q(0.0));
+        assert!(out.status.contains(Status::SETPOINT_RANGE));
+        assert!(out.status.is_fault());
+    }
+
+    #[test]
+    fn retune_is_bumpless_in_fixed_point() {
+        let a = Settings::new(0.01, 1.0, 2.0, -100.0, 100.0);
+        let b = Settings::new(0.01, 7.5, 0.5, -100.0, 100.0);
+        let mut pi = fixed(&a);
+        let mut twin = fixed(&a);
+        for _ in 0..10 {
+            pi.step(q(3.0), q(1.0));
+            twin.step(q(3.0), q(1.0));
+        }
+        pi.retune(Config::try_new(&b).expect("valid"));
+        // First command after the change: identical up to rounding (the
+        // integrator absorbed ΔKp·e).
+        let bumped = pi.step(q(3.0), q(1.0)).command;
+        let unchanged = twin.step(q(3.0), q(1.0)).command;
+        assert!((bumped - unchanged).to_bits().abs() <= 1);
+        // Next: one integration step with the new Ki·Ts instead of the old,
+        // 2·(0.005 − 0.02) = −0.03, plus rounding.
+        let bumped = pi.step(q(3.0), q(1.0)).command;
+        let unchanged = twin.step(q(3.0), q(1.0)).command;
+        let diff = (bumped - unchanged).to_num::<f64>();
+        assert!((diff + 0.03).abs() < 3e-5, "diff {diff}");
+    }
+
+    #[test]
+    fn reset_returns_to_rest() {
+        let s = Settings::new(0.01, 1.0, 1.0, 2.0, 10.0);
+        let mut pi = fixed(&s);
+        assert_eq!(pi.last_command(), q(2.0)); // 0 clamped into [2, 10]
+        pi.step(q(5.0), q(0.0));
+        pi.reset();
+        assert_eq!(pi.integral(), I16F16::ZERO);
+        assert_eq!(pi.last_command(), q(2.0));
     }
 }

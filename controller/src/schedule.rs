@@ -81,7 +81,8 @@ impl<B: Backend, const N: usize> Schedule<B, N> {
             let kp = B::coef_pair(lo.kp, hi.kp, 0).ok_or(ConfigError::OutOfFormat(Setting::Kp))?;
             let ki_ts = B::coef_pair(lo.ki_per_s * ts, hi.ki_per_s * ts, 16)
                 .ok_or(ConfigError::OutOfFormat(Setting::Ki))?;
-            let (inverse_width, _) = B::coef_pair(1.0 / (hi.at - lo.at), 0.0, 0)
+            let inverse = 1.0 / (hi.at - lo.at);
+            let (inverse_width, _) = B::coef_pair(inverse, inverse, 0)
                 .ok_or(ConfigError::OutOfFormat(Setting::Breakpoint))?;
             let segment = Segment {
                 from: checked_signal::<B>(lo.at)?,
@@ -145,5 +146,94 @@ impl<B: Backend> Controller<B> {
             let config = self.config().with_gains(kp, ki_ts);
             self.retune(config);
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use fixed::types::I16F16;
+
+    const BASE: Settings = Settings::new(0.01, 1.0, 1.0, 0.0, 1000.0);
+    const ROWS: [Breakpoint; 3] = [
+        Breakpoint {
+            at: 1500.0,
+            kp: 40.0,
+            ki_per_s: 8.0,
+        },
+        Breakpoint {
+            at: 2700.0,
+            kp: 70.0,
+            ki_per_s: 14.0,
+        },
+        Breakpoint {
+            at: 3900.0,
+            kp: 100.0,
+            ki_per_s: 20.0,
+        },
+    ];
+
+    #[test]
+    fn fixed_interpolation_matches_exact_values() {
+        let table: Schedule<I16F16, 3> = Schedule::new(&BASE, &ROWS).expect("valid");
+        for (at, kp, ki_ts) in [
+            (1000.0, 40.0, 0.08), // held below the first breakpoint
+            (1500.0, 40.0, 0.08),
+            (2100.0, 55.0, 0.11),
+            (3300.0, 85.0, 0.17),
+            (5000.0, 100.0, 0.2), // held above the last
+        ] {
+            let (k, i) = table.gains(I16F16::from_num(at)).expect("non-empty");
+            // Interpolation fraction is Q16.16: relative error ≤ 2^-16.
+            assert!(
+                (k.to_f64() - kp).abs() <= kp * 3e-5,
+                "kp at {at}: {}",
+                k.to_f64()
+            );
+            assert!((i.to_f64() - ki_ts).abs() <= ki_ts * 3e-5, "ki at {at}");
+        }
+    }
+
+    #[test]
+    fn rejects_bad_tables() {
+        let unsorted = [ROWS[1], ROWS[0]];
+        assert_eq!(
+            Schedule::<f32, 4>::new(&BASE, &unsorted).err(),
+            Some(ConfigError::Schedule)
+        );
+        assert_eq!(
+            Schedule::<f32, 2>::new(&BASE, &ROWS).err(),
+            Some(ConfigError::Schedule)
+        );
+        assert_eq!(
+            Schedule::<f32, 4>::new(&BASE, &ROWS[..1]).err(),
+            Some(ConfigError::Schedule)
+        );
+        let negative = [
+            ROWS[0],
+            Breakpoint {
+                kp: -1.0,
+                ..ROWS[1]
+            },
+        ];
+        assert_eq!(
+            Schedule::<f32, 4>::new(&BASE, &negative).err(),
+            Some(ConfigError::Negative(Setting::Kp))
+        );
+    }
+
+    #[test]
+    fn scheduling_is_bumpless() {
+        let table: Schedule<I16F16, 3> = Schedule::new(&BASE, &ROWS).expect("valid");
+        let mut pi = Controller::new(Config::<I16F16>::try_new(&BASE).expect("valid"));
+        let (r, y) = (I16F16::from_num(4), I16F16::from_num(3.5));
+        let before = pi.step(r, y).command;
+        pi.schedule(&table, I16F16::from_num(3000));
+        let after = pi.step(r, y).command;
+        // Kp jumped from 1 to 77.5: without the integrator correction the
+        // command would jump by 76.5·0.5; here only one integration step
+        // (Ki·Ts·e = 0.01·0.5) plus rounding separates them.
+        let diff = (after - before).to_num::<f64>();
+        assert!((diff - 0.005).abs() < 1e-4, "diff {diff}");
     }
 }
