@@ -515,7 +515,8 @@ mod tests {
         let u = pi.step(2.0, 0.0).command;
         let i0 = pi.integral();
         pi.step_with(&Input::new(2.0, 0.0).with_applied(u - 1.0));
-        let expected = i0 + 0.05 * 2.0 + 0.5 * (-1.0);
+        let d = -1.0; // applied − commanded
+        let expected = i0 + 0.05 * 2.0 + 0.5 * d;
         assert!((pi.integral() - expected).abs() < 1e-12);
     }
 

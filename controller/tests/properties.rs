@@ -168,17 +168,16 @@ fn check_invariants<B: Backend>(
             continue;
         }
         if let Some(a) = engaged_at.take() {
-            if out.status.contains(Status::ENGAGED) {
-                let target = if a > hi {
-                    hi
-                } else if a < lo {
-                    lo
-                } else {
-                    a
-                };
-                let err = (out.command.to_f64() - target.to_f64()).abs();
-                prop_assert!(err <= Q.max(slack(target) * 8.0), "engage off by {err}");
-            }
+            prop_assert!(out.status.contains(Status::ENGAGED));
+            let target = if a > hi {
+                hi
+            } else if a < lo {
+                lo
+            } else {
+                a
+            };
+            let err = (out.command.to_f64() - target.to_f64()).abs();
+            prop_assert!(err <= Q.max(slack(target) * 8.0), "engage off by {err}");
         }
         let engage_step = out.status.contains(Status::ENGAGED) || exempt;
         if let (Some(step), false) = (c.slew_step(), engage_step) {
