@@ -27,6 +27,7 @@ pub const SLEW_REL_TOLERANCE: f64 = 0.01;
 /// # Ok::<(), evenkeel::ConfigError>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Config<B: Backend> {
     pub(crate) kp: B::Coef,
     pub(crate) setpoint_weight: Option<B::Coef>,

@@ -92,6 +92,7 @@ pub struct Output<B> {
 /// # Ok::<(), evenkeel::ConfigError>(())
 /// ```
 #[derive(Clone, Copy, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Controller<B: Backend> {
     config: Config<B>,
     integral: B::Accum,

@@ -36,3 +36,20 @@ pub use q::FixedCoef;
 pub use schedule::{Breakpoint, Schedule};
 pub use settings::{AntiWindup, PerSample, Settings};
 pub use status::Status;
+
+/// Compile-time proof that the public types can be logged with `defmt`.
+#[cfg(feature = "defmt")]
+#[allow(dead_code)]
+fn defmt_formats_every_public_type() {
+    fn loggable<T: defmt::Format>() {}
+    loggable::<Controller<fixed::types::I16F16>>();
+    loggable::<Controller<f32>>();
+    loggable::<Config<fixed::types::I16F16>>();
+    loggable::<Output<fixed::types::I16F16>>();
+    loggable::<Input<f32>>();
+    loggable::<Settings>();
+    loggable::<ConfigError>();
+    loggable::<Status>();
+    loggable::<FixedCoef>();
+    loggable::<Breakpoint>();
+}
