@@ -25,6 +25,18 @@ use crate::settings::Settings;
 /// Implemented for `f32`, `f64` and `I16F16`. A new backend implements these
 /// operations with its own rounding and overflow rules and documents them;
 /// see `DEVELOPERS.md`.
+///
+/// ```
+/// use evenkeel::Backend;
+/// use fixed::types::I16F16;
+/// // One generic routine, each backend's own overflow rule.
+/// fn twice<B: Backend>(x: f64) -> f64 {
+///     let v = B::from_f64(x);
+///     v.add(v).to_f64()
+/// }
+/// assert_eq!(twice::<f32>(20_000.0), 40_000.0);
+/// assert_eq!(twice::<I16F16>(20_000.0), I16F16::MAX.to_num::<f64>()); // saturates
+/// ```
 pub trait Backend: Copy + PartialOrd + Debug {
     /// Per-sample coefficient (gains, filter and tracking ratios).
     type Coef: Copy + PartialEq + Debug;
@@ -32,11 +44,31 @@ pub trait Backend: Copy + PartialOrd + Debug {
     type Accum: Copy + PartialOrd + Debug;
 
     /// Zero signal.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert_eq!(<I16F16 as Backend>::ZERO, I16F16::ZERO);
+    /// assert_eq!(<f32 as Backend>::ZERO, 0.0);
+    /// ```
     const ZERO: Self;
     /// Short name for reports: `"fixed"`, `"f32"`, `"f64"`.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert_eq!([I16F16::NAME, f32::NAME, f64::NAME], ["fixed", "f32", "f64"]);
+    /// ```
     const NAME: &'static str;
 
     /// Validate `settings` and store them in this backend's formats.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Settings};
+    /// let c = f32::configure(&Settings::new(0.1, 1.0, 1.0, 0.0, 1.0))?;
+    /// assert_eq!(c.output_limits(), (0.0, 1.0));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     ///
     /// # Errors
     /// A [`ConfigError`] naming the first setting that is invalid or does not
@@ -46,35 +78,146 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// Two coefficients with a common scale (needed to interpolate between
     /// them); `min_shift` as for [`FixedCoef::from_f64`]. `None` if either
     /// does not fit.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// let (a, b) = I16F16::coef_pair(0.5, 3.0, 0).ok_or("does not fit")?;
+    /// assert_eq!((a.shift(), b.shift()), (29, 29)); // the coarser natural shift (3.0's)
+    /// assert_eq!((a.to_f64(), b.to_f64()), (0.5, 3.0));
+    /// # Ok::<(), &str>(())
+    /// ```
     fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(Self::Coef, Self::Coef)>;
 
     /// Nearest signal to `x` (host-side conversion; saturates, NaN stays NaN
     /// for float backends and becomes 0 for fixed).
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// // I16F16: nearest, ties to even (1.5 LSB → 2, 2.5 LSB → 2), saturating.
+    /// assert_eq!(I16F16::from_f64(1.5 / 65_536.0).to_bits(), 2);
+    /// assert_eq!(I16F16::from_f64(2.5 / 65_536.0).to_bits(), 2);
+    /// assert_eq!(I16F16::from_f64(1.0e6), I16F16::MAX);
+    /// assert_eq!(I16F16::from_f64(f64::NAN), I16F16::ZERO);
+    /// assert!(f32::from_f64(f64::NAN).is_nan());
+    /// ```
     fn from_f64(x: f64) -> Self;
     /// The signal as `f64` (exact for all three backends).
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert_eq!(I16F16::from_bits(1).to_f64(), 1.0 / 65_536.0);
+    /// ```
     fn to_f64(self) -> f64;
     /// The coefficient as `f64` (exact for all three backends).
+    ///
+    /// ```
+    /// use evenkeel::{Backend, FixedCoef};
+    /// use fixed::types::I16F16;
+    /// let c = FixedCoef::with_shift(0.1, 20).ok_or("does not fit")?;
+    /// assert_eq!(I16F16::coef_to_f64(c), 104_858.0 / 1_048_576.0); // as stored, not 0.1
+    /// # Ok::<(), &str>(())
+    /// ```
     fn coef_to_f64(c: Self::Coef) -> f64;
 
     /// `false` for NaN and ±∞.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert!(!Backend::is_finite(f32::INFINITY));
+    /// assert!(Backend::is_finite(I16F16::MAX)); // fixed point is always finite
+    /// ```
     fn is_finite(self) -> bool;
     /// `self + other`, saturating where the format can overflow.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert_eq!(Backend::add(I16F16::MAX, I16F16::ONE), I16F16::MAX);
+    /// assert_eq!(Backend::add(1.5_f32, 2.0), 3.5);
+    /// ```
     fn add(self, other: Self) -> Self;
     /// `self − other`, saturating where the format can overflow.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert_eq!(Backend::sub(I16F16::MIN, I16F16::ONE), I16F16::MIN);
+    /// assert_eq!(Backend::sub(1.5_f64, 2.0), -0.5);
+    /// ```
     fn sub(self, other: Self) -> Self;
     /// `self · c`, rounded to a signal.
+    ///
+    /// Fixed point: nearest, ties toward +∞, saturating.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, FixedCoef};
+    /// use fixed::types::I16F16;
+    /// let half = FixedCoef::from_f64(0.5, 0).ok_or("does not fit")?;
+    /// assert_eq!(I16F16::from_bits(-3).scale(half).to_bits(), -1); // −1.5 LSB → −1
+    /// assert_eq!(Backend::scale(3.0_f32, 0.5), 1.5);
+    /// # Ok::<(), &str>(())
+    /// ```
     fn scale(self, c: Self::Coef) -> Self;
     /// `acc + x · c`, rounded at accumulator precision.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, FixedCoef};
+    /// use fixed::types::{I16F16, I32F32};
+    /// let k = FixedCoef::from_f64(1e-4, 16).ok_or("does not fit")?;
+    /// // 1e-4 · 1 LSB = 6.55 Q32.32 LSB → 7
+    /// assert_eq!(I16F16::scale_into(I32F32::ZERO, I16F16::from_bits(1), k).to_bits(), 7);
+    /// # Ok::<(), &str>(())
+    /// ```
     fn scale_into(acc: Self::Accum, x: Self, c: Self::Coef) -> Self::Accum;
     /// `acc + x`.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::{I16F16, I32F32};
+    /// let acc = I16F16::accumulate(I32F32::from_bits(1), I16F16::from_bits(1));
+    /// assert_eq!(acc.to_bits(), (1 << 16) + 1); // exact
+    /// ```
     fn accumulate(acc: Self::Accum, x: Self) -> Self::Accum;
     /// `acc − x`.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::{I16F16, I32F32};
+    /// assert_eq!(I16F16::deplete(I32F32::ZERO, I16F16::ONE), I32F32::from_num(-1));
+    /// assert_eq!(I16F16::deplete(I32F32::MIN, I16F16::ONE), I32F32::MIN); // saturates
+    /// ```
     fn deplete(acc: Self::Accum, x: Self) -> Self::Accum;
     /// The signal at accumulator precision (exact).
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert_eq!(I16F16::from_bits(1).widen().to_bits(), 1 << 16);
+    /// assert_eq!(0.1_f32.widen(), 0.1_f32); // float: identity
+    /// ```
     fn widen(self) -> Self::Accum;
     /// The accumulator rounded to a signal.
+    ///
+    /// Fixed point: nearest, ties toward +∞, saturating.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::{I16F16, I32F32};
+    /// // ±½ LSB → 1 and 0
+    /// assert_eq!(I16F16::narrow(I32F32::from_bits(0x8000)).to_bits(), 1);
+    /// assert_eq!(I16F16::narrow(I32F32::from_bits(-0x8000)).to_bits(), 0);
+    /// ```
     fn narrow(acc: Self::Accum) -> Self;
     /// Linear interpolation `lo + (hi − lo)·frac`, `frac` in [0, 1].
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// assert_eq!(f32::coef_lerp(1.0, 3.0, 0.25), 1.5);
+    /// ```
     fn coef_lerp(lo: Self::Coef, hi: Self::Coef, frac: Self) -> Self::Coef;
 }
 

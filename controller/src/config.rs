@@ -8,6 +8,15 @@ use crate::q::{self, COEF_REL_TOLERANCE, FixedCoef};
 use crate::settings::{PerSample, Settings};
 
 /// Largest relative error of the stored slew step (fixed point): 1 %.
+///
+/// ```
+/// use evenkeel::{Config, ConfigError, Setting, Settings, SLEW_REL_TOLERANCE};
+/// use fixed::types::I16F16;
+/// assert_eq!(SLEW_REL_TOLERANCE, 0.01);
+/// // 0.02 /s at Ts = 1 ms is 2e-5 per sample = 1.31 LSB → 1 LSB: 24 % off.
+/// let s = Settings::new(0.001, 1.0, 1.0, 0.0, 1.0).with_slew_per_s(0.02);
+/// assert_eq!(Config::<I16F16>::try_new(&s), Err(ConfigError::TooFine(Setting::Slew)));
+/// ```
 pub const SLEW_REL_TOLERANCE: f64 = 0.01;
 
 /// Per-sample coefficients and limits of one controller, in backend `B`'s
@@ -49,6 +58,17 @@ pub struct Config<B: Backend> {
 impl<B: Backend> Config<B> {
     /// Validate `settings` and store them in `B`'s formats.
     ///
+    /// ```
+    /// use evenkeel::{Config, ConfigError, Setting, Settings};
+    /// use fixed::types::I16F16;
+    /// let s = Settings::new(0.01, 1.0, 1.0, 0.0, 40_000.0);
+    /// let float = Config::<f32>::try_new(&s)?;
+    /// assert_eq!(float.output_limits(), (0.0, 40_000.0));
+    /// // 40 000 is outside Q16.16 (±32 768).
+    /// assert_eq!(Config::<I16F16>::try_new(&s), Err(ConfigError::OutOfFormat(Setting::OutputMax)));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
+    ///
     /// # Errors
     /// The first invalid setting, or one that does not fit `B`.
     pub fn try_new(settings: &Settings) -> Result<Self, ConfigError> {
@@ -67,47 +87,145 @@ impl<B: Backend> Config<B> {
     }
 
     /// Largest command change per sample, if slew limiting is on.
+    ///
+    /// Fixed point: R·Ts rounded to the nearest Q16.16 value, accepted only within
+    /// [`SLEW_REL_TOLERANCE`].
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings};
+    /// use fixed::types::I16F16;
+    /// let s = Settings::new(0.01, 1.0, 1.0, 0.0, 10.0);
+    /// assert_eq!(Config::<I16F16>::try_new(&s)?.slew_step(), None);
+    /// // 1 /s · 0.01 s = 0.01 = 655.36 LSB → 655 LSB.
+    /// let c = Config::<I16F16>::try_new(&s.with_slew_per_s(1.0))?;
+    /// assert_eq!(c.slew_step().map(I16F16::to_bits), Some(655));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn slew_step(&self) -> Option<B> {
         self.slew_step
     }
 
     /// Stored Kp.
+    ///
+    /// Fixed point: a [`FixedCoef`] within relative error 2⁻²⁰ ([`COEF_REL_TOLERANCE`]).
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings, q::COEF_REL_TOLERANCE};
+    /// use fixed::types::I16F16;
+    /// let c = Config::<I16F16>::try_new(&Settings::new(0.01, 0.1, 1.0, 0.0, 10.0))?;
+    /// assert!((c.kp().to_f64() - 0.1).abs() <= 0.1 * COEF_REL_TOLERANCE);
+    /// assert_eq!(Config::<f32>::try_new(&Settings::new(0.01, 0.1, 1.0, 0.0, 10.0))?.kp(), 0.1);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn kp(&self) -> B::Coef {
         self.kp
     }
 
     /// Stored Ki·Ts.
+    ///
+    /// Fixed point: relative error ≤ 2⁻²⁰, shift ≥ 16 (so it is applied at Q32.32
+    /// precision).
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings, q::COEF_REL_TOLERANCE};
+    /// use fixed::types::I16F16;
+    /// // Ki = 5 /s, Ts = 10 ms: Ki·Ts = 0.05 per sample.
+    /// let c = Config::<I16F16>::try_new(&Settings::new(0.01, 1.0, 5.0, 0.0, 10.0))?;
+    /// assert!((c.ki_ts().to_f64() - 0.05).abs() <= 0.05 * COEF_REL_TOLERANCE);
+    /// assert!(c.ki_ts().shift() >= 16);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn ki_ts(&self) -> B::Coef {
         self.ki_ts
     }
 
     /// Stored Ts/Tt (back-calculation only).
+    ///
+    /// ```
+    /// use evenkeel::{AntiWindup, Config, Settings};
+    /// let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1.0);
+    /// assert_eq!(Config::<f64>::try_new(&s)?.tracking_ratio(), None);
+    /// let bc = s.with_anti_windup(AntiWindup::BackCalculation { tracking_time_s: 0.5 });
+    /// assert_eq!(Config::<f64>::try_new(&bc)?.tracking_ratio(), Some(0.02)); // 0.01 / 0.5
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn tracking_ratio(&self) -> Option<B::Coef> {
         self.tracking_ratio
     }
 
     /// Stored filter coefficient α.
+    ///
+    /// α = Ts/(Tf + Ts) (backward Euler).
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings};
+    /// use fixed::types::I16F16;
+    /// let s = Settings::new(0.25, 1.0, 1.0, 0.0, 1.0).with_filter_time_s(0.75);
+    /// let c = Config::<I16F16>::try_new(&s)?;
+    /// assert_eq!(c.filter_alpha().map(|a| a.to_f64()), Some(0.25)); // 0.25 / (0.75 + 0.25)
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn filter_alpha(&self) -> Option<B::Coef> {
         self.filter_alpha
     }
 
     /// Stored setpoint weight (`None` when it is exactly 1).
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings};
+    /// let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1.0);
+    /// assert_eq!(Config::<f32>::try_new(&s)?.setpoint_weight(), None); // b = 1: no multiply
+    /// let weighted = s.with_setpoint_weight(0.5);
+    /// assert_eq!(Config::<f32>::try_new(&weighted)?.setpoint_weight(), Some(0.5));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn setpoint_weight(&self) -> Option<B::Coef> {
         self.setpoint_weight
     }
 
     /// Stored deadband half-width.
+    ///
+    /// Fixed point: rounded to the nearest Q16.16 value.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings};
+    /// use fixed::types::I16F16;
+    /// let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1.0).with_deadband(0.1);
+    /// // 0.1 · 2¹⁶ = 6553.6 → 6554 LSB
+    /// assert_eq!(Config::<I16F16>::try_new(&s)?.deadband().map(I16F16::to_bits), Some(6554));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn deadband(&self) -> Option<B> {
         self.deadband
     }
 
     /// Plausible measurement range `(min, max)`.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings};
+    /// let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1.0);
+    /// assert_eq!(Config::<f64>::try_new(&s)?.measurement_range(), (-30_000.0, 30_000.0));
+    /// let narrow = s.with_measurement_range(0.0, 500.0);
+    /// assert_eq!(Config::<f64>::try_new(&narrow)?.measurement_range(), (0.0, 500.0));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn measurement_range(&self) -> (B, B) {
         (self.measurement_min, self.measurement_max)
     }
 
     /// The same configuration with new proportional and per-sample integral
     /// coefficients (used by gain schedules).
+    ///
+    /// `ki_ts` is per sample (Ki·Ts), not per second.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings};
+    /// let c = Config::<f64>::try_new(&Settings::new(0.1, 1.0, 2.0, -1.0, 1.0))?;
+    /// let g = c.with_gains(3.0, 0.5);
+    /// assert_eq!((g.kp(), g.ki_ts()), (3.0, 0.5));
+    /// assert_eq!(g.output_limits(), c.output_limits()); // everything else kept
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     #[must_use]
     pub fn with_gains(mut self, kp: B::Coef, ki_ts: B::Coef) -> Self {
         self.kp = kp;
@@ -134,6 +252,17 @@ impl Config<I16F16> {
     /// (always true for α and Ts/Tt); limits, slew step and deadband are
     /// rounded to the nearest Q16.16 value (the slew step must come within
     /// 1 %).
+    ///
+    /// ```
+    /// use evenkeel::{Config, ConfigError, Settings};
+    /// use fixed::types::I16F16;
+    /// const C: Result<Config<I16F16>, ConfigError> =
+    ///     Config::<I16F16>::new(&Settings::new(0.01, 2.0, 1.0, 0.0, 5.0));
+    /// let c = C?;
+    /// assert_eq!(c.kp().to_f64(), 2.0); // powers of two are stored exactly
+    /// assert_eq!(c.output_limits(), (I16F16::ZERO, I16F16::from_num(5)));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     ///
     /// # Errors
     /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`] and
@@ -228,6 +357,17 @@ macro_rules! float_config {
     ($t:ty, $limit:expr, $doc:literal) => {
         impl Config<$t> {
             #[doc = $doc]
+            ///
+            /// ```
+            /// use evenkeel::{Config, ConfigError, Setting, Settings};
+            /// let s = Settings::new(0.01, 2.0, 1.0, 0.0, 5.0);
+            /// // Ki·Ts = 0.01 rounded once (IEEE nearest) into each format.
+            /// assert_eq!(Config::<f32>::new(&s)?.ki_ts(), 0.01_f32);
+            /// assert_eq!(Config::<f64>::new(&s)?.ki_ts(), 0.01_f64);
+            /// let huge = Settings::new(0.01, 2.0e12, 1.0, 0.0, 5.0); // Kp above 1e12
+            /// assert_eq!(Config::<f32>::new(&huge), Err(ConfigError::OutOfFormat(Setting::Kp)));
+            /// # Ok::<(), evenkeel::ConfigError>(())
+            /// ```
             ///
             /// # Errors
             /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`]
@@ -372,6 +512,14 @@ macro_rules! config {
 impl ConfigError {
     /// A fixed one-line description (usable in `const` context, where
     /// `Display` is not).
+    ///
+    /// ```
+    /// use evenkeel::{ConfigError, Setting};
+    /// const TEXT: &str = ConfigError::NoAction.summary();
+    /// assert_eq!(TEXT, "evenkeel configuration: kp and ki are both zero");
+    /// let e = ConfigError::NotPositive(Setting::Period);
+    /// assert_eq!(e.summary(), "evenkeel configuration: a setting that must be > 0 is not");
+    /// ```
     #[must_use]
     pub const fn summary(self) -> &'static str {
         match self {

@@ -43,6 +43,13 @@ pub struct Input<B> {
 
 impl<B: Backend> Input<B> {
     /// Setpoint and measurement; no feed-forward, no applied value.
+    ///
+    /// ```
+    /// use evenkeel::Input;
+    /// let i = Input::new(2.0_f64, 1.5);
+    /// assert_eq!((i.setpoint, i.measurement), (2.0, 1.5));
+    /// assert_eq!((i.feed_forward, i.applied), (0.0, None));
+    /// ```
     pub fn new(setpoint: B, measurement: B) -> Self {
         Self {
             setpoint,
@@ -53,6 +60,14 @@ impl<B: Backend> Input<B> {
     }
 
     /// Add a feed-forward term.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Input, Settings};
+    /// let mut pi = Controller::new(Config::<f64>::try_new(&Settings::new(0.1, 1.0, 0.0, -5.0, 5.0))?);
+    /// let out = pi.step_with(&Input::new(1.0, 0.75).with_feed_forward(0.5));
+    /// assert_eq!(out.command, 0.75); // P = 0.25, plus 0.5 feed-forward
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     #[must_use]
     pub fn with_feed_forward(mut self, feed_forward: B) -> Self {
         self.feed_forward = feed_forward;
@@ -60,6 +75,16 @@ impl<B: Backend> Input<B> {
     }
 
     /// Report what the actuator applied of the previous command.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Input, Settings, Status};
+    /// let mut pi = Controller::new(Config::<f64>::try_new(&Settings::new(0.1, 1.0, 0.0, -5.0, 5.0))?);
+    /// assert_eq!(pi.step(2.0, 0.0).command, 2.0);
+    /// // The actuator only gave 1.5 of the 2.0 commanded.
+    /// let out = pi.step_with(&Input::new(2.0, 0.0).with_applied(1.5));
+    /// assert!(out.status.contains(Status::DOWNSTREAM) && out.status.is_limited());
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     #[must_use]
     pub fn with_applied(mut self, applied: B) -> Self {
         self.applied = Some(applied);
@@ -68,6 +93,15 @@ impl<B: Backend> Input<B> {
 }
 
 /// Result of one step.
+///
+/// ```
+/// use evenkeel::{Config, Controller, Output, Settings, Status};
+/// let mut pi = Controller::new(Config::<f32>::try_new(&Settings::new(0.1, 1.0, 0.0, 0.0, 4.0))?);
+/// let out: Output<f32> = pi.step(10.0, 0.0);
+/// assert_eq!(out.command, 4.0); // P = 10, clamped to output_max
+/// assert_eq!(out.status, Status::CLAMP_HIGH | Status::INTEGRATOR_HELD);
+/// # Ok::<(), evenkeel::ConfigError>(())
+/// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Output<B> {
@@ -107,6 +141,14 @@ pub struct Controller<B: Backend> {
 impl<B: Backend> Controller<B> {
     /// A controller at rest: integrator zero, last command zero clamped into
     /// the output limits (so the first command is slew-limited from there).
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Settings};
+    /// let pi = Controller::new(Config::<f64>::try_new(&Settings::new(0.1, 1.0, 1.0, 2.0, 5.0))?);
+    /// assert_eq!(pi.last_command(), 2.0); // zero clamped into [2, 5]
+    /// assert_eq!(pi.integral(), 0.0);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn new(config: Config<B>) -> Self {
         let rest = clamp(B::ZERO, config.output_min, config.output_max);
         Self {
@@ -136,16 +178,44 @@ impl<B: Backend> Controller<B> {
     }
 
     /// The configuration in use.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Settings};
+    /// let pi = Controller::new(Config::<f64>::try_new(&Settings::new(0.1, 1.0, 1.0, -1.0, 1.0))?);
+    /// assert_eq!(pi.config().output_limits(), (-1.0, 1.0));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn config(&self) -> &Config<B> {
         &self.config
     }
 
     /// The integral term I, rounded to a signal (output units).
+    ///
+    /// Fixed point: the Q32.32 integrator rounded to nearest Q16.16, ties toward +∞.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Settings};
+    /// use fixed::types::I16F16;
+    /// let mut pi = Controller::new(Config::<I16F16>::try_new(&Settings::new(0.01, 0.0, 1.0, -1.0, 1.0))?);
+    /// pi.step(I16F16::ONE, I16F16::ZERO);
+    /// // Ki·Ts·e = 0.01 = 655.36 LSB → 655 LSB
+    /// assert_eq!(pi.integral().to_bits(), 655);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn integral(&self) -> B {
         B::narrow(self.integral)
     }
 
     /// The last command returned.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Settings};
+    /// let s = Settings::new(0.1, 1.0, 0.0, -10.0, 10.0).with_slew_per_s(1.0);
+    /// let mut pi = Controller::new(Config::<f64>::try_new(&s)?);
+    /// pi.step(5.0, 0.0); // P = 5, slew-limited to 1 /s · 0.1 s
+    /// assert_eq!(pi.last_command(), 0.1);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn last_command(&self) -> B {
         self.last_command
     }
@@ -171,6 +241,16 @@ impl<B: Backend> Controller<B> {
     /// follows `actuator` (returned as the command, clamped) and keeps its
     /// integrator aligned so that a later [`Controller::step`] continues
     /// without a bump.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Input, Settings, Status};
+    /// let mut pi = Controller::new(Config::<f64>::try_new(&Settings::new(0.5, 1.0, 0.5, 0.0, 10.0))?);
+    /// let out = pi.track(&Input::new(3.0, 2.0), 6.5); // manual mode holds 6.5
+    /// assert_eq!(out.command, 6.5);
+    /// assert!(out.status.contains(Status::TRACKING));
+    /// assert_eq!(pi.step(3.0, 2.0).command, 6.75); // continues: + Ki·Ts·e = 0.25
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn track(&mut self, input: &Input<B>, actuator: B) -> Output<B> {
         self.engage(actuator);
         let mut out = self.step_with(input);
@@ -208,6 +288,16 @@ impl<B: Backend> Controller<B> {
     }
 
     /// One control step with setpoint and measurement only.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Settings};
+    /// use fixed::types::I16F16;
+    /// let mut pi = Controller::new(Config::<I16F16>::try_new(&Settings::new(0.01, 0.5, 0.0, -1.0, 1.0))?);
+    /// // Kp·e = 0.5 · ±3 LSB = ±1.5 LSB → 2 and −1 (nearest, ties toward +∞)
+    /// assert_eq!(pi.step(I16F16::from_bits(3), I16F16::ZERO).command.to_bits(), 2);
+    /// assert_eq!(pi.step(I16F16::from_bits(-3), I16F16::ZERO).command.to_bits(), -1);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn step(&mut self, setpoint: B, measurement: B) -> Output<B> {
         self.step_with(&Input::new(setpoint, measurement))
     }
@@ -216,8 +306,18 @@ impl<B: Backend> Controller<B> {
     /// always within the output limits, and (except on an engage step, where
     /// it equals the actuator's present value) differs from the last command
     /// by at most the slew step.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Input, Settings, Status};
+    /// let mut pi = Controller::new(Config::<f32>::try_new(&Settings::new(0.1, 1.0, 0.0, -5.0, 5.0))?);
+    /// let out = pi.step_with(&Input::new(2.0, 0.5).with_feed_forward(1.0));
+    /// assert_eq!(out.command, 2.5); // P = 1.5, plus 1.0 feed-forward
+    /// let out = pi.step_with(&Input::new(2.0, f32::NAN));
+    /// assert_eq!((out.command, out.status), (2.5, Status::NON_FINITE)); // held
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn step_with(&mut self, input: &Input<B>) -> Output<B> {
-        let c = self.config;
+        let c = &self.config;
         let applied_ok = match input.applied {
             Some(a) => a.is_finite(),
             None => true,
@@ -257,7 +357,7 @@ impl<B: Backend> Controller<B> {
         };
         self.filter_primed = true;
 
-        let (p, e) = proportional(&c, r, y_f);
+        let (p, e) = proportional(c, r, y_f);
         if c.deadband.is_some() && e == B::ZERO {
             status |= Status::DEADBAND;
         }

@@ -3,6 +3,12 @@
 use core::fmt;
 
 /// Names one setting of [`crate::Settings`] in an error.
+///
+/// ```
+/// use evenkeel::{ConfigError, Setting, Settings};
+/// let negative_kp = Settings::new(0.01, -1.0, 1.0, 0.0, 1.0);
+/// assert_eq!(negative_kp.per_sample(), Err(ConfigError::Negative(Setting::Kp)));
+/// ```
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
@@ -37,6 +43,12 @@ pub enum Setting {
 
 impl Setting {
     /// The field name, as in [`crate::Settings`].
+    ///
+    /// ```
+    /// use evenkeel::Setting;
+    /// assert_eq!(Setting::Ki.name(), "ki_per_s");
+    /// assert_eq!(Setting::Slew.name(), "slew_per_s");
+    /// ```
     #[must_use]
     pub const fn name(self) -> &'static str {
         match self {

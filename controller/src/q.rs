@@ -22,15 +22,44 @@ use fixed::types::{I16F16, I32F32};
 
 /// Largest relative error a configuration accepts when it stores a gain as a
 /// [`FixedCoef`] (2⁻²⁰ ≈ 9.5e-7).
+///
+/// ```
+/// use evenkeel::{FixedCoef, q::COEF_REL_TOLERANCE};
+/// assert_eq!(1.0 / COEF_REL_TOLERANCE, 1_048_576.0); // 2⁻²⁰
+/// let c = FixedCoef::from_f64(0.3, 0).ok_or("does not fit")?;
+/// assert!((c.to_f64() - 0.3).abs() <= 0.3 * COEF_REL_TOLERANCE);
+/// # Ok::<(), &str>(())
+/// ```
 pub const COEF_REL_TOLERANCE: f64 = 1.0 / 1_048_576.0;
 
 /// Fractional bits of a signal (Q16.16).
+///
+/// ```
+/// use evenkeel::q::SIGNAL_FRAC_BITS;
+/// use fixed::types::I16F16;
+/// assert_eq!(I16F16::ONE.to_bits(), 1 << SIGNAL_FRAC_BITS); // one LSB = 2⁻¹⁶
+/// ```
 pub const SIGNAL_FRAC_BITS: u32 = 16;
 
 /// Fractional bits of an accumulator (Q32.32).
+///
+/// ```
+/// use evenkeel::q::{ACCUM_FRAC_BITS, signal_to_accum};
+/// use fixed::types::I16F16;
+/// assert_eq!(signal_to_accum(I16F16::ONE).to_bits(), 1 << ACCUM_FRAC_BITS); // one LSB = 2⁻³²
+/// ```
 pub const ACCUM_FRAC_BITS: u32 = 32;
 
 /// Largest coefficient shift.
+///
+/// ```
+/// use evenkeel::{FixedCoef, q::MAX_SHIFT};
+/// // 1e-12 · 2⁶² ≈ 4.6e6 is far below 2³¹: the shift is capped at 62.
+/// let tiny = FixedCoef::from_f64(1e-12, 0).ok_or("does not fit")?;
+/// assert_eq!(tiny.shift(), MAX_SHIFT);
+/// assert!(FixedCoef::with_shift(0.0, MAX_SHIFT + 1).is_none());
+/// # Ok::<(), &str>(())
+/// ```
 pub const MAX_SHIFT: u32 = 62;
 
 /// A coefficient for the fixed-point backend: `mantissa · 2^-shift`.
@@ -53,6 +82,13 @@ pub struct FixedCoef {
 
 impl FixedCoef {
     /// The coefficient zero.
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// use fixed::types::I16F16;
+    /// assert_eq!(FixedCoef::ZERO.to_f64(), 0.0);
+    /// assert_eq!(FixedCoef::ZERO.scale(I16F16::MAX), I16F16::ZERO);
+    /// ```
     pub const ZERO: Self = Self {
         mantissa: 0,
         shift: 0,
@@ -113,6 +149,19 @@ impl FixedCoef {
 
     /// Nearest coefficient to `value` with exactly this `shift`. `None` if the
     /// mantissa does not fit 31 bits or `value` is not finite.
+    ///
+    /// Rounds to nearest, ties away from zero.
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// let c = FixedCoef::with_shift(0.75, 2).ok_or("does not fit")?;
+    /// assert_eq!((c.mantissa(), c.shift()), (3, 2));
+    /// // ±0.625 · 2² = ±2.5 → ±3 (ties away from zero)
+    /// assert_eq!(FixedCoef::with_shift(0.625, 2).map(FixedCoef::mantissa), Some(3));
+    /// assert_eq!(FixedCoef::with_shift(-0.625, 2).map(FixedCoef::mantissa), Some(-3));
+    /// assert!(FixedCoef::with_shift(1.0, 31).is_none()); // mantissa 2³¹ does not fit
+    /// # Ok::<(), &str>(())
+    /// ```
     #[must_use]
     pub const fn with_shift(value: f64, shift: u32) -> Option<Self> {
         if !value.is_finite() || shift > MAX_SHIFT {
@@ -130,18 +179,43 @@ impl FixedCoef {
     }
 
     /// The stored value as `f64` (exact).
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// // 0.1 · 2²⁰ = 104 857.6 → mantissa 104 858; the stored value comes back exactly.
+    /// let c = FixedCoef::with_shift(0.1, 20).ok_or("does not fit")?;
+    /// assert_eq!(c.to_f64(), 104_858.0 / 1_048_576.0);
+    /// # Ok::<(), &str>(())
+    /// ```
     #[must_use]
     pub const fn to_f64(self) -> f64 {
         self.mantissa as f64 / pow2(self.shift as u32)
     }
 
     /// The raw mantissa.
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// // 0.5 gets the largest shift that keeps the mantissa below 2³¹.
+    /// let half = FixedCoef::from_f64(0.5, 0).ok_or("does not fit")?;
+    /// assert_eq!(half.mantissa(), 1 << 30);
+    /// # Ok::<(), &str>(())
+    /// ```
     #[must_use]
     pub const fn mantissa(self) -> i32 {
         self.mantissa
     }
 
     /// The binary point position: value = mantissa · 2^-shift.
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// // 1500 · 2²⁰ ≈ 1.57e9 < 2³¹ ≤ 1500 · 2²¹: shift 20.
+    /// let c = FixedCoef::from_f64(1500.0, 0).ok_or("does not fit")?;
+    /// assert_eq!((c.shift(), c.mantissa()), (20, 1500 << 20));
+    /// assert!(FixedCoef::from_f64(1500.0, 21).is_none()); // needs a shift below 21
+    /// # Ok::<(), &str>(())
+    /// ```
     #[must_use]
     pub const fn shift(self) -> u32 {
         self.shift as u32
@@ -150,6 +224,17 @@ impl FixedCoef {
     /// `self + (other − self)·frac` with `frac` a Q16.16 fraction in [0, 1];
     /// both ends must share one shift (the schedule builder ensures it),
     /// otherwise `self` is returned. Rounds to nearest, saturates.
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// use fixed::types::I16F16;
+    /// let lo = FixedCoef::with_shift(1.0, 28).ok_or("does not fit")?;
+    /// let hi = FixedCoef::with_shift(3.0, 28).ok_or("does not fit")?;
+    /// assert_eq!(lo.lerp(hi, I16F16::from_num(0.25)).to_f64(), 1.5);
+    /// let other = FixedCoef::with_shift(3.0, 20).ok_or("does not fit")?;
+    /// assert_eq!(lo.lerp(other, I16F16::from_num(0.5)), lo); // shifts differ
+    /// # Ok::<(), &str>(())
+    /// ```
     #[must_use]
     pub fn lerp(self, other: Self, frac: I16F16) -> Self {
         if self.shift != other.shift {
@@ -166,6 +251,18 @@ impl FixedCoef {
     }
 
     /// `round(x · self)` as a Q16.16 signal, saturated.
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// use fixed::types::I16F16;
+    /// let half = FixedCoef::from_f64(0.5, 0).ok_or("does not fit")?;
+    /// // ±3 LSB · 0.5 = ±1.5 LSB → 2 and −1 (ties toward +∞)
+    /// assert_eq!(half.scale(I16F16::from_bits(3)).to_bits(), 2);
+    /// assert_eq!(half.scale(I16F16::from_bits(-3)).to_bits(), -1);
+    /// let big = FixedCoef::from_f64(1000.0, 0).ok_or("does not fit")?;
+    /// assert_eq!(big.scale(I16F16::MAX), I16F16::MAX); // saturates
+    /// # Ok::<(), &str>(())
+    /// ```
     #[inline]
     #[must_use]
     pub fn scale(self, x: I16F16) -> I16F16 {
@@ -175,6 +272,17 @@ impl FixedCoef {
     /// `acc + round(x · self)` with the product rounded at Q32.32 precision,
     /// saturated. `self.shift()` must be at least 16 (configuration ensures
     /// it for every coefficient used this way); smaller shifts saturate.
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// use fixed::types::{I16F16, I32F32};
+    /// let k = FixedCoef::from_f64(1e-4, 16).ok_or("does not fit")?;
+    /// // 1e-4 · 1 LSB = 6.55 Q32.32 LSB → 7: kept, although far below one signal LSB.
+    /// let acc = k.scale_into(I32F32::ZERO, I16F16::from_bits(1));
+    /// assert_eq!(acc.to_bits(), 7);
+    /// assert_eq!(k.scale(I16F16::from_bits(1)), I16F16::ZERO); // lost at Q16.16
+    /// # Ok::<(), &str>(())
+    /// ```
     #[inline]
     #[must_use]
     pub fn scale_into(self, acc: I32F32, x: I16F16) -> I32F32 {
@@ -189,17 +297,32 @@ impl FixedCoef {
     }
 
     /// `round(x · mantissa / 2^(shift − lift))`; `lift ≤ shift`.
+    ///
+    /// Branch-free: `shift ≤ 62` is an invariant of the type (every
+    /// constructor enforces it), so `s = shift − lift` is in 0..=62,
+    /// `half = 2^s / 2` is 0 for `s = 0`, the product is exact
+    /// (|x · mantissa| ≤ 2^31 · 2^31 = 2^62) and `product + half` stays
+    /// below 2^62 + 2^61 < 2^63: the wrapping operations never wrap.
     #[inline]
     fn product(self, x: i32, lift: u32) -> i64 {
-        // |x · mantissa| ≤ 2^31 · 2^31 = 2^62: exact in i64.
-        let exact = i64::from(x).saturating_mul(i64::from(self.mantissa));
-        round_shift(exact, u32::from(self.shift).saturating_sub(lift))
+        let exact = i64::from(x).wrapping_mul(i64::from(self.mantissa));
+        let s = u32::from(self.shift).saturating_sub(lift) & 63;
+        let half = (1i64 << s) >> 1;
+        exact.wrapping_add(half) >> s
     }
 }
 
 /// `floor(p / 2^s + 1/2)`: round to nearest, ties toward +∞, for
 /// `s ≤ 62` and `|p| ≤ 2^62` (then `p + half` cannot overflow); larger inputs
 /// saturate instead of wrapping.
+///
+/// ```
+/// use evenkeel::q::round_shift;
+/// assert_eq!(round_shift(5, 1), 3); // 2.5 → 3
+/// assert_eq!(round_shift(-5, 1), -2); // −2.5 → −2: ties toward +∞
+/// assert_eq!(round_shift(-7, 2), -2); // −1.75 → −2
+/// assert!(round_shift(i64::MAX, 1) > 0); // saturates, no wrap
+/// ```
 #[inline]
 #[must_use]
 pub const fn round_shift(p: i64, s: u32) -> i64 {
@@ -212,20 +335,41 @@ pub const fn round_shift(p: i64, s: u32) -> i64 {
 }
 
 /// Saturate an `i64` into `i32`.
+///
+/// ```
+/// use evenkeel::q::saturate_i32;
+/// assert_eq!(saturate_i32(-5), -5);
+/// assert_eq!(saturate_i32(1 << 40), i32::MAX);
+/// assert_eq!(saturate_i32(-(1 << 40)), i32::MIN);
+/// ```
 #[inline]
 #[must_use]
 pub const fn saturate_i32(x: i64) -> i32 {
-    if x > i32::MAX as i64 {
-        i32::MAX
-    } else if x < i32::MIN as i64 {
-        i32::MIN
+    // Compiles to two conditional moves.
+    let clamped = if x > i32::MAX as i64 {
+        i32::MAX as i64
     } else {
-        x as i32
-    }
+        x
+    };
+    let clamped = if clamped < i32::MIN as i64 {
+        i32::MIN as i64
+    } else {
+        clamped
+    };
+    clamped as i32
 }
 
 /// Round a Q32.32 accumulator to the nearest Q16.16 signal (ties toward +∞),
 /// saturating.
+///
+/// ```
+/// use evenkeel::q::accum_to_signal;
+/// use fixed::types::{I16F16, I32F32};
+/// // 0x8000 Q32.32 LSB is half a Q16.16 LSB: ±½ → 1 and 0 (ties toward +∞).
+/// assert_eq!(accum_to_signal(I32F32::from_bits(0x8000)).to_bits(), 1);
+/// assert_eq!(accum_to_signal(I32F32::from_bits(-0x8000)).to_bits(), 0);
+/// assert_eq!(accum_to_signal(I32F32::from_num(1e6)), I16F16::MAX); // saturates
+/// ```
 #[inline]
 #[must_use]
 pub fn accum_to_signal(acc: I32F32) -> I16F16 {
@@ -233,6 +377,14 @@ pub fn accum_to_signal(acc: I32F32) -> I16F16 {
 }
 
 /// Widen a Q16.16 signal into a Q32.32 accumulator (exact).
+///
+/// ```
+/// use evenkeel::q::{accum_to_signal, signal_to_accum};
+/// use fixed::types::I16F16;
+/// assert_eq!(signal_to_accum(I16F16::from_bits(1)).to_bits(), 1 << 16);
+/// let x = I16F16::from_num(-2.25);
+/// assert_eq!(accum_to_signal(signal_to_accum(x)), x); // round trip is exact
+/// ```
 #[inline]
 #[must_use]
 pub fn signal_to_accum(x: I16F16) -> I32F32 {
@@ -241,6 +393,16 @@ pub fn signal_to_accum(x: I16F16) -> I32F32 {
 
 /// Nearest Q16.16 value to `value` (ties away from zero), or `None` if it is
 /// not finite or outside the Q16.16 range.
+///
+/// ```
+/// use evenkeel::q::signal_from_f64;
+/// use fixed::types::I16F16;
+/// assert_eq!(signal_from_f64(1.5).map(I16F16::to_bits), Some(98_304));
+/// // ±½ LSB → ±1 LSB (ties away from zero)
+/// assert_eq!(signal_from_f64(0.5 / 65_536.0).map(I16F16::to_bits), Some(1));
+/// assert_eq!(signal_from_f64(-0.5 / 65_536.0).map(I16F16::to_bits), Some(-1));
+/// assert_eq!(signal_from_f64(32_768.0), None); // out of range
+/// ```
 #[must_use]
 pub const fn signal_from_f64(value: f64) -> Option<I16F16> {
     if !value.is_finite() {

@@ -10,6 +10,16 @@ use crate::error::{ConfigError, Setting};
 use crate::settings::Settings;
 
 /// One row of a schedule in physical units.
+///
+/// ```
+/// use evenkeel::{Breakpoint, ConfigError, Schedule, Settings};
+/// let base = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0);
+/// let low = Breakpoint { at: 0.0, kp: 1.0, ki_per_s: 2.0 };
+/// let high = Breakpoint { at: 8.0, kp: 3.0, ki_per_s: 4.0 };
+/// assert!(Schedule::<f64, 2>::new(&base, &[low, high]).is_ok());
+/// // `at` must increase strictly.
+/// assert_eq!(Schedule::<f64, 2>::new(&base, &[high, low]).err(), Some(ConfigError::Schedule));
+/// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Breakpoint {
@@ -56,6 +66,20 @@ impl<B: Backend, const N: usize> Schedule<B, N> {
     /// Every row is validated as a full configuration (`base` with the row's
     /// gains), so each scheduled gain is known to fit the backend.
     ///
+    /// ```
+    /// use evenkeel::{Breakpoint, ConfigError, Schedule, Settings};
+    /// let base = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0);
+    /// let rows = [
+    ///     Breakpoint { at: 0.0, kp: 1.0, ki_per_s: 2.0 },
+    ///     Breakpoint { at: 8.0, kp: 3.0, ki_per_s: 4.0 },
+    ///     Breakpoint { at: 16.0, kp: 5.0, ki_per_s: 6.0 },
+    /// ];
+    /// let table: Schedule<f32, 3> = Schedule::new(&base, &rows)?;
+    /// assert!(table.gains(4.0).is_some());
+    /// assert_eq!(Schedule::<f32, 2>::new(&base, &rows).err(), Some(ConfigError::Schedule)); // N too small
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
+    ///
     /// # Errors
     /// [`ConfigError::Schedule`] for fewer than two rows, more than `N`, or
     /// breakpoints not strictly increasing; otherwise the row's
@@ -98,6 +122,18 @@ impl<B: Backend, const N: usize> Schedule<B, N> {
 
     /// Interpolated `(Kp, Ki·Ts)` at `at`; held constant beyond the ends.
     /// Loops over at most `N − 1` segments.
+    ///
+    /// ```
+    /// use evenkeel::{Breakpoint, Schedule, Settings};
+    /// let base = Settings::new(0.25, 1.0, 1.0, 0.0, 100.0);
+    /// let table: Schedule<f64, 2> = Schedule::new(&base, &[
+    ///     Breakpoint { at: 0.0, kp: 1.0, ki_per_s: 2.0 },
+    ///     Breakpoint { at: 8.0, kp: 3.0, ki_per_s: 4.0 },
+    /// ])?;
+    /// assert_eq!(table.gains(2.0), Some((1.5, 0.625))); // a quarter of the way
+    /// assert_eq!(table.gains(100.0), Some((3.0, 1.0))); // held beyond the last row
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn gains(&self, at: B) -> Option<(B::Coef, B::Coef)> {
         let last = self.segments.last()?;
         let segment = self.segments.iter().find(|s| at <= s.to).unwrap_or(last);
@@ -138,6 +174,21 @@ fn checked_signal<B: Backend>(x: f64) -> Result<B, ConfigError> {
 impl<B: Backend> Controller<B> {
     /// Apply the schedule's gains at scheduling value `at`, bumplessly.
     /// Does nothing if the schedule is empty or `at` is not finite.
+    ///
+    /// ```
+    /// use evenkeel::{Breakpoint, Config, Controller, Schedule, Settings};
+    /// let base = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0);
+    /// let table: Schedule<f64, 2> = Schedule::new(&base, &[
+    ///     Breakpoint { at: 0.0, kp: 2.0, ki_per_s: 1.0 },
+    ///     Breakpoint { at: 8.0, kp: 6.0, ki_per_s: 1.0 },
+    /// ])?;
+    /// let mut pi = Controller::new(Config::try_new(&base)?);
+    /// pi.schedule(&table, f64::NAN); // ignored
+    /// assert_eq!(pi.config().kp(), 1.0);
+    /// pi.schedule(&table, 2.0);
+    /// assert_eq!(pi.config().kp(), 3.0);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     pub fn schedule<const N: usize>(&mut self, table: &Schedule<B, N>, at: B) {
         if !at.is_finite() {
             return;

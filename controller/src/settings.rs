@@ -13,6 +13,15 @@ use crate::error::{ConfigError, Setting};
 /// Both variants treat every limiter alike: the output clamp, the slew
 /// limiter, and a downstream limit reported through
 /// [`crate::Input::applied`].
+///
+/// ```
+/// use evenkeel::{AntiWindup, Settings};
+/// let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1.0);
+/// assert_eq!(s.anti_windup, AntiWindup::ConditionalIntegration); // the default
+/// let bc = s.with_anti_windup(AntiWindup::BackCalculation { tracking_time_s: 1.0 });
+/// assert_eq!(bc.per_sample()?.tracking_ratio, Some(0.01)); // Ts/Tt
+/// # Ok::<(), evenkeel::ConfigError>(())
+/// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum AntiWindup {
@@ -78,6 +87,15 @@ pub struct Settings {
 
 /// Settings turned into per-sample values (f64), ready to be stored in a
 /// backend's number format.
+///
+/// ```
+/// use evenkeel::Settings;
+/// let p = Settings::new(0.5, 2.0, 3.0, -1.0, 1.0).with_slew_per_s(4.0).per_sample()?;
+/// assert_eq!((p.kp, p.ki_ts, p.slew_step), (2.0, 1.5, Some(2.0)));
+/// // Integrator range: output range widened by its span (2) on each side.
+/// assert_eq!((p.integral_min, p.integral_max), (-3.0, 3.0));
+/// # Ok::<(), evenkeel::ConfigError>(())
+/// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct PerSample {
     /// Kp.
@@ -113,6 +131,14 @@ impl Settings {
     /// Settings with the given period, gains and output limits; no slew
     /// limit, filter or deadband; setpoint weight 1; conditional integration;
     /// measurement range ±30 000 (inside the Q16.16 range).
+    ///
+    /// ```
+    /// use evenkeel::{AntiWindup, Settings};
+    /// let s = Settings::new(0.01, 2.0, 1.0, -5.0, 5.0);
+    /// assert_eq!((s.setpoint_weight, s.slew_per_s, s.deadband), (1.0, None, None));
+    /// assert_eq!(s.anti_windup, AntiWindup::ConditionalIntegration);
+    /// assert_eq!((s.measurement_min, s.measurement_max), (-30_000.0, 30_000.0));
+    /// ```
     #[must_use]
     pub const fn new(
         period_s: f64,
@@ -161,6 +187,15 @@ impl Settings {
     }
 
     /// Set the setpoint weight b.
+    ///
+    /// ```
+    /// use evenkeel::{ConfigError, Settings};
+    /// let s = Settings::new(0.01, 2.0, 1.0, -5.0, 5.0);
+    /// assert_eq!(s.with_setpoint_weight(0.5).per_sample()?.setpoint_weight, Some(0.5));
+    /// let bad = s.with_setpoint_weight(1.5);
+    /// assert_eq!(bad.per_sample(), Err(ConfigError::SetpointWeightOutOfRange));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     #[must_use]
     pub const fn with_setpoint_weight(mut self, b: f64) -> Self {
         self.setpoint_weight = b;
@@ -168,6 +203,13 @@ impl Settings {
     }
 
     /// Limit the command rate to `rate` units per second.
+    ///
+    /// ```
+    /// use evenkeel::Settings;
+    /// let s = Settings::new(0.5, 2.0, 1.0, -5.0, 5.0).with_slew_per_s(3.0);
+    /// assert_eq!(s.per_sample()?.slew_step, Some(1.5)); // R·Ts per sample
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     #[must_use]
     pub const fn with_slew_per_s(mut self, rate: f64) -> Self {
         self.slew_per_s = Some(rate);
@@ -176,6 +218,14 @@ impl Settings {
 
     /// Filter the measurement with a first-order low-pass of time constant
     /// `tf` seconds.
+    ///
+    /// ```
+    /// use evenkeel::Settings;
+    /// let s = Settings::new(0.01, 2.0, 1.0, -5.0, 5.0).with_filter_time_s(0.03);
+    /// let alpha = s.per_sample()?.filter_alpha.unwrap_or(0.0);
+    /// assert!((alpha - 0.25).abs() < 1e-15); // α = Ts/(Tf + Ts) = 0.01/0.04
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     #[must_use]
     pub const fn with_filter_time_s(mut self, tf: f64) -> Self {
         self.filter_time_s = Some(tf);
@@ -184,6 +234,15 @@ impl Settings {
 
     /// Ignore errors smaller than `width` (continuous deadband: the error is
     /// shrunk by `width` towards zero).
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Settings, Status};
+    /// let s = Settings::new(0.1, 1.0, 0.0, -10.0, 10.0).with_deadband(0.25);
+    /// let mut pi = Controller::new(Config::<f64>::try_new(&s)?);
+    /// assert_eq!(pi.step(1.0, 0.0).command, 0.75); // error 1 shrunk by 0.25
+    /// assert!(pi.step(0.1, 0.0).status.contains(Status::DEADBAND));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     #[must_use]
     pub const fn with_deadband(mut self, width: f64) -> Self {
         self.deadband = Some(width);
@@ -191,6 +250,14 @@ impl Settings {
     }
 
     /// Choose the anti-windup method.
+    ///
+    /// ```
+    /// use evenkeel::{AntiWindup, ConfigError, Settings};
+    /// let s = Settings::new(0.01, 2.0, 1.0, -5.0, 5.0);
+    /// // Tt shorter than Ts: Ts/Tt = 10 is outside (0, 1].
+    /// let bad = s.with_anti_windup(AntiWindup::BackCalculation { tracking_time_s: 0.001 });
+    /// assert_eq!(bad.per_sample(), Err(ConfigError::TrackingRatioOutOfRange));
+    /// ```
     #[must_use]
     pub const fn with_anti_windup(mut self, method: AntiWindup) -> Self {
         self.anti_windup = method;
@@ -198,6 +265,16 @@ impl Settings {
     }
 
     /// Set the plausible measurement range.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Controller, Settings, Status};
+    /// let s = Settings::new(0.1, 1.0, 0.0, -10.0, 10.0).with_measurement_range(0.0, 5.0);
+    /// let mut pi = Controller::new(Config::<f64>::try_new(&s)?);
+    /// let out = pi.step(2.0, 7.0); // 7 is clamped to 5
+    /// assert_eq!(out.command, -3.0);
+    /// assert!(out.status.is_fault() && out.status.contains(Status::MEASUREMENT_RANGE));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     #[must_use]
     pub const fn with_measurement_range(mut self, min: f64, max: f64) -> Self {
         self.measurement_min = min;
@@ -207,6 +284,15 @@ impl Settings {
 
     /// Validate and compute per-sample values. Backend-independent checks
     /// only; backends add their own range checks ([`crate::Config`]).
+    ///
+    /// ```
+    /// use evenkeel::{ConfigError, Settings};
+    /// let p = Settings::new(0.01, 2.0, 4.0, 0.0, 10.0).per_sample()?;
+    /// assert_eq!(p.ki_ts, 4.0 * 0.01); // one IEEE product: the same on every target
+    /// let idle = Settings::new(0.01, 0.0, 0.0, 0.0, 1.0);
+    /// assert_eq!(idle.per_sample(), Err(ConfigError::NoAction));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     ///
     /// # Errors
     /// The first violated rule, as a [`ConfigError`].

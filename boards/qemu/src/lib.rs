@@ -1,0 +1,177 @@
+//! What every emulated evenkeel board does: replay the golden vectors, time
+//! the controller, print the results as semihosting text and exit with the
+//! verdict (QEMU's exit status).
+//!
+//! The panic handler calls a function that does not exist, so a firmware
+//! links only if the optimiser removed every panic path: the build itself
+//! is the panic-free proof (release profile; see `boards/README.md`).
+#![no_std]
+#![deny(missing_docs)]
+
+use core::fmt::Write;
+
+use cortex_m::peripheral::{SYST, syst::SystClkSource};
+use cortex_m_semihosting::debug::{self, EXIT_FAILURE, EXIT_SUCCESS};
+use cortex_m_semihosting::hio::{self, HostStream};
+use evenkeel_replay::cost::{self, Clock, Cost, Rate};
+use evenkeel_replay::replay::{self, Mismatch, Report};
+use evenkeel_replay::tables::VECTORS;
+
+/// What differs between the boards.
+#[derive(Clone, Copy, Debug)]
+pub struct Board {
+    /// Core and QEMU machine, for the log.
+    pub name: &'static str,
+    /// SysTick ticks per instruction under `-icount shift=10`.
+    pub rate: Rate,
+}
+
+/// Mismatches printed per scenario (all are counted).
+const PRINTED_PER_SCENARIO: u32 = 8;
+
+/// Semihosting standard output; output is best effort (a failed write is
+/// ignored: the exit status carries the verdict).
+struct Console {
+    out: Option<HostStream>,
+    printed: u32,
+}
+
+impl Write for Console {
+    fn write_str(&mut self, s: &str) -> core::fmt::Result {
+        match &mut self.out {
+            Some(out) => out.write_all(s.as_bytes()).map_err(|_| core::fmt::Error),
+            None => Ok(()),
+        }
+    }
+}
+
+impl Report for Console {
+    fn mismatch(&mut self, m: &Mismatch<'_>) {
+        if self.printed < PRINTED_PER_SCENARIO {
+            let _ = writeln!(
+                self,
+                "  MISMATCH {} step {}: command want {:#010x} got {:#010x}, status want {:#06x} got {:#06x}",
+                m.scenario, m.step, m.want_command, m.got_command, m.want_status, m.got_status
+            );
+        }
+        self.printed = self.printed.saturating_add(1);
+    }
+
+    fn scenario(&mut self, name: &str, steps: u32, mismatches: u32) {
+        let verdict = if mismatches == 0 { "ok" } else { "FAIL" };
+        let _ = writeln!(
+            self,
+            "  {verdict} {name} ({steps} steps, {mismatches} mismatches)"
+        );
+        self.printed = 0;
+    }
+}
+
+/// SysTick as an up-counter (it counts down from its reload value).
+struct SysTickClock(SYST);
+
+impl SysTickClock {
+    fn start(mut syst: SYST) -> Self {
+        syst.disable_interrupt();
+        syst.set_clock_source(SystClkSource::Core);
+        syst.set_reload(0x00ff_ffff);
+        syst.clear_current();
+        syst.enable_counter();
+        Self(syst)
+    }
+}
+
+impl Clock for SysTickClock {
+    fn ticks(&mut self) -> u32 {
+        !SYST::get_current() & 0x00ff_ffff
+    }
+}
+
+fn print_cost(console: &mut Console, what: &str, c: Cost) {
+    let mean = c.mean_tenths();
+    let _ = writeln!(
+        console,
+        "cost {what}: min {} mean {}.{} max {} instructions per step ({} steps)",
+        c.min,
+        mean / 10,
+        mean % 10,
+        c.max,
+        cost::STEPS
+    );
+}
+
+/// Run everything and exit: success only if the vector file read to the end
+/// and every step matched.
+pub fn run(board: &Board) -> ! {
+    let mut console = Console {
+        out: hio::hstdout().ok(),
+        printed: 0,
+    };
+    let _ = writeln!(console, "evenkeel boards: {}", board.name);
+    let _ = writeln!(console, "vectors: {} bytes", VECTORS.len());
+    let passed = match replay::run(&mut console) {
+        Ok(s) => {
+            let _ = writeln!(
+                console,
+                "replay: {} scenarios, {} steps, {} mismatches",
+                s.scenarios, s.steps, s.mismatches
+            );
+            s.mismatches == 0 && s.steps > 0
+        }
+        Err(e) => {
+            let _ = writeln!(console, "replay: ERROR {}", e.describe());
+            false
+        }
+    };
+
+    let timing = cortex_m::Peripherals::take().map(|p| SysTickClock::start(p.SYST));
+    if let Some(mut clock) = timing {
+        let full = cost::full(cost::FIXED_FULL, &mut clock, board.rate);
+        print_cost(&mut console, "fixed full", full);
+        let minimal = cost::minimal(cost::FIXED_MINIMAL, &mut clock, board.rate);
+        print_cost(&mut console, "fixed minimal", minimal);
+        #[cfg(feature = "f32")]
+        {
+            let full = cost::full(cost::F32_FULL, &mut clock, board.rate);
+            print_cost(&mut console, "f32 full", full);
+            let minimal = cost::minimal(cost::F32_MINIMAL, &mut clock, board.rate);
+            print_cost(&mut console, "f32 minimal", minimal);
+        }
+    }
+    let fixed = cost::controller_bytes::<evenkeel_replay::Fixed>();
+    let _ = writeln!(console, "ram fixed: {fixed} bytes per controller");
+    #[cfg(feature = "f32")]
+    {
+        let float = cost::controller_bytes::<f32>();
+        let _ = writeln!(console, "ram f32: {float} bytes per controller");
+    }
+
+    let _ = writeln!(console, "verdict: {}", if passed { "PASS" } else { "FAIL" });
+    exit(passed)
+}
+
+/// Exit QEMU with failure (for the boards' HardFault handlers).
+pub fn fault() -> ! {
+    if let Ok(mut out) = hio::hstdout() {
+        let _ = out.write_all(b"verdict: FAIL (hard fault)\n");
+    }
+    exit(false)
+}
+
+fn exit(passed: bool) -> ! {
+    debug::exit(if passed { EXIT_SUCCESS } else { EXIT_FAILURE });
+    loop {
+        cortex_m::asm::wfi();
+    }
+}
+
+#[panic_handler]
+fn panic(_: &core::panic::PanicInfo<'_>) -> ! {
+    unsafe extern "C" {
+        /// Deliberately defined nowhere: a firmware that still contains a
+        /// panic path fails to link, naming this symbol.
+        fn evenkeel_firmware_has_a_panic_path() -> !;
+    }
+    // SAFETY: never runs; the link fails first if this is reachable.
+    unsafe { evenkeel_firmware_has_a_panic_path() }
+}

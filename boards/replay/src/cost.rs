@@ -1,0 +1,209 @@
+//! Instructions per controller step, timed against a cycle counter.
+//!
+//! Method: under QEMU with `-icount shift=10` every instruction advances
+//! virtual time by exactly 1024 ns, and SysTick (clocked by the core clock)
+//! counts `f_clk · 1024 ns` ticks per instruction, so a tick difference is
+//! an exact instruction count ([`Rate`] converts, rounding to nearest). Each
+//! step is one call to a [`probe`] function between two counter readings;
+//! the cost of the readings alone is measured first and subtracted, so a
+//! figure counts the call, the argument set-up and the return.
+//!
+//! Two workloads of [`STEPS`] steps each run a closed loop around a fixed
+//! first-order plant `y ← y + (u − y)/8` with setpoint changes into and out
+//! of saturation: `full` uses every feature (filter, deadband, setpoint
+//! weight, slew limit, back-calculation, feed-forward, applied value,
+//! measurement range) through `step_with`; `minimal` uses the defaults
+//! (conditional integration, nothing else) through `step`.
+
+use evenkeel::fixed::types::I16F16;
+use evenkeel::{AntiWindup, Backend, Config, Controller, FixedCoef, Input, Settings};
+
+use crate::probe;
+
+/// Steps timed per workload.
+pub const STEPS: u32 = 256;
+
+/// Settings of the `full` workload.
+pub const FULL: Settings = Settings::new(0.01, 2.0, 5.0, -10.0, 10.0)
+    .with_slew_per_s(200.0)
+    .with_filter_time_s(0.02)
+    .with_deadband(0.01)
+    .with_setpoint_weight(0.7)
+    .with_anti_windup(AntiWindup::BackCalculation {
+        tracking_time_s: 0.1,
+    })
+    .with_measurement_range(-100.0, 100.0);
+
+/// Settings of the `minimal` workload.
+pub const MINIMAL: Settings = Settings::new(0.01, 2.0, 5.0, -10.0, 10.0);
+
+/// A free-running counter.
+pub trait Clock {
+    /// The counter; it must increase by the elapsed ticks, modulo 2²⁴.
+    fn ticks(&mut self) -> u32;
+}
+
+/// Counter ticks per instruction as a fraction `ticks / instructions`
+/// (mps2 at 25 MHz: 128/5 = 25.6; micro:bit at 16 MHz: 2048/125 = 16.384).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Rate {
+    /// Numerator.
+    pub ticks: u32,
+    /// Denominator.
+    pub instructions: u32,
+}
+
+impl Rate {
+    /// Instructions for `ticks`, rounded to nearest.
+    #[must_use]
+    pub fn instructions(self, ticks: u32) -> u32 {
+        let scaled = u64::from(ticks) * u64::from(self.instructions) + u64::from(self.ticks / 2);
+        let count = scaled.checked_div(u64::from(self.ticks)).unwrap_or(0);
+        u32::try_from(count).unwrap_or(u32::MAX)
+    }
+}
+
+/// Instructions per step over one workload.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Cost {
+    /// Fewest instructions of one step.
+    pub min: u32,
+    /// Most instructions of one step.
+    pub max: u32,
+    /// Sum over all [`STEPS`] steps.
+    pub total: u32,
+}
+
+impl Cost {
+    /// Mean per step in tenths of an instruction.
+    #[must_use]
+    pub fn mean_tenths(&self) -> u32 {
+        self.total.saturating_mul(10) / STEPS
+    }
+}
+
+struct Timer<'a, C: Clock> {
+    clock: &'a mut C,
+    rate: Rate,
+    overhead: u32,
+    cost: Cost,
+}
+
+impl<'a, C: Clock> Timer<'a, C> {
+    fn new(clock: &'a mut C, rate: Rate) -> Self {
+        let a = clock.ticks();
+        let b = clock.ticks();
+        let overhead = b.wrapping_sub(a) & 0x00ff_ffff;
+        Self {
+            clock,
+            rate,
+            overhead,
+            cost: Cost {
+                min: u32::MAX,
+                max: 0,
+                total: 0,
+            },
+        }
+    }
+
+    fn time<T>(&mut self, f: impl FnOnce() -> T) -> T {
+        let a = self.clock.ticks();
+        let out = f();
+        let b = self.clock.ticks();
+        let ticks = (b.wrapping_sub(a) & 0x00ff_ffff).saturating_sub(self.overhead);
+        let n = self.rate.instructions(ticks);
+        self.cost.min = self.cost.min.min(n);
+        self.cost.max = self.cost.max.max(n);
+        self.cost.total = self.cost.total.saturating_add(n);
+        out
+    }
+}
+
+/// A backend's constants for the workloads.
+pub trait Workload: Backend {
+    /// `x/8` as a coefficient.
+    const EIGHTH: Self::Coef;
+    /// Signal from a small integer.
+    fn int(x: i16) -> Self;
+}
+
+impl Workload for I16F16 {
+    const EIGHTH: FixedCoef = match FixedCoef::from_f64(0.125, 0) {
+        Some(c) => c,
+        None => FixedCoef::ZERO,
+    };
+    fn int(x: i16) -> Self {
+        I16F16::from_bits(i32::from(x) << 16)
+    }
+}
+
+#[cfg(feature = "f32")]
+impl Workload for f32 {
+    const EIGHTH: f32 = 0.125;
+    fn int(x: i16) -> Self {
+        f32::from(x)
+    }
+}
+
+fn setpoint<B: Workload>(k: u32) -> B {
+    match k {
+        0..64 => B::int(4),
+        64..128 => B::int(40), // far beyond the output range: saturation
+        128..192 => B::int(-3),
+        _ => B::int(1),
+    }
+}
+
+/// Time the `full` workload with configuration `config` (built from
+/// [`FULL`]).
+pub fn full<B: Workload>(config: Config<B>, clock: &mut impl Clock, rate: Rate) -> Cost {
+    let mut timer = Timer::new(clock, rate);
+    let mut pi = probe::new(config);
+    let mut y = B::ZERO;
+    let mut applied = B::ZERO;
+    for k in 0..STEPS {
+        let input = Input::new(setpoint::<B>(k), y)
+            .with_feed_forward(B::int(1))
+            .with_applied(applied);
+        let out = timer.time(|| probe::step_with(&mut pi, &input));
+        // A downstream limit at 8 that the controller hears about next step.
+        applied = if out.command > B::int(8) {
+            B::int(8)
+        } else {
+            out.command
+        };
+        y = y.add(applied.sub(y).scale(B::EIGHTH));
+    }
+    timer.cost
+}
+
+/// Time the `minimal` workload with configuration `config` (built from
+/// [`MINIMAL`]).
+pub fn minimal<B: Workload>(config: Config<B>, clock: &mut impl Clock, rate: Rate) -> Cost {
+    let mut timer = Timer::new(clock, rate);
+    let mut pi = probe::new(config);
+    let mut y = B::ZERO;
+    for k in 0..STEPS {
+        let r = setpoint::<B>(k);
+        let out = timer.time(|| probe::step(&mut pi, r, y));
+        y = y.add(out.command.sub(y).scale(B::EIGHTH));
+    }
+    timer.cost
+}
+
+/// Fixed-point configurations of the two workloads.
+pub const FIXED_FULL: Config<I16F16> = evenkeel::config!(I16F16, FULL);
+/// See [`FIXED_FULL`].
+pub const FIXED_MINIMAL: Config<I16F16> = evenkeel::config!(I16F16, MINIMAL);
+/// `f32` configurations of the two workloads.
+#[cfg(feature = "f32")]
+pub const F32_FULL: Config<f32> = evenkeel::config!(f32, FULL);
+/// See [`F32_FULL`].
+#[cfg(feature = "f32")]
+pub const F32_MINIMAL: Config<f32> = evenkeel::config!(f32, MINIMAL);
+
+/// Bytes of RAM one controller instance takes.
+#[must_use]
+pub const fn controller_bytes<B: Backend>() -> usize {
+    core::mem::size_of::<Controller<B>>()
+}

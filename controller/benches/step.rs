@@ -1,0 +1,95 @@
+//! Cost of one controller step per backend, minimal and full feature sets;
+//! engage and reset; building a configuration.
+//!
+//! `cargo bench -p evenkeel --bench step`. Report ratios measured in one
+//! run (BENCHMARKS.md); absolute times depend on the machine.
+
+use std::hint::black_box;
+
+use criterion::{BatchSize, Criterion, criterion_group, criterion_main};
+use evenkeel::{AntiWindup, Backend, Config, Controller, Input, Settings};
+use fixed::types::I16F16;
+
+/// Kp, Ki and limits only; conditional integration.
+const MINIMAL: Settings = Settings::new(0.01, 40.0, 20.0, -800.0, 1200.0);
+
+/// Every feature on: weighting, filter, deadband, slew, back-calculation.
+const FULL: Settings = Settings::new(0.01, 40.0, 20.0, -800.0, 1200.0)
+    .with_setpoint_weight(0.7)
+    .with_filter_time_s(0.05)
+    .with_deadband(0.01)
+    .with_slew_per_s(2000.0)
+    .with_anti_windup(AntiWindup::BackCalculation {
+        tracking_time_s: 0.5,
+    });
+
+/// 256 inputs that visit the linear region, both clamps and the slew limit.
+fn inputs<B: Backend>() -> Vec<Input<B>> {
+    (0..256)
+        .map(|k| {
+            let t = f64::from(k) / 256.0;
+            let r = if k < 128 { 4.0 } else { 1.0 };
+            let y = 4.0 * t + 0.05 * (37.0 * t).sin();
+            Input::new(B::from_f64(r), B::from_f64(y))
+                .with_feed_forward(B::from_f64(10.0))
+                .with_applied(B::ZERO)
+        })
+        .collect()
+}
+
+fn bench_backend<B: Backend>(c: &mut Criterion) {
+    let full_inputs = inputs::<B>();
+    // The minimal set also drops feed-forward and the applied value.
+    let minimal_inputs: Vec<Input<B>> = full_inputs
+        .iter()
+        .map(|i| Input::new(i.setpoint, i.measurement))
+        .collect();
+    for (label, settings, inputs) in [
+        ("minimal", MINIMAL, &minimal_inputs),
+        ("full", FULL, &full_inputs),
+    ] {
+        let config = Config::<B>::try_new(&settings).expect("valid bench settings");
+        let mut pi = Controller::new(config);
+        let mut k = 0usize;
+        c.bench_function(&format!("step/{}/{label}", B::NAME), |b| {
+            b.iter(|| {
+                k = (k + 1) & 255;
+                let input = inputs
+                    .get(k)
+                    .copied()
+                    .unwrap_or(Input::new(B::ZERO, B::ZERO));
+                black_box(pi.step_with(black_box(&input)))
+            })
+        });
+    }
+    let config = Config::<B>::try_new(&FULL).expect("valid bench settings");
+    c.bench_function(&format!("engage+step/{}", B::NAME), |b| {
+        b.iter_batched_ref(
+            || Controller::new(config),
+            |pi| {
+                pi.engage(B::from_f64(150.0));
+                black_box(pi.step(B::from_f64(4.0), B::from_f64(3.5)))
+            },
+            BatchSize::SmallInput,
+        )
+    });
+    c.bench_function(&format!("reset/{}", B::NAME), |b| {
+        let mut pi = Controller::new(config);
+        b.iter(|| {
+            pi.reset();
+            black_box(pi.last_command())
+        })
+    });
+    c.bench_function(&format!("configure/{}", B::NAME), |b| {
+        b.iter(|| black_box(Config::<B>::try_new(black_box(&FULL))))
+    });
+}
+
+fn benches(c: &mut Criterion) {
+    bench_backend::<I16F16>(c);
+    bench_backend::<f32>(c);
+    bench_backend::<f64>(c);
+}
+
+criterion_group!(step, benches);
+criterion_main!(step);

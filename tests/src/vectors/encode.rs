@@ -1,0 +1,201 @@
+//! Writer for the golden-vector file, format version 1
+//! (`shared/vectors/FORMAT.md`; the reader is `boards/replay/src/format.rs`).
+
+use evenkeel::{AntiWindup, Settings};
+
+use super::record::{Op, Recorded, Recording};
+
+/// First four bytes of a vector file.
+pub const MAGIC: [u8; 4] = *b"EKVF";
+/// Format version written.
+pub const VERSION: u8 = 1;
+
+const HAS_SLEW: u8 = 1 << 0;
+const HAS_FILTER: u8 = 1 << 1;
+const HAS_DEADBAND: u8 = 1 << 2;
+const HAS_BACK_CALCULATION: u8 = 1 << 3;
+
+const SETPOINT_CHANGED: u8 = 1 << 3;
+const FEED_FORWARD_CHANGED: u8 = 1 << 4;
+const APPLIED: u8 = 1 << 5;
+const STATUS_CHANGED: u8 = 1 << 6;
+
+/// Why recordings cannot be written.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub enum EncodeError {
+    /// More than 255 scenarios.
+    TooManyScenarios,
+    /// A name longer than 255 bytes or not ASCII.
+    Name(String),
+    /// A scenario with more than 255 retune gains or 65 535 steps.
+    TooLarge(String),
+}
+
+impl std::fmt::Display for EncodeError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            Self::TooManyScenarios => f.write_str("more than 255 scenarios"),
+            Self::Name(n) => write!(f, "scenario name {n:?} is not short ASCII"),
+            Self::TooLarge(n) => write!(f, "scenario {n} has too many gains or steps"),
+        }
+    }
+}
+
+impl std::error::Error for EncodeError {}
+
+/// The whole file for `recordings`, in order.
+///
+/// # Errors
+/// [`EncodeError`] if a count or name does not fit the format.
+pub fn encode(recordings: &[Recording]) -> Result<Vec<u8>, EncodeError> {
+    let mut body = Vec::new();
+    for r in recordings {
+        scenario(&mut body, r)?;
+    }
+    let count = u8::try_from(recordings.len()).map_err(|_| EncodeError::TooManyScenarios)?;
+    let mut file = Vec::with_capacity(body.len() + 10);
+    file.extend_from_slice(&MAGIC);
+    file.push(VERSION);
+    file.push(count);
+    file.extend_from_slice(&fnv1a(&body).to_le_bytes());
+    file.extend_from_slice(&body);
+    Ok(file)
+}
+
+/// FNV-1a, 32 bit.
+#[must_use]
+pub fn fnv1a(bytes: &[u8]) -> u32 {
+    bytes.iter().fold(0x811c_9dc5_u32, |h, &b| {
+        (h ^ u32::from(b)).wrapping_mul(0x0100_0193)
+    })
+}
+
+fn scenario(out: &mut Vec<u8>, r: &Recording) -> Result<(), EncodeError> {
+    let name = r.name.as_bytes();
+    let name_len = u8::try_from(name.len()).map_err(|_| EncodeError::Name(r.name.clone()))?;
+    if !r.name.is_ascii() {
+        return Err(EncodeError::Name(r.name.clone()));
+    }
+    out.push(name_len);
+    out.extend_from_slice(name);
+    settings(out, &r.settings);
+    let too_large = || EncodeError::TooLarge(r.name.clone());
+    out.push(u8::try_from(r.gains.len()).map_err(|_| too_large())?);
+    for (kp, ki_ts) in &r.gains {
+        for c in [kp, ki_ts] {
+            out.extend_from_slice(&c.mantissa().to_le_bytes());
+            out.push(u8::try_from(c.shift()).map_err(|_| too_large())?);
+        }
+    }
+    let steps = steps(&r.steps);
+    out.extend_from_slice(
+        &u16::try_from(r.steps.len())
+            .map_err(|_| too_large())?
+            .to_le_bytes(),
+    );
+    out.extend_from_slice(
+        &u32::try_from(steps.len())
+            .map_err(|_| too_large())?
+            .to_le_bytes(),
+    );
+    out.extend_from_slice(&steps);
+    Ok(())
+}
+
+fn settings(out: &mut Vec<u8>, s: &Settings) {
+    let tracking = match s.anti_windup {
+        AntiWindup::BackCalculation { tracking_time_s } => Some(tracking_time_s),
+        AntiWindup::ConditionalIntegration => None,
+    };
+    let optional = [
+        (HAS_SLEW, s.slew_per_s),
+        (HAS_FILTER, s.filter_time_s),
+        (HAS_DEADBAND, s.deadband),
+        (HAS_BACK_CALCULATION, tracking),
+    ];
+    let flags = optional
+        .iter()
+        .filter(|(_, v)| v.is_some())
+        .fold(0, |f, (bit, _)| f | bit);
+    out.push(flags);
+    for x in [
+        s.period_s,
+        s.kp,
+        s.ki_per_s,
+        s.setpoint_weight,
+        s.output_min,
+        s.output_max,
+        s.measurement_min,
+        s.measurement_max,
+    ] {
+        out.extend_from_slice(&x.to_bits().to_le_bytes());
+    }
+    for x in optional.iter().filter_map(|(_, v)| *v) {
+        out.extend_from_slice(&x.to_bits().to_le_bytes());
+    }
+}
+
+fn steps(recorded: &[Recorded]) -> Vec<u8> {
+    let mut out = Vec::new();
+    let mut prev = Recorded::default();
+    for s in recorded {
+        let (code, actuator, index) = match s.op {
+            Op::Step => (0, None, None),
+            Op::Engage(a) => (1, Some(a), None),
+            Op::Track(a) => (2, Some(a), None),
+            Op::Reset => (3, None, None),
+            Op::Retune(i) => (4, None, Some(i)),
+        };
+        let mut head = code;
+        if s.setpoint != prev.setpoint {
+            head |= SETPOINT_CHANGED;
+        }
+        if s.feed_forward != prev.feed_forward {
+            head |= FEED_FORWARD_CHANGED;
+        }
+        if s.applied.is_some() {
+            head |= APPLIED;
+        }
+        if s.status != prev.status {
+            head |= STATUS_CHANGED;
+        }
+        out.push(head);
+        if let Some(a) = actuator {
+            delta(&mut out, prev.command, a);
+        }
+        if let Some(i) = index {
+            varint(&mut out, i);
+        }
+        if head & SETPOINT_CHANGED != 0 {
+            delta(&mut out, prev.setpoint, s.setpoint);
+        }
+        if head & FEED_FORWARD_CHANGED != 0 {
+            delta(&mut out, prev.feed_forward, s.feed_forward);
+        }
+        delta(&mut out, prev.measurement, s.measurement);
+        if let Some(a) = s.applied {
+            delta(&mut out, prev.command, a);
+        }
+        delta(&mut out, prev.command, s.command);
+        if head & STATUS_CHANGED != 0 {
+            varint(&mut out, u32::from(s.status));
+        }
+        prev = *s;
+    }
+    out
+}
+
+/// Zigzag LEB128 of the wrapping difference `value − previous` (Q16.16 bits).
+fn delta(out: &mut Vec<u8>, previous: i32, value: i32) {
+    let d = value.wrapping_sub(previous);
+    varint(out, ((d << 1) ^ (d >> 31)) as u32);
+}
+
+/// Unsigned LEB128.
+fn varint(out: &mut Vec<u8>, mut x: u32) {
+    while x >= 0x80 {
+        out.push((x as u8 & 0x7f) | 0x80);
+        x >>= 7;
+    }
+    out.push(x as u8);
+}

@@ -1,0 +1,183 @@
+//! Golden vectors: the committed file is what the generator produces today,
+//! it decodes to the recorded steps, and replaying it through the controller
+//! (with the same code the board firmwares run) gives every bit back.
+//!
+//! A failure of `committed_file_matches_generator` means the controller's
+//! numbers (or a scenario) changed: if that is intended, regenerate with
+//! `cargo run -p evenkeel-tests --bin make-vectors`, say why in the commit,
+//! and run `boards/run`.
+
+use std::path::PathBuf;
+
+use evenkeel::Status;
+use evenkeel_replay::format::{self, File, FormatError};
+use evenkeel_replay::replay::{self, Mismatch, Report};
+use evenkeel_tests::vectors::{self, Op};
+
+fn committed() -> Vec<u8> {
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("..")
+        .join(vectors::FILE);
+    std::fs::read(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+}
+
+#[test]
+fn committed_file_matches_generator() {
+    let fresh = vectors::generate().expect("scenarios are valid");
+    let file = committed();
+    if fresh != file {
+        let at = fresh.iter().zip(&file).position(|(a, b)| a != b);
+        panic!(
+            "golden vectors differ from the generator (first difference at byte {at:?}, \
+             lengths {} vs {}): a numeric change? See the comment at the top of this test.",
+            fresh.len(),
+            file.len()
+        );
+    }
+}
+
+#[derive(Default)]
+struct Collect {
+    mismatches: Vec<String>,
+    scenarios: Vec<(String, u32)>,
+}
+
+impl Report for Collect {
+    fn mismatch(&mut self, m: &Mismatch<'_>) {
+        self.mismatches.push(format!("{m:?}"));
+    }
+    fn scenario(&mut self, name: &str, steps: u32, _mismatches: u32) {
+        self.scenarios.push((name.to_owned(), steps));
+    }
+}
+
+#[test]
+fn committed_file_replays_bit_exactly() {
+    let mut report = Collect::default();
+    let summary = replay::run(&mut report).expect("file reads to the end");
+    assert!(
+        report.mismatches.is_empty(),
+        "{:#?}",
+        &report.mismatches[..report.mismatches.len().min(20)]
+    );
+    let recordings = vectors::scenarios().expect("valid");
+    assert_eq!(summary.scenarios as usize, recordings.len());
+    for (rec, (name, steps)) in recordings.iter().zip(&report.scenarios) {
+        assert_eq!((&rec.name, rec.steps.len()), (name, *steps as usize));
+    }
+    assert_eq!(summary.mismatches, 0);
+}
+
+#[test]
+fn decoder_reads_what_the_encoder_wrote() {
+    let recordings = vectors::scenarios().expect("valid");
+    let bytes = vectors::encode(&recordings).expect("fits");
+    let file = File::open(&bytes).expect("valid header");
+    let mut count = 0;
+    for (scenario, rec) in file.scenarios().zip(&recordings) {
+        let scenario = scenario.expect("valid scenario");
+        assert_eq!(scenario.name, rec.name.as_bytes());
+        assert_eq!(f64::from_bits(scenario.settings.kp), rec.settings.kp);
+        assert_eq!(scenario.gain_count(), rec.gains.len());
+        for (i, (kp, ki)) in rec.gains.iter().enumerate() {
+            let g = scenario.gain(i).expect("present");
+            assert_eq!(
+                (g.kp_mantissa, u32::from(g.kp_shift)),
+                (kp.mantissa(), kp.shift())
+            );
+            assert_eq!(
+                (g.ki_ts_mantissa, u32::from(g.ki_ts_shift)),
+                (ki.mantissa(), ki.shift())
+            );
+        }
+        let steps: Vec<_> = scenario
+            .steps()
+            .collect::<Result<_, _>>()
+            .expect("valid steps");
+        assert_eq!(steps.len(), rec.steps.len());
+        for (got, want) in steps.iter().zip(&rec.steps) {
+            let op = match want.op {
+                Op::Step => format::Op::Step,
+                Op::Engage(actuator) => format::Op::Engage { actuator },
+                Op::Track(actuator) => format::Op::Track { actuator },
+                Op::Reset => format::Op::Reset,
+                Op::Retune(index) => format::Op::Retune { index },
+            };
+            let want = format::Step {
+                op,
+                setpoint: want.setpoint,
+                measurement: want.measurement,
+                feed_forward: want.feed_forward,
+                applied: want.applied,
+                command: want.command,
+                status: want.status,
+            };
+            assert_eq!(*got, want);
+        }
+        count += 1;
+    }
+    assert_eq!(count, recordings.len());
+}
+
+#[test]
+fn damaged_files_are_refused() {
+    let good = committed();
+    let mut flipped = good.clone();
+    let last = flipped.len() - 1;
+    flipped[last] ^= 0x01;
+    assert_eq!(File::open(&flipped).err(), Some(FormatError::Checksum));
+    let mut bad_magic = good.clone();
+    bad_magic[0] = b'X';
+    assert_eq!(File::open(&bad_magic).err(), Some(FormatError::Magic));
+    let mut bad_version = good.clone();
+    bad_version[4] = 9;
+    assert_eq!(
+        File::open(&bad_version).err(),
+        Some(FormatError::Version(9))
+    );
+    assert_eq!(File::open(&good[..7]).err(), Some(FormatError::Truncated));
+    // A consistent checksum over a truncated body: the decoder reports the
+    // cut instead of panicking.
+    let mut cut = good[..good.len() - 5].to_vec();
+    let sum = vectors::fnv1a(&cut[format::HEADER_LEN..]);
+    cut[6..10].copy_from_slice(&sum.to_le_bytes());
+    let file = File::open(&cut).expect("checksum matches");
+    let failed = file.scenarios().any(|s| match s {
+        Err(_) => true,
+        Ok(s) => s.steps().any(|step| step.is_err()),
+    });
+    assert!(failed);
+}
+
+#[test]
+fn vectors_cover_every_flag_and_operation() {
+    let recordings = vectors::scenarios().expect("valid");
+    let mut flags = 0u16;
+    let mut ops = [false; 5];
+    for step in recordings.iter().flat_map(|r| &r.steps) {
+        flags |= step.status;
+        let i = match step.op {
+            Op::Step => 0,
+            Op::Engage(_) => 1,
+            Op::Track(_) => 2,
+            Op::Reset => 3,
+            Op::Retune(_) => 4,
+        };
+        ops[i] = true;
+    }
+    // NON_FINITE cannot happen with fixed point; every other flag must.
+    let want = 0x07ff & !Status::NON_FINITE.bits();
+    assert_eq!(
+        flags & want,
+        want,
+        "missing flags: {}",
+        Status::from_bits(want & !flags)
+    );
+    assert_eq!(ops, [true; 5]);
+    let total: usize = recordings.iter().map(|r| r.steps.len()).sum();
+    assert!(
+        committed().len() < 48 * 1024,
+        "keep the file small: it is embedded in M0 flash"
+    );
+    assert!(total > 4000);
+}
