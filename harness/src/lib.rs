@@ -1,11 +1,43 @@
-//! Host harness for `evenkeel`: closed-loop simulation against
-//! floating-point plant models (`f64`, SI units).
+//! Host harness for `evenkeel`: closed-loop simulation of the real
+//! controller against floating-point plant models (`f64`, SI units),
+//! metrics, pass/fail criteria and reports.
 //!
+//! - [`scenario`]: a loop described in a TOML file or in code ([`Scenario`])
 //! - [`plant`]: plant models behind the [`plant::Plant`] trait, actuator and sensor
+//! - [`profile`]: piecewise references and disturbances
+//! - [`sim`]: the closed loop, zero-order hold, override windows
 //! - [`metrics`]: step-response, effort and saturation metrics of a trace
+//! - [`criteria`]: limits on metrics, evaluated into verdicts
+//! - [`outcome`]: runs per backend, [`Outcome::assert_pass`]
+//! - [`report`]: table, JSON, JUnit XML, CSV; [`plot`]: SVG/PNG
+//!
+//! In a project's own tests, check a loop in a few lines:
+//!
+//! ```
+//! use evenkeel_harness::Scenario;
+//! let mut scenario = Scenario::demo()?; // or Scenario::from_path("loops/tug.toml")?
+//! scenario.controller = scenario.controller.with_filter_time_s(0.05); // your settings
+//! let outcome = scenario.run_all()?;    // fixed, f32 and f64
+//! outcome.assert_pass();                // panics with the result table
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
+//!
+//! Engineering aid, not a certified safety function; ISO 26262 / IEC 61508
+//! processes and local regulations govern real deployments.
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 #![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used))]
 
+pub mod criteria;
 pub mod metrics;
+pub mod outcome;
 pub mod plant;
+pub mod plot;
+pub mod profile;
+pub mod report;
+pub mod scenario;
+pub mod sim;
+
+pub use outcome::{BackendKind, BackendRun, Outcome, RunError};
+pub use report::CAUTION;
+pub use scenario::{Scenario, ScenarioError};

@@ -45,7 +45,7 @@ impl Plant for Integrator {
         if !valid_period(dt_s) {
             return;
         }
-        self.rate = self.gain * u + env.load;
+        self.rate = self.gain * env.gain_factor * u + env.load;
         self.x += self.rate * dt_s;
     }
 
@@ -151,7 +151,7 @@ impl Plant for FirstOrderLag {
         if !valid_period(dt_s) {
             return;
         }
-        let (k, d, tau) = (self.gain, env.load, self.tau_s);
+        let (k, d, tau) = (self.gain * env.gain_factor, env.load, self.tau_s);
         if self.dead_time_s == 0.0 {
             self.x = lag_step(self.x, k * u + d, dt_s, tau);
             self.rate = (k * u + d - self.x) / tau;

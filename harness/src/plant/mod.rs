@@ -8,6 +8,7 @@
 //! |---|---|---|
 //! | [`Integrator`] | `ẋ = k·u + d` | exact |
 //! | [`FirstOrderLag`] | `τ·ẋ = −x + k·u(t−L) + d` | exact ZOH, any dead time `L` |
+//! | [`Rotor`] | `J·ω̇ = k·u − b·ω − c·ω·\|ω\| + T_d` | RK4, sub-steps |
 //! | [`Vehicle`] | `m·v̇ = c·u − C_rr·m·g·cosθ·s(v) − ½ρ·C_dA·v·\|v\| − m·g·sinθ + F_d` | RK4, sub-steps |
 //!
 //! Around a model: [`Actuator`] (lag and limits, [`Actuated`] puts it in
@@ -18,20 +19,23 @@
 
 mod actuator;
 mod linear;
+mod rotor;
 mod sensor;
 mod vehicle;
 
 pub use actuator::{Actuated, Actuator};
 pub use linear::{FirstOrderLag, Integrator};
+pub use rotor::{Rotor, RotorParams};
 pub use sensor::{Sensor, SensorParams};
 pub use vehicle::{STANDARD_GRAVITY_M_S2, Vehicle, VehicleParams};
 
 /// Conditions outside the plant during one period, held constant over it.
 ///
 /// Each model reads only the fields that make sense for it:
-/// [`Integrator`] and [`FirstOrderLag`] read `load`, [`Vehicle`] reads
-/// `grade_pct` and `force_n`. `Default` is a level road with no disturbance.
-#[derive(Debug, Clone, Copy, Default, PartialEq)]
+/// [`Integrator`], [`FirstOrderLag`] and [`Rotor`] read `load`, [`Vehicle`] reads
+/// `grade_pct` and `force_n`; all read `gain_factor`. `Default` is a level
+/// road with no disturbance and the nominal gain.
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Environment {
     /// Road grade in percent (rise over run × 100); positive is uphill.
     pub grade_pct: f64,
@@ -39,8 +43,25 @@ pub struct Environment {
     /// positive pushes forward.
     pub force_n: f64,
     /// Additive disturbance `d` in the model's own units (output units per
-    /// second for [`Integrator`], output units for [`FirstOrderLag`]).
+    /// second for [`Integrator`], output units for [`FirstOrderLag`], N·m
+    /// for [`Rotor`]).
     pub load: f64,
+    /// Multiplies the model's command gain (`k`, `c`): 1 is nominal, 0.8 a
+    /// motor 20 % weaker, a valve opening that lowers the pressure per unit
+    /// of pump speed is below 1. Applied where the command acts (after any
+    /// [`Actuator`] and dead time).
+    pub gain_factor: f64,
+}
+
+impl Default for Environment {
+    fn default() -> Self {
+        Self {
+            grade_pct: 0.0,
+            force_n: 0.0,
+            load: 0.0,
+            gain_factor: 1.0,
+        }
+    }
 }
 
 /// A simulated process driven by one command.
@@ -64,6 +85,24 @@ pub trait Plant {
 
     /// Puts the plant at rest with output `output0`.
     fn reset(&mut self, output0: f64);
+}
+
+impl<P: Plant + ?Sized> Plant for Box<P> {
+    fn advance(&mut self, u: f64, env: &Environment, dt_s: f64) {
+        (**self).advance(u, env, dt_s);
+    }
+    fn output(&self) -> f64 {
+        (**self).output()
+    }
+    fn rate(&self) -> f64 {
+        (**self).rate()
+    }
+    fn states(&self, out: &mut Vec<(&'static str, f64)>) {
+        (**self).states(out);
+    }
+    fn reset(&mut self, output0: f64) {
+        (**self).reset(output0);
+    }
 }
 
 /// A parameter given to a constructor is outside its allowed range.

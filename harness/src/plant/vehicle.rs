@@ -150,7 +150,8 @@ impl Vehicle {
         let theta = (env.grade_pct / 100.0).atan();
         let g = STANDARD_GRAVITY_M_S2;
         Held {
-            drive: (p.actuator_gain_n * u + env.force_n) / p.mass_kg - g * theta.sin(),
+            drive: (p.actuator_gain_n * env.gain_factor * u + env.force_n) / p.mass_kg
+                - g * theta.sin(),
             rolling: p.crr * g * theta.cos(),
             drag: 0.5 * p.air_density_kg_m3 * p.cda_m2 / p.mass_kg,
             creep: p.creep_speed_m_s,
@@ -267,6 +268,7 @@ mod tests {
             grade_pct: 2.5,
             force_n: -150.0,
             load: 0.0,
+            gain_factor: 1.0,
         };
         let cases = [(0.9, 1.0), (0.0, 4.0), (-0.5, 0.0)]; // (command, v0): drive, coast, reverse
         for (u, v0) in cases {

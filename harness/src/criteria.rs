@@ -1,0 +1,263 @@
+//! Pass/fail criteria: a limit on one metric, evaluated into a verdict.
+
+use std::fmt;
+
+use crate::metrics::Metrics;
+
+/// One metric of [`Metrics`], by its serialised key.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[non_exhaustive]
+pub enum MetricKey {
+    /// `rise_time_s`
+    RiseTime,
+    /// `settling_time_s`
+    SettlingTime,
+    /// `overshoot_pct`
+    Overshoot,
+    /// `steady_state_error`
+    SteadyStateError,
+    /// `iae`
+    Iae,
+    /// `ise`
+    Ise,
+    /// `peak_command`
+    PeakCommand,
+    /// `command_total_variation`
+    CommandTotalVariation,
+    /// `peak_slew_per_s`
+    PeakSlew,
+    /// `peak_accel`
+    PeakAccel,
+    /// `peak_jerk`
+    PeakJerk,
+    /// `time_saturated_s`
+    TimeSaturated,
+}
+
+impl MetricKey {
+    /// Every key, in report order.
+    pub const ALL: [Self; 12] = [
+        Self::RiseTime,
+        Self::SettlingTime,
+        Self::Overshoot,
+        Self::SteadyStateError,
+        Self::Iae,
+        Self::Ise,
+        Self::PeakCommand,
+        Self::CommandTotalVariation,
+        Self::PeakSlew,
+        Self::PeakAccel,
+        Self::PeakJerk,
+        Self::TimeSaturated,
+    ];
+
+    /// The key as written in scenario files and JSON.
+    #[must_use]
+    pub const fn name(self) -> &'static str {
+        match self {
+            Self::RiseTime => "rise_time_s",
+            Self::SettlingTime => "settling_time_s",
+            Self::Overshoot => "overshoot_pct",
+            Self::SteadyStateError => "steady_state_error",
+            Self::Iae => "iae",
+            Self::Ise => "ise",
+            Self::PeakCommand => "peak_command",
+            Self::CommandTotalVariation => "command_total_variation",
+            Self::PeakSlew => "peak_slew_per_s",
+            Self::PeakAccel => "peak_accel",
+            Self::PeakJerk => "peak_jerk",
+            Self::TimeSaturated => "time_saturated_s",
+        }
+    }
+
+    /// The key named `name`, if any.
+    #[must_use]
+    pub fn from_name(name: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|k| k.name() == name)
+    }
+
+    /// The metric's value; `None` when it is undefined for the trace.
+    #[must_use]
+    pub fn value(self, m: &Metrics) -> Option<f64> {
+        match self {
+            Self::RiseTime => m.rise_time_s,
+            Self::SettlingTime => m.settling_time_s,
+            Self::Overshoot => m.overshoot_pct,
+            Self::SteadyStateError => m.steady_state_error,
+            Self::Iae => Some(m.iae),
+            Self::Ise => Some(m.ise),
+            Self::PeakCommand => Some(m.peak_command),
+            Self::CommandTotalVariation => Some(m.command_total_variation),
+            Self::PeakSlew => Some(m.peak_slew_per_s),
+            Self::PeakAccel => Some(m.peak_accel),
+            Self::PeakJerk => Some(m.peak_jerk),
+            Self::TimeSaturated => m.time_saturated_s,
+        }
+    }
+}
+
+impl fmt::Display for MetricKey {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// Which side of the limit passes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Bound {
+    /// Passes when `measured ≤ limit`.
+    Max,
+    /// Passes when `measured ≥ limit`.
+    Min,
+}
+
+impl Bound {
+    /// `"max"` or `"min"`.
+    #[must_use]
+    pub const fn name(self) -> &'static str {
+        match self {
+            Self::Max => "max",
+            Self::Min => "min",
+        }
+    }
+
+    /// `"<="` or `">="`.
+    #[must_use]
+    pub const fn symbol(self) -> &'static str {
+        match self {
+            Self::Max => "<=",
+            Self::Min => ">=",
+        }
+    }
+}
+
+/// A limit on one metric.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Criterion {
+    /// The metric.
+    pub metric: MetricKey,
+    /// Upper or lower limit.
+    pub bound: Bound,
+    /// The limit, in the metric's unit.
+    pub limit: f64,
+    /// Where the limit comes from (a standard, common practice, …).
+    pub source: Option<String>,
+}
+
+impl Criterion {
+    /// `metric ≤ limit`.
+    #[must_use]
+    pub fn max(metric: MetricKey, limit: f64) -> Self {
+        Self {
+            metric,
+            bound: Bound::Max,
+            limit,
+            source: None,
+        }
+    }
+
+    /// `metric ≥ limit`.
+    #[must_use]
+    pub fn min(metric: MetricKey, limit: f64) -> Self {
+        Self {
+            bound: Bound::Min,
+            ..Self::max(metric, limit)
+        }
+    }
+
+    /// Evaluates against `metrics`. An undefined metric (e.g. a settling
+    /// time when the output never settles) fails.
+    ///
+    /// ```
+    /// use evenkeel_harness::criteria::{Criterion, MetricKey};
+    /// use evenkeel_harness::metrics::{compute, MetricOptions, Trace};
+    /// let (r, y, zero) = ([1.0; 3], [1.0, 1.2, 1.0], [0.0; 3]);
+    /// let trace = Trace { dt_s: 0.1, reference: &r, output: &y, command: &zero, accel: &zero };
+    /// let m = compute(&trace, &MetricOptions::default())?;
+    /// let v = Criterion::max(MetricKey::Iae, 0.05).evaluate(&m);
+    /// assert!(v.pass); // IAE = 0.1 s · 0.2 = 0.02
+    /// # Ok::<(), evenkeel_harness::metrics::MetricsError>(())
+    /// ```
+    #[must_use]
+    pub fn evaluate(&self, metrics: &Metrics) -> Verdict {
+        let measured = self.metric.value(metrics);
+        let pass = measured.is_some_and(|m| match self.bound {
+            Bound::Max => m <= self.limit,
+            Bound::Min => m >= self.limit,
+        });
+        Verdict {
+            criterion: self.clone(),
+            measured,
+            pass,
+        }
+    }
+}
+
+/// A criterion with its measured value and result.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Verdict {
+    /// What was required.
+    pub criterion: Criterion,
+    /// What was measured; `None` if the metric is undefined for the run.
+    pub measured: Option<f64>,
+    /// `true` when the requirement is met.
+    pub pass: bool,
+}
+
+/// Evaluates every criterion.
+#[must_use]
+pub fn evaluate(criteria: &[Criterion], metrics: &Metrics) -> Vec<Verdict> {
+    criteria.iter().map(|c| c.evaluate(metrics)).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::metrics::{MetricOptions, Trace, compute};
+
+    fn metrics() -> Metrics {
+        let r = [0.0, 1.0, 1.0, 1.0];
+        let y = [0.0, 0.5, 1.1, 1.0];
+        let u = [0.0, 2.0, 0.5, 1.0];
+        let a = [0.0; 4];
+        let trace = Trace {
+            dt_s: 0.1,
+            reference: &r,
+            output: &y,
+            command: &u,
+            accel: &a,
+        };
+        compute(&trace, &MetricOptions::default()).unwrap()
+    }
+
+    #[test]
+    fn bounds_and_undefined_metrics() {
+        let m = metrics();
+        assert!(
+            Criterion::max(MetricKey::PeakCommand, 2.0)
+                .evaluate(&m)
+                .pass
+        );
+        assert!(
+            !Criterion::max(MetricKey::PeakCommand, 1.9)
+                .evaluate(&m)
+                .pass
+        );
+        assert!(
+            Criterion::min(MetricKey::PeakCommand, 2.0)
+                .evaluate(&m)
+                .pass
+        );
+        // No step given: overshoot is undefined and fails.
+        let v = Criterion::max(MetricKey::Overshoot, 100.0).evaluate(&m);
+        assert_eq!((v.measured, v.pass), (None, false));
+    }
+
+    #[test]
+    fn names_round_trip() {
+        for k in MetricKey::ALL {
+            assert_eq!(MetricKey::from_name(k.name()), Some(k));
+        }
+        assert_eq!(MetricKey::from_name("nope"), None);
+    }
+}

@@ -1,0 +1,345 @@
+//! Plots of one run: SVG or PNG (by file extension), four stacked panels
+//! sharing the time axis, the caution in the footer.
+//!
+//! 1. reference, measurement and true output;
+//! 2. command with its output limits;
+//! 3. plant rate (acceleration) with the `peak_accel` limit;
+//! 4. jerk with the `peak_jerk` limit.
+//!
+//! Text uses the vendored DejaVu Sans (`assets/`, Bitstream Vera licence),
+//! so no system font library is needed.
+
+use std::ops::Range;
+use std::path::Path;
+use std::sync::Once;
+
+use plotters::coord::Shift;
+use plotters::prelude::*;
+use plotters::style::{FontStyle, register_font};
+
+use crate::criteria::{Bound, MetricKey};
+use crate::outcome::BackendRun;
+use crate::report::{CAUTION, write_atomic};
+use crate::scenario::Scenario;
+
+const FONT: &str = "sans-serif";
+const SIZE: (u32, u32) = (1200, 1500);
+/// Longest series drawn; longer ones are reduced to per-bucket min and max,
+/// which keeps every peak.
+const MAX_POINTS: usize = 2400;
+
+/// A plot that could not be drawn or written.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum PlotError {
+    /// The extension is neither `.svg` nor `.png`.
+    #[error("plot file must end in .svg or .png: {0}")]
+    Extension(String),
+    /// Drawing failed.
+    #[error("drawing the plot failed: {0}")]
+    Draw(String),
+    /// Writing the file failed.
+    #[error("writing {path}: {source}")]
+    Io {
+        /// The file.
+        path: String,
+        /// The cause.
+        source: std::io::Error,
+    },
+}
+
+fn register() {
+    static ONCE: Once = Once::new();
+    ONCE.call_once(|| {
+        // The font is vendored and valid; a failure would only lose labels.
+        let _ = register_font(
+            FONT,
+            FontStyle::Normal,
+            include_bytes!("../assets/DejaVuSans.ttf"),
+        );
+    });
+}
+
+/// Draws `run` of `scenario` into `path` (`.svg` or `.png`), atomically.
+///
+/// # Errors
+/// [`PlotError`] for a wrong extension, a drawing or a writing failure.
+pub fn plot(scenario: &Scenario, run: &BackendRun, path: &Path) -> Result<(), PlotError> {
+    register();
+    let ext = path
+        .extension()
+        .map(|e| e.to_string_lossy().to_ascii_lowercase());
+    let io = |source| PlotError::Io {
+        path: path.display().to_string(),
+        source,
+    };
+    match ext.as_deref() {
+        Some("svg") => {
+            let mut svg = String::new();
+            {
+                let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+                draw(&root, scenario, run)?;
+                root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
+            }
+            write_atomic(path, svg.as_bytes()).map_err(io)
+        }
+        Some("png") => {
+            let (w, h) = SIZE;
+            let mut rgb = vec![0u8; (w * h * 3) as usize];
+            {
+                let root = BitMapBackend::with_buffer(&mut rgb, SIZE).into_drawing_area();
+                draw(&root, scenario, run)?;
+                root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
+            }
+            let mut png = Vec::new();
+            encode_png(&mut png, &rgb, w, h).map_err(|e| PlotError::Draw(e.to_string()))?;
+            write_atomic(path, &png).map_err(io)
+        }
+        _ => Err(PlotError::Extension(path.display().to_string())),
+    }
+}
+
+fn encode_png(out: &mut Vec<u8>, rgb: &[u8], w: u32, h: u32) -> Result<(), image::ImageError> {
+    use image::ImageEncoder;
+    image::codecs::png::PngEncoder::new(out).write_image(rgb, w, h, image::ColorType::Rgb8)
+}
+
+/// The limit of criterion `metric` with bound `max`, if the scenario has one.
+fn max_limit(scenario: &Scenario, metric: MetricKey) -> Option<f64> {
+    scenario
+        .criteria
+        .iter()
+        .find(|c| c.metric == metric && c.bound == Bound::Max)
+        .map(|c| c.limit)
+}
+
+/// `(t, x)` reduced to at most about `MAX_POINTS` points, keeping each
+/// bucket's minimum and maximum in time order.
+fn reduce(t: &[f64], x: &[f64]) -> Vec<(f64, f64)> {
+    let n = t.len().min(x.len());
+    let bucket = n.div_ceil(MAX_POINTS / 2).max(1);
+    if bucket == 1 {
+        return t.iter().copied().zip(x.iter().copied()).collect();
+    }
+    let mut out = Vec::with_capacity(MAX_POINTS + 2);
+    let mut i = 0;
+    while i < n {
+        let end = (i + bucket).min(n);
+        let (mut lo, mut hi) = (i, i);
+        for k in i..end {
+            if x[k] < x[lo] {
+                lo = k;
+            }
+            if x[k] > x[hi] {
+                hi = k;
+            }
+        }
+        let (a, b) = if lo <= hi { (lo, hi) } else { (hi, lo) };
+        out.push((t[a], x[a]));
+        if b != a {
+            out.push((t[b], x[b]));
+        }
+        i = end;
+    }
+    out
+}
+
+/// Range covering `values` and `extra` with 8 % head room; never empty.
+fn span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
+    let all = values
+        .iter()
+        .flat_map(|v| v.iter())
+        .chain(extra)
+        .copied()
+        .filter(|v| v.is_finite());
+    let (lo, hi) = all.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
+        (lo.min(v), hi.max(v))
+    });
+    if !lo.is_finite() {
+        return -1.0..1.0;
+    }
+    let pad = ((hi - lo) * 0.08).max(1e-6 * hi.abs().max(1.0));
+    (lo - pad)..(hi + pad)
+}
+
+/// A named line: label, points, colour.
+type Series<'a> = (&'a str, Vec<(f64, f64)>, RGBColor);
+
+struct Panel<'a> {
+    y_desc: String,
+    series: Vec<Series<'a>>,
+    limits: Vec<(String, f64)>,
+    range: Range<f64>,
+}
+
+fn draw<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    scenario: &Scenario,
+    run: &BackendRun,
+) -> Result<(), PlotError> {
+    let e = |e: DrawingAreaErrorKind<DB::ErrorType>| PlotError::Draw(e.to_string());
+    let rec = &run.recording;
+    let t = &rec.time_s;
+    let t_end = t.last().copied().unwrap_or(1.0).max(rec.dt_s);
+    let unit = &scenario.output_unit;
+    let (rate_unit, jerk_unit) = match unit.as_str() {
+        "m/s" => ("m/s²".to_owned(), "m/s³".to_owned()),
+        "rad/s" => ("rad/s²".to_owned(), "rad/s³".to_owned()),
+        "1" => ("1/s".to_owned(), "1/s²".to_owned()),
+        u => (format!("{u}/s"), format!("{u}/s²")),
+    };
+    let (u_lo, u_hi) = (
+        scenario.controller.output_min,
+        scenario.controller.output_max,
+    );
+    let jerk = rec.jerk();
+    let accel_limit = max_limit(scenario, MetricKey::PeakAccel);
+    let jerk_limit = max_limit(scenario, MetricKey::PeakJerk);
+    let sym = |l: Option<f64>| l.map(|v| vec![v, -v]).unwrap_or_default();
+    let blue = RGBColor(31, 119, 180);
+    let orange = RGBColor(230, 120, 20);
+    let green = RGBColor(44, 160, 44);
+    let grey = RGBColor(150, 150, 150);
+
+    let mut panels = [
+        Panel {
+            y_desc: format!("output ({unit})"),
+            range: span(&[&rec.reference, &rec.measurement, &rec.output], &[]),
+            series: vec![
+                ("measurement", reduce(t, &rec.measurement), grey),
+                ("output (true)", reduce(t, &rec.output), blue),
+                ("reference", reduce(t, &rec.reference), orange),
+            ],
+            limits: Vec::new(),
+        },
+        Panel {
+            y_desc: format!("command ({})", scenario.command_unit),
+            range: span(&[&rec.command, &rec.applied], &[u_lo, u_hi]),
+            series: vec![
+                ("applied", reduce(t, &rec.applied), grey),
+                ("command", reduce(t, &rec.command), blue),
+            ],
+            limits: vec![
+                ("output limits".into(), u_lo),
+                ("output limits".into(), u_hi),
+            ],
+        },
+        Panel {
+            y_desc: format!("acceleration ({rate_unit})"),
+            range: span(&[&rec.accel], &sym(accel_limit)),
+            series: vec![("acceleration", reduce(t, &rec.accel), green)],
+            limits: sym(accel_limit)
+                .into_iter()
+                .map(|v| ("peak_accel limit (±)".to_owned(), v))
+                .collect(),
+        },
+        Panel {
+            y_desc: format!("jerk ({jerk_unit})"),
+            range: span(&[&jerk], &sym(jerk_limit)),
+            series: vec![("jerk", reduce(t, &jerk), green)],
+            limits: sym(jerk_limit)
+                .into_iter()
+                .map(|v| ("peak_jerk limit (±)".to_owned(), v))
+                .collect(),
+        },
+    ];
+
+    root.fill(&WHITE).map_err(e)?;
+    let (title, rest) = root.split_vertically(50);
+    let (body, footer) = rest.split_vertically(SIZE.1 - 50 - 36);
+    let verdict = if run.passed() { "PASS" } else { "FAIL" };
+    title
+        .titled(
+            &format!("{} — backend {} — {verdict}", scenario.name, run.backend),
+            (FONT, 24),
+        )
+        .map_err(e)?;
+    footer
+        .draw_text(CAUTION, &(FONT, 15).into_font().color(&BLACK), (20, 8))
+        .map_err(e)?;
+
+    let areas = body.split_evenly((panels.len(), 1));
+    for (area, panel) in areas.iter().zip(panels.iter_mut()) {
+        let mut chart = ChartBuilder::on(area)
+            .margin_left(12)
+            .margin_right(24)
+            .margin_top(8)
+            .x_label_area_size(40)
+            .y_label_area_size(80)
+            .build_cartesian_2d(0.0..t_end, panel.range.clone())
+            .map_err(e)?;
+        let height = panel.range.end - panel.range.start;
+        // Decimals for about three significant digits over the range.
+        #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
+        let decimals = (2.0 - height.log10().floor()).clamp(0.0, 6.0) as usize;
+        let y_label = move |v: &f64| {
+            // No "-0.0" labels.
+            let v = if v.abs() < 1e-9 * height { 0.0 } else { *v };
+            format!("{v:.decimals$}")
+        };
+        chart
+            .configure_mesh()
+            .y_label_formatter(&y_label)
+            .x_desc("time (s)")
+            .y_desc(panel.y_desc.as_str())
+            .label_style((FONT, 14))
+            .axis_desc_style((FONT, 16))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(e)?;
+        let red = RGBColor(200, 30, 30);
+        for (i, (name, value)) in panel.limits.iter().enumerate() {
+            let line = chart
+                .draw_series(DashedLineSeries::new(
+                    [(0.0, *value), (t_end, *value)],
+                    8,
+                    5,
+                    red.stroke_width(2),
+                ))
+                .map_err(e)?;
+            // One legend entry for the pair of limit lines.
+            if i == 0 {
+                line.label(name.clone()).legend(move |(x, y)| {
+                    PathElement::new([(x, y), (x + 20, y)], red.stroke_width(2))
+                });
+            }
+        }
+        for (name, points, color) in panel.series.drain(..) {
+            let c = color;
+            chart
+                // Width 1: wider polylines get miter spikes at the sharp
+                // corners of noisy signals in the bitmap back end.
+                .draw_series(LineSeries::new(points, c.stroke_width(1)))
+                .map_err(e)?
+                .label(name)
+                .legend(move |(x, y)| PathElement::new([(x, y), (x + 20, y)], c.stroke_width(2)));
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .label_font((FONT, 14))
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .draw()
+            .map_err(e)?;
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn reduction_keeps_peaks() {
+        let t: Vec<f64> = (0..10_000).map(|i| f64::from(i) * 0.01).collect();
+        let mut x = vec![0.0; 10_000];
+        x[4321] = 7.0;
+        x[8765] = -3.0;
+        let r = reduce(&t, &x);
+        assert!(r.len() <= MAX_POINTS + 2);
+        assert!(r.contains(&(t[4321], 7.0)));
+        assert!(r.contains(&(t[8765], -3.0)));
+        assert!(r.windows(2).all(|w| w[0].0 <= w[1].0));
+    }
+}

@@ -1,0 +1,182 @@
+//! Piecewise-linear time profiles: references, disturbances, gain factors.
+//!
+//! A [`Profile`] starts at `initial` and runs through [`Segment`]s in
+//! order. Each segment moves to its target `to` over `ramp_s` seconds
+//! (`ramp_s = 0`: a step at the segment start) and then holds it for
+//! `hold_s` seconds. After the last segment the profile keeps its final
+//! value. A pulse is a step up followed by a step back down:
+//!
+//! ```
+//! use evenkeel_harness::profile::{Profile, Segment};
+//! // 0 for 2 s, a 0.5 s pulse of 800, then a 4 s ramp to 100.
+//! let force = Profile::new(0.0, vec![
+//!     Segment::hold(2.0),
+//!     Segment::step(800.0, 0.5),
+//!     Segment::step(0.0, 0.0),
+//!     Segment::ramp(100.0, 4.0, 0.0),
+//! ]);
+//! assert_eq!(force.at(1.99), 0.0);
+//! assert_eq!(force.at(2.0), 800.0);
+//! assert_eq!(force.at(2.5), 0.0);
+//! assert_eq!(force.at(4.5), 50.0);
+//! assert_eq!(force.at(99.0), 100.0);
+//! ```
+
+/// One piece of a [`Profile`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Segment {
+    /// Target value; `None` keeps the value reached so far (a plain hold).
+    pub to: Option<f64>,
+    /// Time to move linearly to `to`, s; 0 is a step.
+    pub ramp_s: f64,
+    /// Time to hold the target afterwards, s.
+    pub hold_s: f64,
+}
+
+impl Segment {
+    /// Keep the current value for `hold_s` seconds.
+    #[must_use]
+    pub const fn hold(hold_s: f64) -> Self {
+        Self {
+            to: None,
+            ramp_s: 0.0,
+            hold_s,
+        }
+    }
+
+    /// Jump to `to`, then hold it for `hold_s` seconds.
+    #[must_use]
+    pub const fn step(to: f64, hold_s: f64) -> Self {
+        Self {
+            to: Some(to),
+            ramp_s: 0.0,
+            hold_s,
+        }
+    }
+
+    /// Move linearly to `to` over `ramp_s` seconds, then hold for `hold_s`.
+    #[must_use]
+    pub const fn ramp(to: f64, ramp_s: f64, hold_s: f64) -> Self {
+        Self {
+            to: Some(to),
+            ramp_s,
+            hold_s,
+        }
+    }
+}
+
+/// Start value and segments; evaluate with [`Profile::at`].
+///
+/// Durations are assumed finite and non-negative (the scenario loader
+/// checks them); a negative duration counts as zero.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Profile {
+    initial: f64,
+    /// `(start_s, from, segment)` with the absolute start time of each segment.
+    pieces: Vec<(f64, f64, Segment)>,
+}
+
+impl Profile {
+    /// A profile from `initial` through `segments`.
+    #[must_use]
+    pub fn new(initial: f64, segments: Vec<Segment>) -> Self {
+        let mut pieces = Vec::with_capacity(segments.len());
+        let (mut t, mut value) = (0.0, initial);
+        for s in segments {
+            pieces.push((t, value, s));
+            t += s.ramp_s.max(0.0) + s.hold_s.max(0.0);
+            value = s.to.unwrap_or(value);
+        }
+        Self { initial, pieces }
+    }
+
+    /// A profile that stays at `value`.
+    #[must_use]
+    pub fn constant(value: f64) -> Self {
+        Self::new(value, Vec::new())
+    }
+
+    /// The value at time `t_s` (before 0: the initial value).
+    #[must_use]
+    pub fn at(&self, t_s: f64) -> f64 {
+        let mut value = self.initial;
+        for &(start, from, s) in &self.pieces {
+            if t_s < start {
+                break;
+            }
+            let to = s.to.unwrap_or(from);
+            let ramp = s.ramp_s.max(0.0);
+            value = if ramp > 0.0 && t_s < start + ramp {
+                from + (to - from) * (t_s - start) / ramp
+            } else {
+                to
+            };
+        }
+        value
+    }
+
+    /// Total length of the segments, s.
+    #[must_use]
+    pub fn duration_s(&self) -> f64 {
+        self.pieces.last().map_or(0.0, |&(start, _, s)| {
+            start + s.ramp_s.max(0.0) + s.hold_s.max(0.0)
+        })
+    }
+
+    /// The first segment that changes the value: `(start_s, end_s, from, to)`,
+    /// `end_s` being the end of its hold. Step-response metrics refer to it.
+    #[must_use]
+    pub fn first_change(&self) -> Option<(f64, f64, f64, f64)> {
+        self.pieces.iter().find_map(|&(start, from, s)| {
+            let to = s.to?;
+            (to != from).then_some((
+                start,
+                start + s.ramp_s.max(0.0) + s.hold_s.max(0.0),
+                from,
+                to,
+            ))
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn steps_ramps_and_holds() {
+        let p = Profile::new(
+            1.0,
+            vec![
+                Segment::hold(1.0),
+                Segment::ramp(3.0, 2.0, 1.0),
+                Segment::step(-1.0, 0.5),
+            ],
+        );
+        let table = [
+            (-1.0, 1.0),
+            (0.0, 1.0),
+            (0.999, 1.0),
+            (1.0, 1.0),
+            (2.0, 2.0),
+            (3.0, 3.0),
+            (3.5, 3.0),
+            (4.0, -1.0),
+            (10.0, -1.0),
+        ];
+        for (t, want) in table {
+            assert!((p.at(t) - want).abs() < 1e-12, "t = {t}: {}", p.at(t));
+        }
+        assert_eq!(p.duration_s(), 4.5);
+        assert_eq!(p.first_change(), Some((1.0, 4.0, 1.0, 3.0)));
+    }
+
+    #[test]
+    fn constant_and_empty() {
+        let p = Profile::constant(2.5);
+        assert_eq!(p.at(0.0), 2.5);
+        assert_eq!(p.at(1e9), 2.5);
+        assert_eq!(p.duration_s(), 0.0);
+        assert_eq!(p.first_change(), None);
+    }
+}

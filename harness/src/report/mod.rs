@@ -1,0 +1,112 @@
+//! Reports of an [`Outcome`]: readable table, JSON, JUnit XML, CSV trace,
+//! and the atomic file writing they share.
+//!
+//! Every report except the CSV time series carries [`CAUTION`].
+
+mod csv;
+mod json;
+mod junit;
+mod table;
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU32, Ordering};
+
+pub use csv::trace_csv;
+pub use json::json;
+pub use junit::{junit, xml_escape};
+pub use table::{format_number, table};
+
+#[cfg(doc)]
+use crate::outcome::Outcome;
+
+/// The safety caution carried by every report.
+pub const CAUTION: &str = "Engineering aid, not a certified safety function; ISO 26262 / IEC 61508 processes and local regulations govern real deployments.";
+
+/// Writes `bytes` to `path` atomically: into a temporary file in the same
+/// directory, flushed to disk, then renamed over `path`. On error the
+/// temporary file is removed and `path` is untouched.
+///
+/// # Errors
+/// The I/O error of creating, writing or renaming.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    static COUNTER: AtomicU32 = AtomicU32::new(0);
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let name = path
+        .file_name()
+        .map_or_else(|| "report".into(), |n| n.to_string_lossy().into_owned());
+    let tmp = dir.join(format!(
+        ".{name}.{}-{}.tmp",
+        std::process::id(),
+        COUNTER.fetch_add(1, Ordering::Relaxed)
+    ));
+    let result = (|| {
+        let mut f = std::fs::File::create_new(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+        drop(f);
+        std::fs::rename(&tmp, path)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result
+}
+
+/// The file for one run when a report that holds one run (CSV, plot) is
+/// asked for several: `base` itself when `only` is true, else
+/// `STEM-SCENARIO-BACKEND.EXT` beside it.
+///
+/// ```
+/// use std::path::Path;
+/// use evenkeel_harness::report::per_run_path;
+/// let p = per_run_path(Path::new("out/run.csv"), "pump", "f32", false);
+/// assert_eq!(p, Path::new("out/run-pump-f32.csv"));
+/// assert_eq!(per_run_path(Path::new("run.csv"), "pump", "f32", true), Path::new("run.csv"));
+/// ```
+#[must_use]
+pub fn per_run_path(base: &Path, scenario: &str, backend: &str, only: bool) -> PathBuf {
+    if only {
+        return base.to_path_buf();
+    }
+    let stem = base
+        .file_stem()
+        .map_or_else(String::new, |s| s.to_string_lossy().into_owned());
+    let safe: String = scenario
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    let mut name = format!("{stem}-{safe}-{backend}");
+    if let Some(ext) = base.extension() {
+        name.push('.');
+        name.push_str(&ext.to_string_lossy());
+    }
+    base.with_file_name(name)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn atomic_write_replaces_and_leaves_no_temp() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("r.json");
+        write_atomic(&path, b"one").unwrap();
+        write_atomic(&path, b"two").unwrap();
+        assert_eq!(std::fs::read(&path).unwrap(), b"two");
+        let names: Vec<_> = std::fs::read_dir(dir.path()).unwrap().collect();
+        assert_eq!(names.len(), 1);
+        // Into a directory that does not exist: error, nothing written.
+        assert!(write_atomic(&dir.path().join("no/such/r.json"), b"x").is_err());
+    }
+}

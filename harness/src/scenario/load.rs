@@ -1,0 +1,702 @@
+//! Validation: raw TOML tables into a [`Scenario`], every error located.
+
+use std::ops::Range;
+
+use evenkeel::{AntiWindup, Settings};
+
+use super::error::{ScenarioError, Source};
+use super::schema::{Int, Num, RawController, RawPlant, RawProfile, RawScenario, Text};
+use super::{ActuatorSpec, MetricSettings, PlantModel, Scenario};
+use crate::criteria::{Bound, Criterion, MetricKey};
+use crate::plant::{RotorParams, SensorParams, VehicleParams};
+use crate::profile::{Profile, Segment};
+use crate::sim::{Disturbances, LoadShift, Override, Setup};
+
+type Res<T> = Result<T, ScenarioError>;
+
+/// Parses and validates `text`; `file` names it in errors.
+pub(crate) fn parse(text: &str, file: &str) -> Res<Scenario> {
+    let src = Source { file, text };
+    let raw: RawScenario = toml::from_str(text).map_err(|e| {
+        let span = e.span();
+        let key = span.as_ref().and_then(|s| src.key_at(s.start));
+        src.error(span, key, e.message().trim_end().to_owned())
+    })?;
+    Check { src }.scenario(&raw, file)
+}
+
+struct Check<'a> {
+    src: Source<'a>,
+}
+
+impl Check<'_> {
+    fn fail(&self, span: Range<usize>, key: &str, message: String) -> ScenarioError {
+        self.src.error(Some(span), Some(key.to_owned()), message)
+    }
+
+    /// A finite number for which `ok` holds; `allowed` says what is allowed.
+    fn num(&self, v: &Num, key: &str, allowed: &str, ok: impl Fn(f64) -> bool) -> Res<f64> {
+        let x = *v.get_ref();
+        if x.is_finite() && ok(x) {
+            Ok(x)
+        } else {
+            Err(self.fail(
+                v.span(),
+                key,
+                format!("{x} is not allowed: must be {allowed}"),
+            ))
+        }
+    }
+
+    fn finite(&self, v: &Num, key: &str) -> Res<f64> {
+        self.num(v, key, "a finite number", |_| true)
+    }
+
+    fn opt(
+        &self,
+        v: Option<&Num>,
+        key: &str,
+        default: f64,
+        allowed: &str,
+        ok: impl Fn(f64) -> bool,
+    ) -> Res<f64> {
+        v.map_or(Ok(default), |v| self.num(v, key, allowed, ok))
+    }
+
+    fn int(&self, v: &Int, key: &str, lo: i64, hi: i64) -> Res<i64> {
+        let x = *v.get_ref();
+        if (lo..=hi).contains(&x) {
+            Ok(x)
+        } else {
+            Err(self.fail(
+                v.span(),
+                key,
+                format!("{x} is not allowed: must be an integer in [{lo}, {hi}]"),
+            ))
+        }
+    }
+
+    fn substeps(&self, v: Option<&Int>, key: &str, default: u32) -> Res<u32> {
+        match v {
+            None => Ok(default),
+            Some(v) => {
+                let n = self.int(v, key, 1, 10_000)?;
+                Ok(u32::try_from(n).unwrap_or(default))
+            }
+        }
+    }
+
+    fn scenario(&self, raw: &RawScenario, file: &str) -> Res<Scenario> {
+        let meta = &raw.scenario;
+        let name = meta.name.get_ref().trim().to_owned();
+        if name.is_empty() {
+            return Err(self.fail(
+                meta.name.span(),
+                "scenario.name",
+                "must not be empty".into(),
+            ));
+        }
+        let duration_s = self.num(
+            &meta.duration_s,
+            "scenario.duration_s",
+            "finite and > 0 s",
+            |x| x > 0.0,
+        )?;
+        let seed = match &meta.seed {
+            Some(s) => self.int(s, "scenario.seed", 0, i64::MAX)?.unsigned_abs(),
+            None => 0,
+        };
+        let controller = self.controller(&raw.controller)?;
+        let (plant, initial_output) = self.plant(&raw.plant)?;
+        let initial_command = match &raw.controller.initial_command {
+            None => None,
+            Some(v) => Some(self.num(
+                v,
+                "controller.initial_command",
+                "finite and within [controller.output_min, controller.output_max]",
+                |x| x >= controller.output_min && x <= controller.output_max,
+            )?),
+        };
+        let text = |t: &Option<Text>, default: &str| {
+            t.as_ref()
+                .map_or_else(|| default.to_owned(), |t| t.get_ref().clone())
+        };
+        let default_unit = match plant {
+            PlantModel::Vehicle(_) => "m/s",
+            PlantModel::Rotor(_) => "rad/s",
+            _ => "1",
+        };
+
+        let actuator = match &raw.actuator {
+            None => None,
+            Some(a) => {
+                let min = self.finite(&a.min, "actuator.min")?;
+                let max = self.num(&a.max, "actuator.max", "finite and > actuator.min", |x| {
+                    x > min
+                })?;
+                Some(ActuatorSpec {
+                    tau_s: self.opt(
+                        a.tau_s.as_ref(),
+                        "actuator.tau_s",
+                        0.0,
+                        "finite and >= 0 s",
+                        |x| x >= 0.0,
+                    )?,
+                    min,
+                    max,
+                    substeps: self.substeps(a.substeps.as_ref(), "actuator.substeps", 4)?,
+                })
+            }
+        };
+        let sensor = match &raw.sensor {
+            None => None,
+            Some(s) => Some(SensorParams {
+                noise_std: self.opt(
+                    s.noise_std.as_ref(),
+                    "sensor.noise_std",
+                    0.0,
+                    "finite and >= 0 (measurement units)",
+                    |x| x >= 0.0,
+                )?,
+                quantum: self.opt(
+                    s.quantum.as_ref(),
+                    "sensor.quantum",
+                    0.0,
+                    "finite and >= 0 (0: no quantisation)",
+                    |x| x >= 0.0,
+                )?,
+                delay_samples: match &s.delay_samples {
+                    None => 0,
+                    Some(d) => usize::try_from(self.int(d, "sensor.delay_samples", 0, 1 << 20)?)
+                        .unwrap_or(0),
+                },
+            }),
+        };
+
+        let reference = self.profile(&raw.reference, "reference", initial_output)?;
+        let mut disturbances = Disturbances::default();
+        if let Some(d) = &raw.disturbance {
+            let slots = [
+                (
+                    &d.grade_pct,
+                    "disturbance.grade_pct",
+                    &mut disturbances.grade_pct,
+                    0.0,
+                ),
+                (
+                    &d.force_n,
+                    "disturbance.force_n",
+                    &mut disturbances.force_n,
+                    0.0,
+                ),
+                (&d.load, "disturbance.load", &mut disturbances.load, 0.0),
+                (
+                    &d.gain_factor,
+                    "disturbance.gain_factor",
+                    &mut disturbances.gain_factor,
+                    1.0,
+                ),
+            ];
+            for (raw_profile, key, slot, default) in slots {
+                if let Some(p) = raw_profile {
+                    *slot = self.profile(p, key, default)?;
+                }
+            }
+        }
+        let mut overrides = Vec::with_capacity(raw.overrides.len());
+        for (i, o) in raw.overrides.iter().enumerate() {
+            let key = |k: &str| format!("override[{i}].{k}");
+            overrides.push(Override {
+                start_s: self.num(&o.start_s, &key("start_s"), "finite and >= 0 s", |x| {
+                    x >= 0.0
+                })?,
+                duration_s: self.num(
+                    &o.duration_s,
+                    &key("duration_s"),
+                    "finite and > 0 s",
+                    |x| x > 0.0,
+                )?,
+                command: self.finite(&o.command, &key("command"))?,
+                ramp_s: self.opt(
+                    o.ramp_s.as_ref(),
+                    &key("ramp_s"),
+                    0.0,
+                    "finite and >= 0 s",
+                    |x| x >= 0.0,
+                )?,
+            });
+        }
+        let load_shift = match &raw.load_shift {
+            None => None,
+            Some(l) => {
+                if !matches!(plant, PlantModel::Vehicle(_)) {
+                    return Err(self.fail(
+                        l.force_n.span(),
+                        "load_shift",
+                        "applies to plant.model = \"vehicle\" only".into(),
+                    ));
+                }
+                let pos = "finite and > 0";
+                Some(LoadShift {
+                    accel_threshold_m_s2: self.num(
+                        &l.accel_threshold_m_s2,
+                        "load_shift.accel_threshold_m_s2",
+                        pos,
+                        |x| x > 0.0,
+                    )?,
+                    jerk_threshold_m_s3: self.num(
+                        &l.jerk_threshold_m_s3,
+                        "load_shift.jerk_threshold_m_s3",
+                        pos,
+                        |x| x > 0.0,
+                    )?,
+                    force_n: self.num(
+                        &l.force_n,
+                        "load_shift.force_n",
+                        "finite and >= 0 N",
+                        |x| x >= 0.0,
+                    )?,
+                    duration_s: self
+                        .num(&l.duration_s, "load_shift.duration_s", pos, |x| x > 0.0)?,
+                })
+            }
+        };
+
+        let metric_options = match &raw.metrics {
+            None => MetricSettings::default(),
+            Some(m) => MetricSettings {
+                settling_band: self.opt(
+                    m.settling_band.as_ref(),
+                    "metrics.settling_band",
+                    0.02,
+                    "in (0, 1) (fraction of the step)",
+                    |x| x > 0.0 && x < 1.0,
+                )?,
+                steady_window_s: self.opt(
+                    m.steady_window_s.as_ref(),
+                    "metrics.steady_window_s",
+                    1.0,
+                    "finite and > 0 s",
+                    |x| x > 0.0,
+                )?,
+            },
+        };
+
+        let mut criteria = Vec::new();
+        for (name, limit) in raw.criteria.entries() {
+            let Some(limit) = limit else { continue };
+            let metric = MetricKey::from_name(name)
+                .ok_or_else(|| self.fail(limit.span(), name, "is not a metric".into()))?;
+            let l = limit.get_ref();
+            let source = l.source.as_ref().map(|s| s.get_ref().clone());
+            let key = format!("criteria.{name}");
+            let mut bounds = Vec::new();
+            if let Some(max) = &l.max {
+                bounds.push((Bound::Max, self.finite(max, &format!("{key}.max"))?));
+            }
+            if let Some(min) = &l.min {
+                let lo = self.finite(min, &format!("{key}.min"))?;
+                if let Some((_, hi)) = bounds.first()
+                    && lo > *hi
+                {
+                    return Err(self.fail(
+                        min.span(),
+                        &format!("{key}.min"),
+                        format!("{lo} is not allowed: must be <= {key}.max = {hi}"),
+                    ));
+                }
+                bounds.push((Bound::Min, lo));
+            }
+            if bounds.is_empty() {
+                return Err(self.fail(limit.span(), &key, "needs `max`, `min` or both".into()));
+            }
+            for (bound, value) in bounds {
+                criteria.push(Criterion {
+                    metric,
+                    bound,
+                    limit: value,
+                    source: source.clone(),
+                });
+            }
+        }
+        if criteria.is_empty() {
+            return Err(self.src.error(
+                None,
+                Some("criteria".into()),
+                "at least one criterion is required",
+            ));
+        }
+
+        let setup = Setup {
+            duration_s,
+            reference,
+            disturbances,
+            overrides,
+            actuator_limits: actuator.map(|a| (a.min, a.max)),
+            load_shift,
+            initial_command,
+        };
+        Ok(Scenario {
+            name,
+            description: meta
+                .description
+                .as_ref()
+                .map_or_else(String::new, |d| d.get_ref().trim().to_owned()),
+            source: file.to_owned(),
+            seed,
+            output_unit: text(&meta.output_unit, default_unit),
+            command_unit: text(&meta.command_unit, "1"),
+            controller,
+            plant,
+            initial_output,
+            actuator,
+            sensor,
+            setup,
+            metric_options,
+            criteria,
+        })
+    }
+
+    fn controller(&self, c: &RawController) -> Res<Settings> {
+        let k = |name: &str| format!("controller.{name}");
+        let period = self.num(&c.period_s, &k("period_s"), "finite and > 0 s", |x| x > 0.0)?;
+        let nonneg = "finite and >= 0";
+        let kp = self.num(&c.kp, &k("kp"), nonneg, |x| x >= 0.0)?;
+        let ki = self.num(&c.ki_per_s, &k("ki_per_s"), "finite and >= 0 per s", |x| {
+            x >= 0.0
+        })?;
+        let lo = self.finite(&c.output_min, &k("output_min"))?;
+        let hi = self.num(
+            &c.output_max,
+            &k("output_max"),
+            "finite and > controller.output_min",
+            |x| x > lo,
+        )?;
+        let mut s = Settings::new(period, kp, ki, lo, hi);
+        if let Some(v) = &c.slew_per_s {
+            s = s.with_slew_per_s(
+                self.num(v, &k("slew_per_s"), "finite and > 0 per s", |x| x > 0.0)?,
+            );
+        }
+        if let Some(v) = &c.filter_time_s {
+            s = s.with_filter_time_s(self.num(
+                v,
+                &k("filter_time_s"),
+                "finite and > 0 s",
+                |x| x > 0.0,
+            )?);
+        }
+        if let Some(v) = &c.deadband {
+            s = s.with_deadband(self.num(v, &k("deadband"), nonneg, |x| x >= 0.0)?);
+        }
+        if let Some(v) = &c.setpoint_weight {
+            s = s.with_setpoint_weight(self.num(v, &k("setpoint_weight"), "in [0, 1]", |x| {
+                (0.0..=1.0).contains(&x)
+            })?);
+        }
+        let method = c.anti_windup.as_ref();
+        match method.map(|m| m.get_ref().as_str()) {
+            None | Some("conditional_integration") => {
+                if let Some(t) = &c.tracking_time_s {
+                    return Err(self.fail(
+                        t.span(),
+                        &k("tracking_time_s"),
+                        "only applies with anti_windup = \"back_calculation\"".into(),
+                    ));
+                }
+            }
+            Some("back_calculation") => {
+                let Some(t) = &c.tracking_time_s else {
+                    return Err(self.fail(
+                        method.map_or(0..0, Spanned::span),
+                        &k("tracking_time_s"),
+                        "is required with anti_windup = \"back_calculation\"".into(),
+                    ));
+                };
+                let tt = self.num(
+                    t,
+                    &k("tracking_time_s"),
+                    "finite and >= controller.period_s",
+                    |x| x >= period,
+                )?;
+                s = s.with_anti_windup(AntiWindup::BackCalculation {
+                    tracking_time_s: tt,
+                });
+            }
+            Some(other) => {
+                return Err(self.fail(
+                    method.map_or(0..0, Spanned::span),
+                    &k("anti_windup"),
+                    format!(
+                        "\"{other}\" is not allowed: must be \"back_calculation\" or \"conditional_integration\""
+                    ),
+                ));
+            }
+        }
+        match (&c.measurement_min, &c.measurement_max) {
+            (None, None) => {}
+            (Some(a), Some(b)) => {
+                let lo = self.finite(a, &k("measurement_min"))?;
+                let hi = self.num(
+                    b,
+                    &k("measurement_max"),
+                    "finite and > controller.measurement_min",
+                    |x| x > lo,
+                )?;
+                s = s.with_measurement_range(lo, hi);
+            }
+            (Some(v), None) | (None, Some(v)) => {
+                return Err(self.fail(
+                    v.span(),
+                    &k("measurement_min"),
+                    "measurement_min and measurement_max must be given together".into(),
+                ));
+            }
+        }
+        // Anything the controller crate still refuses, located at its key.
+        s.per_sample().map_err(|e| {
+            let span = controller_span(c, e.to_string().split(' ').next().unwrap_or(""));
+            self.src
+                .error(span, Some("controller".into()), e.to_string())
+        })?;
+        Ok(s)
+    }
+
+    fn plant(&self, p: &RawPlant) -> Res<(PlantModel, f64)> {
+        let model = p.model.get_ref().as_str();
+        let k = |name: &str| format!("plant.{name}");
+        let allowed: &[&str] = match model {
+            "integrator" => &["gain"],
+            "first_order_lag" => &["gain", "tau_s", "dead_time_s"],
+            "vehicle" => &[
+                "mass_kg",
+                "actuator_gain_n",
+                "crr",
+                "air_density_kg_m3",
+                "cda_m2",
+                "creep_speed_m_s",
+                "substeps",
+            ],
+            "rotor" => &[
+                "inertia_kg_m2",
+                "torque_gain_n_m",
+                "viscous_n_m_s",
+                "drag_n_m_s2",
+                "substeps",
+            ],
+            other => {
+                return Err(self.fail(
+                    p.model.span(),
+                    "plant.model",
+                    format!(
+                        "\"{other}\" is not allowed: must be \"integrator\", \"first_order_lag\", \"vehicle\" or \"rotor\""
+                    ),
+                ));
+            }
+        };
+        for (name, span) in plant_fields(p) {
+            if let Some(span) = span
+                && !allowed.contains(&name)
+            {
+                return Err(self.fail(
+                    span,
+                    &k(name),
+                    format!(
+                        "does not apply to plant.model = \"{model}\" (its keys: {})",
+                        allowed.join(", ")
+                    ),
+                ));
+            }
+        }
+        if let Some(n) = &p.substeps
+            && !allowed.contains(&"substeps")
+        {
+            return Err(self.fail(
+                n.span(),
+                &k("substeps"),
+                format!(
+                    "does not apply to plant.model = \"{model}\" (its keys: {})",
+                    allowed.join(", ")
+                ),
+            ));
+        }
+        let need = |v: &Option<Num>, name: &str| -> Res<Num> {
+            v.clone().ok_or_else(|| {
+                self.fail(
+                    p.model.span(),
+                    &k(name),
+                    format!("is required for plant.model = \"{model}\""),
+                )
+            })
+        };
+        let nonzero = "finite and non-zero";
+        let initial = self.opt(
+            p.initial_output.as_ref(),
+            &k("initial_output"),
+            0.0,
+            "a finite number",
+            |_| true,
+        )?;
+        let plant = match model {
+            "integrator" => PlantModel::Integrator {
+                gain: self.num(&need(&p.gain, "gain")?, &k("gain"), nonzero, |x| x != 0.0)?,
+            },
+            "first_order_lag" => PlantModel::FirstOrderLag {
+                gain: self.num(&need(&p.gain, "gain")?, &k("gain"), nonzero, |x| x != 0.0)?,
+                tau_s: self.num(
+                    &need(&p.tau_s, "tau_s")?,
+                    &k("tau_s"),
+                    "finite and > 0 s",
+                    |x| x > 0.0,
+                )?,
+                dead_time_s: self.opt(
+                    p.dead_time_s.as_ref(),
+                    &k("dead_time_s"),
+                    0.0,
+                    "finite and >= 0 s",
+                    |x| x >= 0.0,
+                )?,
+            },
+            "vehicle" => {
+                let d = VehicleParams::default();
+                let nonneg = |v: &Option<Num>, name: &str, default: f64, unit: &str| {
+                    self.opt(
+                        v.as_ref(),
+                        &k(name),
+                        default,
+                        &format!("finite and >= 0{unit}"),
+                        |x| x >= 0.0,
+                    )
+                };
+                PlantModel::Vehicle(VehicleParams {
+                    mass_kg: self.num(
+                        &need(&p.mass_kg, "mass_kg")?,
+                        &k("mass_kg"),
+                        "finite and > 0 kg",
+                        |x| x > 0.0,
+                    )?,
+                    actuator_gain_n: self.num(
+                        &need(&p.actuator_gain_n, "actuator_gain_n")?,
+                        &k("actuator_gain_n"),
+                        "finite and non-zero N per unit command",
+                        |x| x != 0.0,
+                    )?,
+                    crr: nonneg(&p.crr, "crr", d.crr, "")?,
+                    air_density_kg_m3: nonneg(
+                        &p.air_density_kg_m3,
+                        "air_density_kg_m3",
+                        d.air_density_kg_m3,
+                        " kg/m^3",
+                    )?,
+                    cda_m2: nonneg(&p.cda_m2, "cda_m2", d.cda_m2, " m^2")?,
+                    creep_speed_m_s: self.opt(
+                        p.creep_speed_m_s.as_ref(),
+                        &k("creep_speed_m_s"),
+                        d.creep_speed_m_s,
+                        "finite and > 0 m/s",
+                        |x| x > 0.0,
+                    )?,
+                    substeps: self.substeps(p.substeps.as_ref(), &k("substeps"), d.substeps)?,
+                })
+            }
+            _ => PlantModel::Rotor(RotorParams {
+                inertia_kg_m2: self.num(
+                    &need(&p.inertia_kg_m2, "inertia_kg_m2")?,
+                    &k("inertia_kg_m2"),
+                    "finite and > 0 kg·m²",
+                    |x| x > 0.0,
+                )?,
+                torque_gain_n_m: self.num(
+                    &need(&p.torque_gain_n_m, "torque_gain_n_m")?,
+                    &k("torque_gain_n_m"),
+                    nonzero,
+                    |x| x != 0.0,
+                )?,
+                viscous_n_m_s: self.opt(
+                    p.viscous_n_m_s.as_ref(),
+                    &k("viscous_n_m_s"),
+                    0.0,
+                    "finite and >= 0",
+                    |x| x >= 0.0,
+                )?,
+                drag_n_m_s2: self.opt(
+                    p.drag_n_m_s2.as_ref(),
+                    &k("drag_n_m_s2"),
+                    0.0,
+                    "finite and >= 0",
+                    |x| x >= 0.0,
+                )?,
+                substeps: self.substeps(p.substeps.as_ref(), &k("substeps"), 4)?,
+            }),
+        };
+        Ok((plant, initial))
+    }
+
+    fn profile(&self, p: &RawProfile, key: &str, default_initial: f64) -> Res<Profile> {
+        let initial = self.opt(
+            p.initial.as_ref(),
+            &format!("{key}.initial"),
+            default_initial,
+            "a finite number",
+            |_| true,
+        )?;
+        let mut segments = Vec::with_capacity(p.segments.len());
+        for (i, s) in p.segments.iter().enumerate() {
+            let k = |name: &str| format!("{key}.segments[{i}].{name}");
+            let dur = "finite and >= 0 s";
+            segments.push(Segment {
+                to: s
+                    .to
+                    .as_ref()
+                    .map(|v| self.finite(v, &k("to")))
+                    .transpose()?,
+                ramp_s: self.opt(s.ramp_s.as_ref(), &k("ramp_s"), 0.0, dur, |x| x >= 0.0)?,
+                hold_s: self.opt(s.hold_s.as_ref(), &k("hold_s"), 0.0, dur, |x| x >= 0.0)?,
+            });
+        }
+        Ok(Profile::new(initial, segments))
+    }
+}
+
+use toml::Spanned;
+
+/// Every model-specific plant key with its span when present.
+fn plant_fields(p: &RawPlant) -> [(&'static str, Option<Range<usize>>); 13] {
+    let s = |v: &Option<Num>| v.as_ref().map(Spanned::span);
+    [
+        ("gain", s(&p.gain)),
+        ("tau_s", s(&p.tau_s)),
+        ("dead_time_s", s(&p.dead_time_s)),
+        ("mass_kg", s(&p.mass_kg)),
+        ("actuator_gain_n", s(&p.actuator_gain_n)),
+        ("crr", s(&p.crr)),
+        ("air_density_kg_m3", s(&p.air_density_kg_m3)),
+        ("cda_m2", s(&p.cda_m2)),
+        ("creep_speed_m_s", s(&p.creep_speed_m_s)),
+        ("inertia_kg_m2", s(&p.inertia_kg_m2)),
+        ("torque_gain_n_m", s(&p.torque_gain_n_m)),
+        ("viscous_n_m_s", s(&p.viscous_n_m_s)),
+        ("drag_n_m_s2", s(&p.drag_n_m_s2)),
+    ]
+}
+
+/// Span of the controller key called `name` (as `evenkeel::Setting::name`).
+fn controller_span(c: &RawController, name: &str) -> Option<Range<usize>> {
+    let s = |v: &Option<Num>| v.as_ref().map(Spanned::span);
+    match name {
+        "period_s" => Some(c.period_s.span()),
+        "kp" => Some(c.kp.span()),
+        "ki_per_s" => Some(c.ki_per_s.span()),
+        "output_min" => Some(c.output_min.span()),
+        "output_max" => Some(c.output_max.span()),
+        "slew_per_s" => s(&c.slew_per_s),
+        "filter_time_s" => s(&c.filter_time_s),
+        "deadband" => s(&c.deadband),
+        "setpoint_weight" => s(&c.setpoint_weight),
+        "tracking_time_s" => s(&c.tracking_time_s),
+        "measurement_min" => s(&c.measurement_min),
+        "measurement_max" => s(&c.measurement_max),
+        _ => None,
+    }
+    .or(Some(c.period_s.span()))
+}

@@ -1,0 +1,287 @@
+//! Scenarios: a loop described in a TOML file (schema in `docs/SCENARIO.md`)
+//! or built in code, validated, ready to run on any backend.
+//!
+//! ```
+//! use evenkeel_harness::Scenario;
+//! let text = r#"
+//! [scenario]
+//! name = "tank"
+//! duration_s = 20.0
+//! [controller]
+//! period_s = 0.05
+//! kp = 2.0
+//! ki_per_s = 1.0
+//! output_min = -5.0
+//! output_max = 5.0
+//! [plant]
+//! model = "integrator"
+//! gain = 1.0
+//! [reference]
+//! segments = [{ to = 1.0, hold_s = 20.0 }]
+//! [criteria]
+//! overshoot_pct = { max = 20.0 }
+//! "#;
+//! let scenario = Scenario::from_toml(text, "tank.toml")?;
+//! scenario.run_all()?.assert_pass();
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
+
+mod error;
+mod load;
+mod schema;
+
+use std::path::Path;
+
+use evenkeel::fixed::types::I16F16;
+use evenkeel::{Backend, Settings};
+
+pub use error::ScenarioError;
+
+use crate::criteria::Criterion;
+use crate::outcome::{BackendKind, BackendRun, Outcome, RunError};
+use crate::plant::{
+    Actuated, Actuator, FirstOrderLag, Integrator, ParamError, Plant, Rotor, RotorParams, Sensor,
+    SensorParams, Vehicle, VehicleParams,
+};
+use crate::sim::{Setup, simulate};
+
+/// The built-in demo scenario (airport baggage tug), as shipped in
+/// `shared/scenarios/baggage_tug.toml`.
+pub const DEMO_TOML: &str = include_str!("../../../shared/scenarios/baggage_tug.toml");
+
+/// The plant model and its parameters (`[plant]`).
+#[derive(Debug, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum PlantModel {
+    /// `model = "integrator"`: [`Integrator`].
+    Integrator {
+        /// `gain`, output units per second per unit command.
+        gain: f64,
+    },
+    /// `model = "first_order_lag"`: [`FirstOrderLag`].
+    FirstOrderLag {
+        /// `gain`, output units per unit command.
+        gain: f64,
+        /// `tau_s`.
+        tau_s: f64,
+        /// `dead_time_s`.
+        dead_time_s: f64,
+    },
+    /// `model = "vehicle"`: [`Vehicle`].
+    Vehicle(VehicleParams),
+    /// `model = "rotor"`: [`Rotor`].
+    Rotor(RotorParams),
+}
+
+/// Actuator lag and limits in front of the plant (`[actuator]`).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ActuatorSpec {
+    /// Lag time constant, s (0: none).
+    pub tau_s: f64,
+    /// Lower limit, command units.
+    pub min: f64,
+    /// Upper limit, command units.
+    pub max: f64,
+    /// Sub-steps per period for the plant behind it.
+    pub substeps: u32,
+}
+
+/// Metric choices (`[metrics]`).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MetricSettings {
+    /// Settling band, fraction of the step size. Default 0.02.
+    pub settling_band: f64,
+    /// Window at the end for the steady-state error, s. Default 1.
+    pub steady_window_s: f64,
+}
+
+impl Default for MetricSettings {
+    fn default() -> Self {
+        Self {
+            settling_band: 0.02,
+            steady_window_s: 1.0,
+        }
+    }
+}
+
+/// A validated scenario. All fields are public so that a test can load a
+/// file and then, e.g., put its own controller settings in.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Scenario {
+    /// `scenario.name`.
+    pub name: String,
+    /// `scenario.description`.
+    pub description: String,
+    /// Where it came from (file path, `<built-in>`).
+    pub source: String,
+    /// Seed of the sensor noise.
+    pub seed: u64,
+    /// Unit of the measured output, for reports (`m/s`, `kPa`).
+    pub output_unit: String,
+    /// Unit of the command, for reports.
+    pub command_unit: String,
+    /// Controller settings in physical units (`[controller]`).
+    pub controller: Settings,
+    /// Plant model.
+    pub plant: PlantModel,
+    /// Plant output at t = 0.
+    pub initial_output: f64,
+    /// Actuator in front of the plant.
+    pub actuator: Option<ActuatorSpec>,
+    /// Sensor between plant and controller.
+    pub sensor: Option<SensorParams>,
+    /// Duration, reference, disturbances, override windows, load shift.
+    pub setup: Setup,
+    /// Metric choices.
+    pub metric_options: MetricSettings,
+    /// Pass/fail criteria.
+    pub criteria: Vec<Criterion>,
+}
+
+impl Scenario {
+    /// Reads and validates a scenario file.
+    ///
+    /// # Errors
+    /// A [`ScenarioError`] naming the file, and for invalid content the
+    /// line, column and key, and what is allowed.
+    pub fn from_path(path: impl AsRef<Path>) -> Result<Self, ScenarioError> {
+        let path = path.as_ref();
+        let file = path.display().to_string();
+        let text = std::fs::read_to_string(path).map_err(|e| ScenarioError {
+            file: file.clone(),
+            line: None,
+            column: None,
+            key: None,
+            message: format!("cannot read the file: {e}"),
+        })?;
+        Self::from_toml(&text, &file)
+    }
+
+    /// Parses and validates scenario text; `file` names it in errors.
+    ///
+    /// # Errors
+    /// As [`Scenario::from_path`].
+    pub fn from_toml(text: &str, file: &str) -> Result<Self, ScenarioError> {
+        load::parse(text, file)
+    }
+
+    /// The built-in demo ([`DEMO_TOML`]).
+    ///
+    /// # Errors
+    /// None in practice (the demo is checked by the test suite).
+    pub fn demo() -> Result<Self, ScenarioError> {
+        Self::from_toml(DEMO_TOML, "<built-in baggage_tug.toml>")
+    }
+
+    /// A fresh plant (with its actuator) at the initial output.
+    ///
+    /// # Errors
+    /// [`ParamError`] if a parameter set in code is out of range.
+    pub fn build_plant(&self) -> Result<Box<dyn Plant>, ParamError> {
+        let y0 = self.initial_output;
+        let u0 = self.setup.initial_command.unwrap_or(0.0);
+        let plant: Box<dyn Plant> = match self.plant {
+            PlantModel::Integrator { gain } => {
+                let mut p = Integrator::new(gain)?;
+                p.reset(y0);
+                Box::new(p)
+            }
+            PlantModel::FirstOrderLag {
+                gain,
+                tau_s,
+                dead_time_s,
+            } => {
+                let mut p = FirstOrderLag::new(gain, tau_s, dead_time_s)?;
+                // The command held before t = 0 fills the delay line.
+                p.reset_with_input(y0, u0);
+                Box::new(p)
+            }
+            PlantModel::Vehicle(p) => {
+                let mut p = Vehicle::new(p)?;
+                p.reset(y0);
+                Box::new(p)
+            }
+            PlantModel::Rotor(p) => {
+                let mut p = Rotor::new(p)?;
+                p.reset(y0);
+                Box::new(p)
+            }
+        };
+        Ok(match self.actuator {
+            None => plant,
+            Some(a) => {
+                let mut actuator = Actuator::new(a.tau_s, a.min, a.max)?;
+                actuator.reset(u0);
+                Box::new(Actuated::new(actuator, plant, a.substeps)?)
+            }
+        })
+    }
+
+    /// A fresh sensor (same seed every time), if one is modelled.
+    ///
+    /// # Errors
+    /// [`ParamError`] if a parameter set in code is out of range.
+    pub fn build_sensor(&self) -> Result<Option<Sensor>, ParamError> {
+        self.sensor.map(|p| Sensor::new(p, self.seed)).transpose()
+    }
+
+    /// Runs the scenario with backend `B` and evaluates the criteria.
+    ///
+    /// # Errors
+    /// [`RunError`] when the backend refuses the settings or a part cannot
+    /// be built.
+    pub fn run<B: Backend>(&self) -> Result<BackendRun, RunError> {
+        let mut plant = self.build_plant()?;
+        let mut sensor = self.build_sensor()?;
+        let rec = simulate::<B>(
+            &self.controller,
+            &self.setup,
+            plant.as_mut(),
+            sensor.as_mut(),
+        )
+        .map_err(|error| RunError::Config {
+            backend: B::NAME,
+            error,
+        })?;
+        BackendRun::assess(self, rec)
+    }
+
+    /// Runs on each of `backends`.
+    ///
+    /// # Errors
+    /// As [`Scenario::run`].
+    pub fn run_on(&self, backends: &[BackendKind]) -> Result<Outcome, RunError> {
+        let mut runs = Vec::with_capacity(backends.len());
+        for b in backends {
+            runs.push(match b {
+                BackendKind::Fixed => self.run::<I16F16>()?,
+                BackendKind::F32 => self.run::<f32>()?,
+                BackendKind::F64 => self.run::<f64>()?,
+            });
+        }
+        Ok(Outcome {
+            scenario: self.clone(),
+            runs,
+        })
+    }
+
+    /// Runs on fixed, f32 and f64.
+    ///
+    /// # Errors
+    /// As [`Scenario::run`].
+    pub fn run_all(&self) -> Result<Outcome, RunError> {
+        self.run_on(&BackendKind::ALL)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn demo_loads() {
+        let s = Scenario::demo().unwrap();
+        assert!(matches!(s.plant, PlantModel::Vehicle(_)));
+        assert!(!s.criteria.is_empty());
+    }
+}
