@@ -275,8 +275,8 @@ impl<B: Backend> Controller<B> {
     /// ```
     pub fn retune(&mut self, config: Config<B>) {
         if self.filter_primed {
-            let (old, _) = proportional(&self.config, self.last_setpoint, self.last_filtered);
-            let (new, _) = proportional(&config, self.last_setpoint, self.last_filtered);
+            let old = proportional_part(&self.config, self.last_setpoint, self.last_filtered);
+            let new = proportional_part(&config, self.last_setpoint, self.last_filtered);
             let moved = B::deplete(B::accumulate(self.integral, old), new);
             self.integral = clamp(moved, config.integral_min, config.integral_max);
         } else {
@@ -346,7 +346,10 @@ impl<B: Backend> Controller<B> {
 
         let y_f = match c.filter_alpha {
             Some(alpha) if self.filter_primed => {
-                let previous = B::narrow(self.filtered);
+                // `last_filtered` is always `narrow(filtered)`: both are set
+                // together below and nowhere else (`new` sets both to zero).
+                let previous = self.last_filtered;
+                debug_assert!(previous == B::narrow(self.filtered));
                 self.filtered = B::scale_into(self.filtered, y.sub(previous), alpha);
                 B::narrow(self.filtered)
             }
@@ -357,8 +360,8 @@ impl<B: Backend> Controller<B> {
         };
         self.filter_primed = true;
 
-        let (p, e) = proportional(c, r, y_f);
-        if c.deadband.is_some() && e == B::ZERO {
+        let (p, e, in_deadband) = proportional(c, r, y_f);
+        if in_deadband {
             status |= Status::DEADBAND;
         }
 
@@ -393,7 +396,12 @@ impl<B: Backend> Controller<B> {
                 u = down;
                 status |= Status::SLEW;
             }
-            u = clamp(u, c.output_min, c.output_max);
+            // No second clamp: `last_command` is always within the output
+            // limits (every assignment clamps or is clamped) and the step is
+            // positive, so `up` ≥ `output_min` and `down` ≤ `output_max`,
+            // and a bound is only applied when it is tighter than the
+            // limit already applied.
+            debug_assert!(u == clamp(u, c.output_min, c.output_max));
         }
 
         let downstream = match input.applied {
@@ -428,28 +436,37 @@ impl<B: Backend> Controller<B> {
     }
 }
 
-/// Proportional part and the (deadband-shrunk) error for setpoint `r` and
-/// filtered measurement `y_f`.
-#[inline]
-fn proportional<B: Backend>(c: &Config<B>, r: B, y_f: B) -> (B, B) {
+/// The proportional part alone, out of line: `retune` needs it twice and is
+/// not time-critical, so one shared copy keeps the code small.
+#[inline(never)]
+fn proportional_part<B: Backend>(c: &Config<B>, r: B, y_f: B) -> B {
+    proportional(c, r, y_f).0
+}
+
+/// Proportional part, the (deadband-shrunk) error for setpoint `r` and
+/// filtered measurement `y_f`, and whether a deadband is configured and the
+/// shrunk error is zero.
+#[inline(always)]
+fn proportional<B: Backend>(c: &Config<B>, r: B, y_f: B) -> (B, B, bool) {
     let e = r.sub(y_f);
-    let e_db = match c.deadband {
+    let (e_db, in_deadband) = match c.deadband {
         Some(w) => {
-            if e > w {
+            let e_db = if e > w {
                 e.sub(w)
             } else if e < B::ZERO.sub(w) {
                 e.add(w)
             } else {
                 B::ZERO
-            }
+            };
+            (e_db, e_db == B::ZERO)
         }
-        None => e,
+        None => (e, false),
     };
     let weighted = match c.setpoint_weight {
         Some(b) => r.scale(b).sub(y_f).sub(e.sub(e_db)),
         None => e_db,
     };
-    (weighted.scale(c.kp), e_db)
+    (weighted.scale(c.kp), e_db, in_deadband)
 }
 
 #[inline]

@@ -266,7 +266,8 @@ impl FixedCoef {
     #[inline]
     #[must_use]
     pub fn scale(self, x: I16F16) -> I16F16 {
-        I16F16::from_bits(saturate_i32(self.product(x.to_bits(), 0)))
+        let r = arith::rounded(x.to_bits(), self.mantissa, u32::from(self.shift));
+        I16F16::from_bits(r)
     }
 
     /// `acc + round(x · self)` with the product rounded at Q32.32 precision,
@@ -287,29 +288,210 @@ impl FixedCoef {
     #[must_use]
     pub fn scale_into(self, acc: I32F32, x: I16F16) -> I32F32 {
         let lift = ACCUM_FRAC_BITS - SIGNAL_FRAC_BITS;
-        let product = if u32::from(self.shift) >= lift {
-            self.product(x.to_bits(), lift)
-        } else {
-            // Not produced by configuration; keep the promise of no wrap.
-            i64::from(x.to_bits().signum()) * i64::MAX
-        };
-        I32F32::from_bits(acc.to_bits().saturating_add(product))
+        let shift = u32::from(self.shift);
+        if shift < lift {
+            return coarse_scale_into(acc, x);
+        }
+        let product = arith::rounded_wide(x.to_bits(), self.mantissa, shift - lift);
+        I32F32::from_bits(add_product(acc.to_bits(), product))
+    }
+}
+
+// The rounded product floor(x · m / 2^s + 1/2) of a coefficient and a
+// signal, and the rounding of an accumulator to a signal, twice: in 32-bit
+// words for 32-bit targets, in native 64-bit arithmetic for 64-bit hosts.
+// Both compute exactly the `round_shift` contract (the test
+// `word_products_match_the_64_bit_definition` checks both against it).
+#[cfg(target_pointer_width = "64")]
+use native as arith;
+#[cfg(not(target_pointer_width = "64"))]
+use words as arith;
+
+/// 64-bit hosts: one multiply, one add, one shift.
+#[cfg_attr(not(target_pointer_width = "64"), allow(dead_code))]
+mod native {
+    /// floor(x · m / 2^s + 1/2) saturated into `i32`, `s ≤ 62`.
+    #[inline(always)]
+    pub(super) fn rounded(x: i32, m: i32, s: u32) -> i32 {
+        super::saturate_i32(rounded_wide(x, m, s))
     }
 
-    /// `round(x · mantissa / 2^(shift − lift))`; `lift ≤ shift`.
-    ///
-    /// Branch-free: `shift ≤ 62` is an invariant of the type (every
-    /// constructor enforces it), so `s = shift − lift` is in 0..=62,
-    /// `half = 2^s / 2` is 0 for `s = 0`, the product is exact
-    /// (|x · mantissa| ≤ 2^31 · 2^31 = 2^62) and `product + half` stays
-    /// below 2^62 + 2^61 < 2^63: the wrapping operations never wrap.
-    #[inline]
-    fn product(self, x: i32, lift: u32) -> i64 {
-        let exact = i64::from(x).wrapping_mul(i64::from(self.mantissa));
-        let s = u32::from(self.shift).saturating_sub(lift) & 63;
+    /// floor(x · m / 2^s + 1/2), `s ≤ 62`: |x · m| < 2⁶² and the half is at
+    /// most 2⁶¹, so nothing wraps.
+    #[inline(always)]
+    pub(super) fn rounded_wide(x: i32, m: i32, s: u32) -> i64 {
+        let s = s & 63;
         let half = (1i64 << s) >> 1;
-        exact.wrapping_add(half) >> s
+        i64::from(x).wrapping_mul(i64::from(m)).wrapping_add(half) >> s
     }
+
+    /// floor(acc / 2¹⁶ + 1/2) saturated into `i32` (|acc / 2¹⁶| < 2⁴⁷: the
+    /// sum cannot wrap).
+    #[inline(always)]
+    pub(super) fn narrow_accum(acc: i64) -> i32 {
+        super::saturate_i32((acc >> 16) + ((acc >> 15) & 1))
+    }
+}
+
+/// 32-bit targets: `shift ≤ 62` is an invariant of `FixedCoef` (every
+/// constructor enforces it) and |mantissa| < 2³¹, so the exact product
+/// P = x · mantissa satisfies |P| < 2⁶², i.e. its high word lies in
+/// [−2³⁰, 2³⁰]. Only 32-bit shifts by amounts below 32 are used: on a 32-bit
+/// core a 64-bit shift by a run-time amount costs a dozen instructions (or a
+/// library call on Armv6-M).
+#[cfg_attr(target_pointer_width = "64", allow(dead_code))]
+mod words {
+    /// floor(x · m / 2^s + 1/2) saturated into `i32`, `s ≤ 62`.
+    #[inline(always)]
+    pub(super) fn rounded(x: i32, m: i32, s: u32) -> i32 {
+        let (lo, hi) = mul_wide(x, m);
+        if s >= 32 {
+            round_high(lo, hi, s - 32)
+        } else {
+            let (lo, hi) = round_low(lo, hi, s);
+            narrow_words(lo, hi)
+        }
+    }
+
+    /// floor(x · m / 2^s + 1/2), `s ≤ 62`.
+    #[inline(always)]
+    pub(super) fn rounded_wide(x: i32, m: i32, s: u32) -> i64 {
+        let (lo, hi) = mul_wide(x, m);
+        if s >= 32 {
+            i64::from(round_high(lo, hi, s - 32))
+        } else {
+            let (lo, hi) = round_low(lo, hi, s);
+            (i64::from(hi) << 32) | i64::from(lo)
+        }
+    }
+
+    /// floor(acc / 2¹⁶ + 1/2) saturated into `i32`: floor(acc / 2¹⁶) plus bit
+    /// 15 of acc, in 32-bit words (a 64-bit `round_shift` costs about twice as
+    /// much on Cortex-M).
+    #[inline(always)]
+    pub(super) fn narrow_accum(acc: i64) -> i32 {
+        let (lo, hi) = (acc as u32, (acc >> 32) as i32);
+        let floor = ((lo >> 16) | ((hi as u32) << 16)) as i32;
+        let round = ((lo >> 15) & 1) as i32;
+        // floor(acc / 2¹⁶) fits i32 exactly when hi fits i16.
+        if i32::from(hi as i16) == hi {
+            floor.saturating_add(round)
+        } else if hi < 0 {
+            i32::MIN
+        } else {
+            i32::MAX
+        }
+    }
+
+    /// The exact product `x · m` as (low word, high word).
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    #[inline(always)]
+    pub(super) fn mul_wide(x: i32, m: i32) -> (u32, i32) {
+        // One `smull` on Armv7-M.
+        let p = i64::from(x).wrapping_mul(i64::from(m));
+        (p as u32, (p >> 32) as i32)
+    }
+
+    /// The exact product `x · m` as (low word, high word), from four 16 × 16-bit
+    /// multiplies. For Armv6-M (Cortex-M0/M0+/M1, recognised by its lack of
+    /// 32-bit atomics), which has no 32 × 32 → 64-bit multiply: LLVM would call
+    /// the 64 × 64-bit `__aeabi_lmul` (about 45 instructions with the call);
+    /// this is about 20, inline.
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    #[inline(always)]
+    pub(super) fn mul_wide(x: i32, m: i32) -> (u32, i32) {
+        let (x_lo, x_hi) = (x & 0xffff, x >> 16);
+        let (m_lo, m_hi) = (m & 0xffff, m >> 16);
+        // x = x_hi·2¹⁶ + x_lo with 0 ≤ x_lo < 2¹⁶ and |x_hi| ≤ 2¹⁵ (same for m):
+        // low·low < 2³² (unsigned), |cross terms| < 2³¹, |high·high| ≤ 2³⁰.
+        let low = (x_lo as u32).wrapping_mul(m_lo as u32);
+        let high = x_hi.wrapping_mul(m_hi);
+        let cross_a = x_lo.wrapping_mul(m_hi);
+        let cross_b = x_hi.wrapping_mul(m_lo);
+        // P = high·2³² + (cross_a + cross_b)·2¹⁶ + low; each cross term is
+        // added as (its low half << 16) into the low word, carry and its high
+        // half into the high word. |P| < 2⁶³: nothing wraps.
+        let (lo, carry_a) = low.overflowing_add((cross_a as u32) << 16);
+        let (lo, carry_b) = lo.overflowing_add((cross_b as u32) << 16);
+        let hi = high
+            .wrapping_add(cross_a >> 16)
+            .wrapping_add(cross_b >> 16)
+            .wrapping_add(i32::from(carry_a))
+            .wrapping_add(i32::from(carry_b));
+        (lo, hi)
+    }
+
+    /// floor(P / 2^(32 + t) + 1/2) for P = hi·2³² + lo with |P| < 2⁶², t ≤ 30.
+    /// The result always fits `i32`.
+    #[inline(always)]
+    pub(super) fn round_high(lo: u32, hi: i32, t: u32) -> i32 {
+        // q = floor(P / 2³¹), |q| < 2³¹ because |P| < 2⁶².
+        let q = hi.wrapping_shl(1) | (lo >> 31) as i32;
+        // floor((P + 2^(31+t)) / 2^(32+t)) = floor((floor(q / 2^t) + 1) / 2).
+        let w = q >> (t & 31);
+        (w >> 1) + (w & 1)
+    }
+
+    /// floor(P / 2^s + 1/2) for P = hi·2³² + lo with |P| < 2⁶², s ≤ 31, as
+    /// (low word, high word).
+    #[inline(always)]
+    pub(super) fn round_low(lo: u32, hi: i32, s: u32) -> (u32, i32) {
+        let s = s & 31;
+        let half = (1u32 << s) >> 1; // 2^(s−1), or 0 for s = 0
+        let (lo, carry) = lo.overflowing_add(half);
+        // |hi| ≤ 2³⁰: adding the carry cannot wrap.
+        let hi = hi.wrapping_add(i32::from(carry));
+        // (hi << 1) << (31 − s) is hi << (32 − s), also for s = 0.
+        let lo = (lo >> s) | (((hi as u32) << 1) << (31 - s));
+        (lo, hi >> s)
+    }
+
+    /// The 64-bit value hi·2³² + lo saturated into `i32`.
+    #[inline(always)]
+    pub(super) fn narrow_words(lo: u32, hi: i32) -> i32 {
+        let lo = lo as i32;
+        if hi == lo >> 31 {
+            lo
+        } else if hi < 0 {
+            i32::MIN
+        } else {
+            i32::MAX
+        }
+    }
+}
+
+/// `acc + product`, saturating, for |product| < 2⁶² (every rounded product
+/// is). If also |acc| ≤ 2⁶² (top two bits equal; always so for the
+/// controller's integrator and filter state) the plain sum cannot wrap, and
+/// the 64-bit saturating add (about ten instructions on Armv7-M, fourteen on
+/// Armv6-M) is only needed otherwise.
+#[inline(always)]
+fn add_product(acc: i64, product: i64) -> i64 {
+    if (acc >> 62) == (acc >> 63) {
+        acc.wrapping_add(product)
+    } else {
+        saturating_sum(acc, product)
+    }
+}
+
+#[cold]
+#[inline(never)]
+fn saturating_sum(acc: i64, product: i64) -> i64 {
+    acc.saturating_add(product)
+}
+
+/// `scale_into` for a coefficient with a shift below 16 (not produced by
+/// configuration): the product counts as ±∞, so the sum saturates and
+/// nothing wraps.
+#[cold]
+#[inline(never)]
+fn coarse_scale_into(acc: I32F32, x: I16F16) -> I32F32 {
+    let product = match x.to_bits() {
+        0 => 0,
+        1.. => i64::MAX,
+        _ => -i64::MAX,
+    };
+    I32F32::from_bits(acc.to_bits().saturating_add(product))
 }
 
 /// `floor(p / 2^s + 1/2)`: round to nearest, ties toward +∞, for
@@ -373,7 +555,7 @@ pub const fn saturate_i32(x: i64) -> i32 {
 #[inline]
 #[must_use]
 pub fn accum_to_signal(acc: I32F32) -> I16F16 {
-    I16F16::from_bits(saturate_i32(round_shift(acc.to_bits(), 16)))
+    I16F16::from_bits(arith::narrow_accum(acc.to_bits()))
 }
 
 /// Widen a Q16.16 signal into a Q32.32 accumulator (exact).
@@ -466,6 +648,123 @@ mod tests {
         assert_eq!(round_shift(-(1 << 62), 62), -1);
         assert!(round_shift(i64::MAX, 1) > 0);
         assert!(round_shift(i64::MIN, 1) < 0);
+    }
+
+    /// The 32-bit-word products against the 64-bit definition
+    /// (`round_shift` then saturation), on edge values and a
+    /// pseudo-random sweep of every shift.
+    #[test]
+    fn word_products_match_the_64_bit_definition() {
+        let mut seed: u64 = 0x9E37_79B9_7F4A_7C15;
+        let mut next = move || {
+            seed = seed
+                .wrapping_mul(6_364_136_223_846_793_005)
+                .wrapping_add(1_442_695_040_888_963_407);
+            (seed >> 32) as u32
+        };
+        let edges = [
+            i32::MIN,
+            i32::MIN + 1,
+            -65_537,
+            -65_536,
+            -32_768,
+            -3,
+            -1,
+            0,
+            1,
+            3,
+            32_767,
+            32_768,
+            65_536,
+            i32::MAX - 1,
+            i32::MAX,
+        ];
+        let mantissas = [
+            -(i32::MAX),
+            -(1 << 30),
+            -3,
+            -1,
+            0,
+            1,
+            3,
+            1 << 29,
+            1 << 30,
+            i32::MAX,
+        ];
+        for shift in 0..=MAX_SHIFT {
+            let mut values: [i32; 40] = [0; 40];
+            for v in &mut values {
+                *v = next() as i32 >> (next() % 32);
+            }
+            for &m in mantissas.iter().chain(values.iter()) {
+                let m = if m == i32::MIN { -(i32::MAX) } else { m };
+                let c = FixedCoef {
+                    mantissa: m,
+                    shift: shift as u8,
+                };
+                for &x in edges.iter().chain(values.iter()) {
+                    let p = i64::from(x) * i64::from(m);
+                    let want = saturate_i32(round_shift(p, shift));
+                    assert_eq!(words::rounded(x, m, shift), want, "words {x}·{m}>>{shift}");
+                    assert_eq!(
+                        native::rounded(x, m, shift),
+                        want,
+                        "native {x}·{m}>>{shift}"
+                    );
+                    if shift >= 16 {
+                        let want = round_shift(p, shift - 16);
+                        assert_eq!(words::rounded_wide(x, m, shift - 16), want);
+                        assert_eq!(native::rounded_wide(x, m, shift - 16), want);
+                    }
+                    assert_eq!(
+                        c.scale(I16F16::from_bits(x)).to_bits(),
+                        want,
+                        "{x}·{m}>>{shift}"
+                    );
+                    for acc in [0, -7, 1 << 40, i64::MAX - 3, i64::MIN + 3] {
+                        let want = if shift >= 16 {
+                            acc.saturating_add(round_shift(p, shift - 16))
+                        } else {
+                            acc.saturating_add(i64::from(x.signum()) * i64::MAX)
+                        };
+                        let got = c.scale_into(I32F32::from_bits(acc), I16F16::from_bits(x));
+                        assert_eq!(got.to_bits(), want, "{acc} + {x}·{m}>>{shift}−16");
+                    }
+                }
+            }
+        }
+        let mut accs = [
+            i64::MIN,
+            i64::MIN + 1,
+            -(1 << 47) - 1,
+            -(1 << 47),
+            -(1 << 47) + 0x8000,
+            -0x8001,
+            -0x8000,
+            -1,
+            0,
+            0x7fff,
+            0x8000,
+            (1 << 47) - 0x8001,
+            (1 << 47) - 0x8000,
+            (1 << 47) - 1,
+            1 << 47,
+            i64::MAX,
+        ]
+        .to_vec();
+        for _ in 0..10_000 {
+            accs.push((i64::from(next()) << 32 | i64::from(next())) >> (next() % 64));
+        }
+        for acc in accs {
+            let want = saturate_i32(round_shift(acc, 16));
+            assert_eq!(words::narrow_accum(acc), want, "words {acc}");
+            assert_eq!(native::narrow_accum(acc), want, "native {acc}");
+            assert_eq!(
+                accum_to_signal(I32F32::from_bits(acc)).to_bits(),
+                want,
+                "{acc}"
+            );
+        }
     }
 
     #[test]
