@@ -19,6 +19,9 @@ mod backend;
 mod config;
 mod controller;
 mod error;
+#[cfg(feature = "monitor")]
+#[allow(clippy::float_arithmetic)] // on-target diagnostics in f32, beside the step
+pub mod monitor;
 #[allow(clippy::float_arithmetic)] // const conversions from f64, run once
 pub mod q;
 #[allow(clippy::float_arithmetic)] // schedule construction, run once
