@@ -32,11 +32,21 @@ pub enum MetricKey {
     PeakJerk,
     /// `time_saturated_s`
     TimeSaturated,
+    /// `limit_violations` ([`crate::fault::FaultMetrics`])
+    LimitViolations,
+    /// `fault_flag_errors`
+    FaultFlagErrors,
+    /// `fault_recovery_s`
+    FaultRecovery,
+    /// `fault_return_jump`
+    FaultReturnJump,
+    /// `fault_overshoot`
+    FaultOvershoot,
 }
 
 impl MetricKey {
     /// Every key, in report order.
-    pub const ALL: [Self; 12] = [
+    pub const ALL: [Self; 17] = [
         Self::RiseTime,
         Self::SettlingTime,
         Self::Overshoot,
@@ -49,6 +59,11 @@ impl MetricKey {
         Self::PeakAccel,
         Self::PeakJerk,
         Self::TimeSaturated,
+        Self::LimitViolations,
+        Self::FaultFlagErrors,
+        Self::FaultRecovery,
+        Self::FaultReturnJump,
+        Self::FaultOvershoot,
     ];
 
     /// The key as written in scenario files and JSON.
@@ -67,6 +82,11 @@ impl MetricKey {
             Self::PeakAccel => "peak_accel",
             Self::PeakJerk => "peak_jerk",
             Self::TimeSaturated => "time_saturated_s",
+            Self::LimitViolations => "limit_violations",
+            Self::FaultFlagErrors => "fault_flag_errors",
+            Self::FaultRecovery => "fault_recovery_s",
+            Self::FaultReturnJump => "fault_return_jump",
+            Self::FaultOvershoot => "fault_overshoot",
         }
     }
 
@@ -92,6 +112,11 @@ impl MetricKey {
             Self::PeakAccel => Some(m.peak_accel),
             Self::PeakJerk => Some(m.peak_jerk),
             Self::TimeSaturated => m.time_saturated_s,
+            Self::LimitViolations => m.faults.limit_violations,
+            Self::FaultFlagErrors => m.faults.fault_flag_errors,
+            Self::FaultRecovery => m.faults.fault_recovery_s,
+            Self::FaultReturnJump => m.faults.fault_return_jump,
+            Self::FaultOvershoot => m.faults.fault_overshoot,
         }
     }
 }

@@ -10,6 +10,10 @@
 //! - [`criteria`]: limits on metrics, evaluated into verdicts
 //! - [`outcome`]: runs per backend, [`Outcome::assert_pass`]
 //! - [`report`]: table, JSON, JUnit XML, CSV; [`plot`]: SVG/PNG
+//! - [`compare`]: fixed point against `f64`, back to back, with tolerances from the formats
+//! - [`fault`]: fault injection (sensor, actuator, payload) and its checks
+//! - [`sweep`]: uncertain parameters, parallel sweeps, shards, envelopes
+//! - [`design`]: gain and limit design (SIMC, pole placement), margins at every corner
 //!
 //! In a project's own tests, check a loop in a few lines:
 //!
@@ -28,7 +32,10 @@
 #![deny(missing_docs)]
 #![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used))]
 
+pub mod compare;
 pub mod criteria;
+pub mod design;
+pub mod fault;
 pub mod metrics;
 pub mod outcome;
 pub mod plant;
@@ -37,6 +44,7 @@ pub mod profile;
 pub mod report;
 pub mod scenario;
 pub mod sim;
+pub mod sweep;
 
 pub use outcome::{BackendKind, BackendRun, Outcome, RunError};
 pub use report::CAUTION;

@@ -130,6 +130,9 @@ pub struct Metrics {
     pub time_saturated_s: Option<f64>,
     /// See [`recovery_time_s`].
     pub recovery_time_s: Option<f64>,
+    /// Fault checks ([`crate::fault::assess`]); left empty by [`compute`],
+    /// filled in by [`crate::outcome::BackendRun::assess`].
+    pub faults: crate::fault::FaultMetrics,
 }
 
 /// A trace or option that [`compute`] cannot use.
@@ -262,6 +265,7 @@ pub fn compute(trace: &Trace<'_>, options: &MetricOptions) -> Result<Metrics, Me
             (Some(s), Some(b)) => recovery_time_s(r, y, u, dt, &s, b),
             _ => None,
         },
+        faults: crate::fault::FaultMetrics::default(),
     })
 }
 

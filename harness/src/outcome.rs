@@ -109,6 +109,7 @@ impl BackendRun {
                 .filter(|b| *b > 0.0),
         };
         let mut metrics = compute(&rec.trace(), &whole)?;
+        metrics.faults = crate::fault::assess(&rec, whole.error_band);
         if let Some((start_s, end_s, from, to)) = change {
             let n = rec.time_s.len();
             let first = rec

@@ -4,7 +4,11 @@
 //! 1. reference, measurement and true output;
 //! 2. command with its output limits;
 //! 3. plant rate (acceleration) with the `peak_accel` limit;
-//! 4. jerk with the `peak_jerk` limit.
+//! 4. jerk with the `peak_jerk` limit;
+//! 5. fault and diagnostic lanes: injected faults, the controller's fault
+//!    flags (`non_finite`, `measurement_range`, `setpoint_range`,
+//!    `downstream`), and the loop monitor's alarms
+//!    ([`evenkeel::monitor::Diagnostics`]), each a 0/1 lane.
 //!
 //! Text uses the vendored DejaVu Sans (`assets/`, Bitstream Vera licence),
 //! so no system font library is needed.
@@ -22,11 +26,11 @@ use crate::outcome::BackendRun;
 use crate::report::{CAUTION, write_atomic};
 use crate::scenario::Scenario;
 
-const FONT: &str = "sans-serif";
-const SIZE: (u32, u32) = (1200, 1500);
+pub(crate) const FONT: &str = "sans-serif";
+pub(crate) const SIZE: (u32, u32) = (1200, 1500);
 /// Longest series drawn; longer ones are reduced to per-bucket min and max,
 /// which keeps every peak.
-const MAX_POINTS: usize = 2400;
+pub(crate) const MAX_POINTS: usize = 2400;
 
 /// A plot that could not be drawn or written.
 #[derive(Debug, thiserror::Error)]
@@ -48,7 +52,7 @@ pub enum PlotError {
     },
 }
 
-fn register() {
+pub(crate) fn register() {
     static ONCE: Once = Once::new();
     ONCE.call_once(|| {
         // The font is vendored and valid; a failure would only lose labels.
@@ -99,13 +103,18 @@ pub fn plot(scenario: &Scenario, run: &BackendRun, path: &Path) -> Result<(), Pl
     }
 }
 
-fn encode_png(out: &mut Vec<u8>, rgb: &[u8], w: u32, h: u32) -> Result<(), image::ImageError> {
+pub(crate) fn encode_png(
+    out: &mut Vec<u8>,
+    rgb: &[u8],
+    w: u32,
+    h: u32,
+) -> Result<(), image::ImageError> {
     use image::ImageEncoder;
     image::codecs::png::PngEncoder::new(out).write_image(rgb, w, h, image::ColorType::Rgb8)
 }
 
 /// The limit of criterion `metric` with bound `max`, if the scenario has one.
-fn max_limit(scenario: &Scenario, metric: MetricKey) -> Option<f64> {
+pub(crate) fn max_limit(scenario: &Scenario, metric: MetricKey) -> Option<f64> {
     scenario
         .criteria
         .iter()
@@ -115,7 +124,7 @@ fn max_limit(scenario: &Scenario, metric: MetricKey) -> Option<f64> {
 
 /// `(t, x)` reduced to at most about `MAX_POINTS` points, keeping each
 /// bucket's minimum and maximum in time order.
-fn reduce(t: &[f64], x: &[f64]) -> Vec<(f64, f64)> {
+pub(crate) fn reduce(t: &[f64], x: &[f64]) -> Vec<(f64, f64)> {
     let n = t.len().min(x.len());
     let bucket = n.div_ceil(MAX_POINTS / 2).max(1);
     if bucket == 1 {
@@ -145,7 +154,7 @@ fn reduce(t: &[f64], x: &[f64]) -> Vec<(f64, f64)> {
 }
 
 /// Range covering `values` and `extra` with 8 % head room; never empty.
-fn span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
+pub(crate) fn span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
     let all = values
         .iter()
         .flat_map(|v| v.iter())
@@ -160,6 +169,70 @@ fn span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
     }
     let pad = ((hi - lo) * 0.08).max(1e-6 * hi.abs().max(1.0));
     (lo - pad)..(hi + pad)
+}
+
+/// Panel 5: one 0/1 lane per signal, lane `i` drawn between `i` and `i + 0.8`.
+fn lanes_panel(run: &BackendRun) -> Panel<'static> {
+    use evenkeel::Status;
+    use evenkeel::monitor::Diagnostics;
+    let rec = &run.recording;
+    let t = &rec.time_s;
+    let f = &rec.faults;
+    let lane = |i: f64, on: &dyn Fn(usize) -> bool| -> Vec<f64> {
+        (0..t.len())
+            .map(|k| i + if on(k) { 0.8 } else { 0.0 })
+            .collect()
+    };
+    let monitor = |k: usize, flag: Diagnostics| f.monitor.get(k).is_some_and(|d| d.contains(flag));
+    let flagged = |k: usize| {
+        rec.status
+            .get(k)
+            .is_some_and(|s| s.is_fault() || s.contains(Status::DOWNSTREAM))
+    };
+    let series = vec![
+        (
+            "fault injected",
+            reduce(
+                t,
+                &lane(5.0, &|k| {
+                    f.active.get(k).copied().unwrap_or(false)
+                        || f.payload.get(k).copied().unwrap_or(false)
+                }),
+            ),
+            RGBColor(200, 30, 30),
+        ),
+        (
+            "controller fault flag",
+            reduce(t, &lane(4.0, &flagged)),
+            RGBColor(230, 120, 20),
+        ),
+        (
+            "monitor: oscillation",
+            reduce(t, &lane(3.0, &|k| monitor(k, Diagnostics::OSCILLATION))),
+            RGBColor(148, 103, 189),
+        ),
+        (
+            "monitor: saturation",
+            reduce(t, &lane(2.0, &|k| monitor(k, Diagnostics::SATURATION))),
+            RGBColor(31, 119, 180),
+        ),
+        (
+            "monitor: sluggish",
+            reduce(t, &lane(1.0, &|k| monitor(k, Diagnostics::SLUGGISH))),
+            RGBColor(44, 160, 44),
+        ),
+        (
+            "monitor: noisy",
+            reduce(t, &lane(0.0, &|k| monitor(k, Diagnostics::NOISY))),
+            RGBColor(120, 120, 120),
+        ),
+    ];
+    Panel {
+        y_desc: "faults / flags (lanes, 0/1)".to_owned(),
+        series,
+        limits: Vec::new(),
+        range: -0.3..10.5, // head room for the legend above the lanes
+    }
 }
 
 /// A named line: label, points, colour.
@@ -242,6 +315,7 @@ fn draw<DB: DrawingBackend>(
                 .map(|v| ("peak_jerk limit (±)".to_owned(), v))
                 .collect(),
         },
+        lanes_panel(run),
     ];
 
     root.fill(&WHITE).map_err(e)?;

@@ -115,6 +115,41 @@ impl Profile {
         value
     }
 
+    /// Multiplies every value of the profile by `factor` (a sweep's
+    /// profile factor, e.g. steeper or mirrored ramps).
+    ///
+    /// ```
+    /// use evenkeel_harness::profile::{Profile, Segment};
+    /// let mut grade = Profile::new(0.0, vec![Segment::ramp(3.0, 2.0, 1.0)]);
+    /// grade.scale(-0.5);
+    /// assert_eq!(grade.at(1.0), -0.75);
+    /// assert_eq!(grade.at(9.0), -1.5);
+    /// ```
+    pub fn scale(&mut self, factor: f64) {
+        self.initial *= factor;
+        for (_, from, s) in &mut self.pieces {
+            *from *= factor;
+            s.to = s.to.map(|v| v * factor);
+        }
+    }
+
+    /// The smallest and largest value the profile takes.
+    ///
+    /// ```
+    /// use evenkeel_harness::profile::{Profile, Segment};
+    /// let p = Profile::new(1.0, vec![Segment::ramp(4.0, 2.0, 1.0), Segment::step(-2.0, 1.0)]);
+    /// assert_eq!(p.range(), (-2.0, 4.0));
+    /// ```
+    #[must_use]
+    pub fn range(&self) -> (f64, f64) {
+        self.pieces
+            .iter()
+            .filter_map(|(_, _, s)| s.to)
+            .fold((self.initial, self.initial), |(lo, hi), v| {
+                (lo.min(v), hi.max(v))
+            })
+    }
+
     /// Total length of the segments, s.
     #[must_use]
     pub fn duration_s(&self) -> f64 {

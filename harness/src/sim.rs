@@ -16,8 +16,10 @@
 //! `to_f64` (exact), so the fixed-point backend sees the Q16.16 values a
 //! firmware would.
 
-use evenkeel::{Backend, Config, ConfigError, Controller, Input, Settings, Status};
+use evenkeel::monitor::{Monitor, MonitorSettings};
+use evenkeel::{Backend, Config, ConfigError, Controller, Input, Output, Settings, Status};
 
+use crate::fault::{Fault, FaultTrace, Injector};
 use crate::metrics::Trace;
 use crate::plant::{Environment, Plant, Sensor};
 use crate::profile::Profile;
@@ -111,6 +113,36 @@ pub struct Setup {
     /// Actuator value at t = 0; the controller engages bumplessly from it
     /// (`Controller::engage`). `None`: the controller starts at rest.
     pub initial_command: Option<f64>,
+    /// Injected faults ([`crate::fault`]).
+    pub faults: Vec<Fault>,
+    /// Settings of the loop monitor run beside the controller; `None`:
+    /// [`default_monitor`].
+    pub monitor: Option<MonitorSettings>,
+}
+
+/// Monitor settings when a scenario gives none (our own defaults):
+/// amplitude a = 2 % of the largest reference magnitude (Hägglund suggests
+/// about 1 % of the signal range; from memory), T_u replaced by the
+/// integral time Ti = Kp/Ki (Hägglund's fallback; from memory), or 100·Ts
+/// without integral action or without Kp.
+#[must_use]
+#[allow(clippy::cast_possible_truncation)] // f32 settings of a diagnostic
+pub fn default_monitor(settings: &Settings, setup: &Setup) -> MonitorSettings {
+    let ts = settings.period_s;
+    let n = (setup.duration_s / ts).round().clamp(1.0, 1e9);
+    let mut largest = 0.0_f64;
+    let mut k = 0.0;
+    while k < n {
+        largest = largest.max(setup.reference.at(k * ts).abs());
+        k += (n / 1000.0).ceil();
+    }
+    let amplitude = if largest > 0.0 { 0.02 * largest } else { 1e-3 };
+    let ti = if settings.kp > 0.0 && settings.ki_per_s > 0.0 {
+        settings.kp / settings.ki_per_s
+    } else {
+        100.0 * ts
+    };
+    MonitorSettings::new(ts as f32, amplitude as f32, ti as f32)
 }
 
 /// The recorded time series of one closed-loop run, one entry per
@@ -141,6 +173,8 @@ pub struct Recording {
     pub states: Vec<(&'static str, Vec<f64>)>,
     /// Number of towed-load shifts.
     pub load_shifts: usize,
+    /// Fault columns and the loop monitor's flags.
+    pub faults: FaultTrace,
 }
 
 impl Recording {
@@ -214,7 +248,18 @@ pub fn simulate<B: Backend>(
         status: Vec::with_capacity(n),
         states: Vec::new(),
         load_shifts: 0,
+        faults: FaultTrace::default(),
     };
+    let mut injector = Injector::new(&setup.faults);
+    let report_applied = setup.actuator_limits.is_some() || injector.has_actuator_faults();
+    let monitor_settings = setup
+        .monitor
+        .unwrap_or_else(|| default_monitor(settings, setup));
+    let mut monitor = Monitor::new(monitor_settings).ok();
+    rec.faults.monitor_settings = monitor.is_some().then_some(monitor_settings);
+    let (out_lo, out_hi) = pi.config().output_limits();
+    let (meas_lo, meas_hi) = pi.config().measurement_range();
+    let slew = pi.config().slew_step();
     let mut names = Vec::new();
     plant.states(&mut names);
     rec.states = names
@@ -241,8 +286,10 @@ pub fn simulate<B: Backend>(
             Some(s) => s.measure(truth),
             None => truth,
         };
+        let measured = injector.sensor(t, measured);
         let r = setup.reference.at(t);
         let mut env = setup.disturbances.at(t);
+        env.gain_factor *= injector.gain_factor(t);
         let accel = plant.rate();
 
         if let Some(shift) = &setup.load_shift {
@@ -268,10 +315,35 @@ pub fn simulate<B: Backend>(
         last_accel = accel;
 
         let mut input = Input::new(B::from_f64(r), B::from_f64(measured));
-        if let Some((lo, hi)) = setup.actuator_limits {
+        if report_applied {
             // What the actuator was driven with last period, within its
             // limits (exact round trip for a command that was not limited).
+            let (lo, hi) = setup
+                .actuator_limits
+                .unwrap_or((f64::NEG_INFINITY, f64::INFINITY));
             input = input.with_applied(B::from_f64(drive.clamp(lo, hi)));
+        }
+        // The fault flags the injected values call for (the oracle of
+        // `fault_flag_errors`).
+        let before = pi.last_command();
+        // A reading the backend cannot represent (NaN in fixed point): the
+        // firmware's guard refuses it before conversion and holds.
+        let guarded = !measured.is_finite() && input.measurement.is_finite();
+        let mut expected = Status::NONE;
+        if !measured.is_finite() {
+            if !guarded {
+                expected = Status::NON_FINITE;
+            }
+        } else {
+            if input.measurement < meas_lo || input.measurement > meas_hi {
+                expected |= Status::MEASUREMENT_RANGE;
+            }
+            if input.setpoint < meas_lo || input.setpoint > meas_hi {
+                expected |= Status::SETPOINT_RANGE;
+            }
+            if input.applied.is_some_and(|a| a != before) {
+                expected |= Status::DOWNSTREAM;
+            }
         }
         let active = setup
             .overrides
@@ -295,6 +367,10 @@ pub fn simulate<B: Backend>(
                 };
                 pi.track(&input, B::from_f64(drive))
             }
+            None if guarded => Output {
+                command: before,
+                status: Status::NONE,
+            },
             None => {
                 taken_over = None;
                 let out = pi.step_with(&input);
@@ -302,6 +378,21 @@ pub fn simulate<B: Backend>(
                 out
             }
         };
+        drive = injector.actuator(t, drive);
+        let u = out.command;
+        let jumped = out.status.contains(Status::ENGAGED) || out.status.contains(Status::TRACKING);
+        let off_slew = slew.is_some_and(|s| u > before.add(s) || u < before.sub(s));
+        rec.faults
+            .limit_violation
+            .push(u < out_lo || u > out_hi || (off_slew && !jumped));
+        rec.faults.active.push(injector.any_active(t));
+        rec.faults.payload.push(injector.payload_changed(t));
+        rec.faults.expected.push(expected);
+        #[allow(clippy::cast_possible_truncation)] // f32 diagnostics
+        let seen = monitor.as_mut().map_or_else(Default::default, |m| {
+            m.update(r as f32, measured as f32, out.status)
+        });
+        rec.faults.monitor.push(seen);
 
         rec.time_s.push(t);
         rec.reference.push(r);

@@ -5,7 +5,7 @@ use std::process::{Command, Output};
 
 use evenkeel_harness::CAUTION;
 
-const METRIC_KEYS: [&str; 12] = [
+const METRIC_KEYS: [&str; 17] = [
     "rise_time_s",
     "settling_time_s",
     "overshoot_pct",
@@ -18,6 +18,11 @@ const METRIC_KEYS: [&str; 12] = [
     "peak_accel",
     "peak_jerk",
     "time_saturated_s",
+    "limit_violations",
+    "fault_flag_errors",
+    "fault_recovery_s",
+    "fault_return_jump",
+    "fault_overshoot",
 ];
 
 fn demos() -> Vec<PathBuf> {
@@ -249,14 +254,14 @@ fn impossible_values_fail_with_exit_code_2_and_a_location() {
             "> controller.output_min",
         ),
         (
-            "kp = 3.0",
+            "kp = 1.03",
             "kp = nan",
             ("kp = nan", 5),
             "controller.kp",
             "finite",
         ),
         (
-            "ki_per_s = 0.2",
+            "ki_per_s = 0.325",
             "ki_per_s = inf",
             ("ki_per_s = inf", 11),
             "controller.ki_per_s",
@@ -291,7 +296,7 @@ fn impossible_values_fail_with_exit_code_2_and_a_location() {
             "does not apply",
         ),
         (
-            "kp = 3.0",
+            "kp = 1.03",
             "kp = \"fast\"",
             ("kp = \"fast", 5),
             "controller.kp",

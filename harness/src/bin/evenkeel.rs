@@ -1,4 +1,6 @@
-//! `evenkeel check`: run scenarios, print verdicts, write reports.
+//! `evenkeel check`: run scenarios, print verdicts, write reports; `sweep`,
+//! `merge` and `design` (in `evenkeel/robust.rs`) for robustness over the
+//! unknown plant.
 //!
 //! Exit status: 0 every criterion passed, 1 a criterion failed, 2 bad input
 //! or usage (unreadable or invalid scenario, settings a backend refuses,
@@ -13,6 +15,11 @@ use clap::{Args, Parser, Subcommand, ValueEnum};
 use evenkeel_harness::report::{json, junit, per_run_path, trace_csv, write_atomic};
 use evenkeel_harness::{BackendKind, Outcome, Scenario, plot};
 
+#[path = "evenkeel/compare.rs"]
+mod compare;
+#[path = "evenkeel/robust.rs"]
+mod robust;
+
 /// Checks control loops described in scenario files against their criteria.
 #[derive(Parser)]
 #[command(name = "evenkeel", version, about)]
@@ -25,6 +32,18 @@ struct Cli {
 enum Command {
     /// Run scenarios on the controller and report pass/fail per criterion.
     Check(CheckArgs),
+    /// Run a scenario over its uncertain parameters ([uncertainty]) in
+    /// parallel: pass fraction and worst case per criterion, envelope plot.
+    Sweep(robust::SweepArgs),
+    /// Combine shard results of `evenkeel sweep --shard I/N --save PATH`.
+    Merge(robust::MergeArgs),
+    /// Propose gains and limits (SIMC, pole placement) with margins at
+    /// every corner of the uncertainty.
+    Design(robust::DesignArgs),
+    /// Run scenarios with the fixed-point (Q16.16) and the f64 controller
+    /// side by side and judge the difference against `[compare]`
+    /// tolerances (derived from the formats when absent).
+    Compare(compare::CompareArgs),
 }
 
 #[derive(Args)]
@@ -81,8 +100,14 @@ fn main() -> ExitCode {
             return ExitCode::from(if e.use_stderr() { BAD_INPUT } else { PASS });
         }
     };
-    let Command::Check(args) = cli.command;
-    match check(&args) {
+    let result = match &cli.command {
+        Command::Check(args) => check(args),
+        Command::Sweep(args) => robust::sweep(args),
+        Command::Merge(args) => robust::merge(args),
+        Command::Design(args) => robust::design(args),
+        Command::Compare(args) => compare::run(args),
+    };
+    match result {
         Ok(true) => ExitCode::from(PASS),
         Ok(false) => ExitCode::from(FAIL),
         Err(e) => {
@@ -94,6 +119,14 @@ fn main() -> ExitCode {
 
 /// Runs everything; `Ok(passed)`, or an error for bad input.
 fn check(args: &CheckArgs) -> anyhow::Result<bool> {
+    // Refuse unwritable report paths before running anything, so that a bad
+    // path never leaves some reports written and others not.
+    let reports = [&args.json, &args.junit, &args.trace, &args.plot];
+    for path in reports.into_iter().flatten() {
+        if path.as_os_str() != "-" {
+            report_dir_exists(path)?;
+        }
+    }
     if let Some(p) = &args.plot {
         let ext = p
             .extension()
@@ -153,6 +186,27 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
         }
     }
     Ok(outcomes.iter().all(Outcome::passed))
+}
+
+/// The directory a report goes into must exist (reports are written
+/// atomically into it; nothing creates it).
+fn report_dir_exists(path: &Path) -> anyhow::Result<()> {
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d,
+        _ => Path::new("."),
+    };
+    anyhow::ensure!(
+        dir.is_dir(),
+        "{}: the directory {} does not exist",
+        path.display(),
+        dir.display()
+    );
+    anyhow::ensure!(
+        !path.is_dir(),
+        "{}: is a directory, not a report file",
+        path.display()
+    );
+    Ok(())
 }
 
 fn write(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {

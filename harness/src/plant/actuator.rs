@@ -1,6 +1,6 @@
 //! Actuator dynamics and limits, in front of any plant.
 
-use super::{Environment, ParamError, Plant, check, lag_step, valid_period};
+use super::{Environment, ParamError, Plant, check, valid_period};
 
 /// An actuator that clamps the command to `[min, max]` and follows it with
 /// a first-order lag `τ·ȧ = −a + clamp(u)` (exact discretisation; `τ = 0`
@@ -51,16 +51,34 @@ impl Actuator {
         if !valid_period(dt_s) {
             return self.value;
         }
+        self.advance_by(command, self.decay(dt_s))
+    }
+
+    /// `(r, e^(−r) − 1)` with `r = dt/τ` (`None` without lag): what a step
+    /// of `dt_s` needs, computed once for repeated equal steps.
+    fn decay(&self, dt_s: f64) -> Option<(f64, f64)> {
+        (self.tau_s > 0.0).then(|| {
+            let r = dt_s / self.tau_s;
+            (r, (-r).exp_m1())
+        })
+    }
+
+    /// One step with a precomputed [`Actuator::decay`]; bit for bit what
+    /// `lag_step` and the mean formula give.
+    fn advance_by(&mut self, command: f64, decay: Option<(f64, f64)>) -> f64 {
         let target = command.clamp(self.min, self.max);
         let start = self.value;
-        self.value = lag_step(start, target, dt_s, self.tau_s);
-        if self.tau_s > 0.0 {
-            // Mean of target + (start − target)·e^(−t/τ) over [0, dt]:
-            // target + (start − target)·(1 − e^(−r))/r with r = dt/τ.
-            let r = dt_s / self.tau_s;
-            target + (start - target) * (-(-r).exp_m1() / r)
-        } else {
-            target
+        match decay {
+            Some((r, em1)) => {
+                self.value = start + (target - start) * -em1;
+                // Mean of target + (start − target)·e^(−t/τ) over [0, dt]:
+                // target + (start − target)·(1 − e^(−r))/r with r = dt/τ.
+                target + (start - target) * (-em1 / r)
+            }
+            None => {
+                self.value = target;
+                target
+            }
         }
     }
 
@@ -129,8 +147,9 @@ impl<P: Plant> Plant for Actuated<P> {
             return;
         }
         let h = dt_s / f64::from(self.substeps);
+        let decay = self.actuator.decay(h);
         for _ in 0..self.substeps {
-            let mean = self.actuator.advance(u, h);
+            let mean = self.actuator.advance_by(u, decay);
             self.plant.advance(mean, env, h);
         }
     }

@@ -88,11 +88,22 @@ struct Held {
     /// `½·ρ·C_dA/m`
     drag: f64,
     creep: f64,
+    /// `23·v_ε`: beyond it the smooth sign is exactly ±1.
+    saturated: f64,
 }
 
 impl Held {
     fn accel(&self, v: f64) -> f64 {
-        self.drive - self.rolling * (v / self.creep).tanh() - self.drag * v * v.abs()
+        // Above 22, tanh is ±1 exactly in f64 (fdlibm and glibc return
+        // ±(1 − tiny) = ±1 there); |v| > 23·v_ε guarantees |v/v_ε| > 22
+        // despite rounding, so the shortcut changes no bit and skips a
+        // division and a tanh on almost every call at driving speed.
+        let sign = if v.abs() > self.saturated {
+            1.0f64.copysign(v)
+        } else {
+            (v / self.creep).tanh()
+        };
+        self.drive - self.rolling * sign - self.drag * v * v.abs()
     }
 }
 
@@ -155,6 +166,7 @@ impl Vehicle {
             rolling: p.crr * g * theta.cos(),
             drag: 0.5 * p.air_density_kg_m3 * p.cda_m2 / p.mass_kg,
             creep: p.creep_speed_m_s,
+            saturated: 23.0 * p.creep_speed_m_s,
         }
     }
 }

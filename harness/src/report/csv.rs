@@ -6,8 +6,9 @@ use crate::sim::Recording;
 
 /// CSV with a header line: `t_s, reference, measurement, output, command,
 /// applied, accel, jerk, status`, then one column per plant state (units
-/// in the names). `status` lists the controller's flags joined by `|`
-/// (`-` when none), so no field needs quoting.
+/// in the names), then `fault` (1 while an injected fault is active) and
+/// `monitor` (the loop monitor's flags). `status` and `monitor` list flags
+/// joined by `|` (`-` when none), so no field needs quoting.
 #[must_use]
 pub fn trace_csv(rec: &Recording) -> String {
     let mut out = String::with_capacity(rec.time_s.len() * 120);
@@ -16,7 +17,7 @@ pub fn trace_csv(rec: &Recording) -> String {
         out.push(',');
         out.push_str(name);
     }
-    out.push('\n');
+    out.push_str(",fault,monitor\n");
     let jerk = rec.jerk();
     for i in 0..rec.time_s.len() {
         let _ = write!(
@@ -35,6 +36,10 @@ pub fn trace_csv(rec: &Recording) -> String {
         for (_, column) in &rec.states {
             let _ = write!(out, ",{}", column[i]);
         }
+        let fault = rec.faults.active.get(i).copied().unwrap_or(false)
+            || rec.faults.payload.get(i).copied().unwrap_or(false);
+        let monitor = rec.faults.monitor.get(i).copied().unwrap_or_default();
+        let _ = write!(out, ",{},{monitor}", u8::from(fault));
         out.push('\n');
     }
     out

@@ -12,7 +12,7 @@ use crate::outcome::Outcome;
 /// { "caution": "...", "passed": bool,
 ///   "scenarios": [ { "name", "source", "passed",
 ///     "runs": [ { "backend", "passed", "load_shifts",
-///       "metrics": { "rise_time_s": number|null, … 12 keys },
+///       "metrics": { "rise_time_s": number|null, … 17 keys },
 ///       "criteria": [ { "name", "bound", "limit", "measured", "pass", "source" } ] } ] } ] }
 /// ```
 ///

@@ -5,14 +5,19 @@ use std::ops::Range;
 use evenkeel::{AntiWindup, Settings};
 
 use super::error::{ScenarioError, Source};
-use super::schema::{Int, Num, RawController, RawPlant, RawProfile, RawScenario, Text};
+use super::schema::{Int, Num, RawCompare, RawController, RawPlant, RawProfile, RawScenario, Text};
 use super::{ActuatorSpec, MetricSettings, PlantModel, Scenario};
+use crate::compare::CompareSpec;
 use crate::criteria::{Bound, Criterion, MetricKey};
 use crate::plant::{RotorParams, SensorParams, VehicleParams};
 use crate::profile::{Profile, Segment};
 use crate::sim::{Disturbances, LoadShift, Override, Setup};
 
 type Res<T> = Result<T, ScenarioError>;
+
+/// Most samples one run may have (`duration_s / period_s`): ten million
+/// rows of a dozen series, about 1 GB.
+const MAX_SAMPLES: f64 = 1.0e7;
 
 /// Parses and validates `text`; `file` names it in errors.
 pub(crate) fn parse(text: &str, file: &str) -> Res<Scenario> {
@@ -107,6 +112,18 @@ impl Check<'_> {
             None => 0,
         };
         let controller = self.controller(&raw.controller)?;
+        // Bounded memory: a run keeps one row of every series per sample.
+        let samples = duration_s / controller.period_s;
+        if samples > MAX_SAMPLES {
+            return Err(self.fail(
+                meta.duration_s.span(),
+                "scenario.duration_s",
+                format!(
+                    "{duration_s} s at controller.period_s = {} s is {samples:.3e} samples: at most {MAX_SAMPLES:.0e} are allowed",
+                    controller.period_s
+                ),
+            ));
+        }
         let (plant, initial_output) = self.plant(&raw.plant)?;
         let initial_command = match &raw.controller.initial_command {
             None => None,
@@ -335,8 +352,13 @@ impl Check<'_> {
             actuator_limits: actuator.map(|a| (a.min, a.max)),
             load_shift,
             initial_command,
+            faults: super::faults::faults(&self.src, &raw.faults, &controller)?,
+            monitor: None,
         };
-        Ok(Scenario {
+        let mut setup = setup;
+        setup.monitor =
+            super::faults::monitor(&self.src, raw.monitor.as_ref(), &controller, &setup)?;
+        let mut scenario = Scenario {
             name,
             description: meta
                 .description
@@ -354,6 +376,42 @@ impl Check<'_> {
             setup,
             metric_options,
             criteria,
+            uncertainty: Vec::new(),
+            compare: self.compare(raw.compare.as_ref())?,
+            sweep: None,
+        };
+        (scenario.uncertainty, scenario.sweep) = super::uncertainty::parse(
+            &self.src,
+            raw.uncertainty.as_ref(),
+            raw.sweep.as_ref(),
+            &scenario,
+        )?;
+        Ok(scenario)
+    }
+
+    /// `[compare]`: every tolerance finite and > 0 when given.
+    fn compare(&self, c: Option<&RawCompare>) -> Res<CompareSpec> {
+        let Some(c) = c else {
+            return Ok(CompareSpec::default());
+        };
+        let pos = |v: &Option<Num>, key: &str| {
+            v.as_ref()
+                .map(|v| self.num(v, &format!("compare.{key}"), "finite and > 0", |x| x > 0.0))
+                .transpose()
+        };
+        Ok(CompareSpec {
+            max_command_diff: pos(&c.max_command_diff, "max_command_diff")?,
+            rms_command_diff: pos(&c.rms_command_diff, "rms_command_diff")?,
+            max_output_diff: pos(&c.max_output_diff, "max_output_diff")?,
+            rms_output_diff: pos(&c.rms_output_diff, "rms_output_diff")?,
+            max_limit_cycle_amplitude: pos(
+                &c.max_limit_cycle_amplitude,
+                "max_limit_cycle_amplitude",
+            )?,
+            max_stall_error: pos(&c.max_stall_error, "max_stall_error")?,
+            max_lsb_pct: pos(&c.max_lsb_pct, "max_lsb_pct")?,
+            steady_window_s: pos(&c.steady_window_s, "steady_window_s")?,
+            source: c.source.as_ref().map(|s| s.get_ref().clone()),
         })
     }
 

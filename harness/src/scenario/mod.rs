@@ -27,8 +27,10 @@
 //! ```
 
 mod error;
+mod faults;
 mod load;
 mod schema;
+mod uncertainty;
 
 use std::path::Path;
 
@@ -44,6 +46,7 @@ use crate::plant::{
     SensorParams, Vehicle, VehicleParams,
 };
 use crate::sim::{Setup, simulate};
+use crate::sweep::{SweepPlan, Uncertain};
 
 /// The built-in demo scenario (airport baggage tug), as shipped in
 /// `shared/scenarios/baggage_tug.toml`.
@@ -136,6 +139,12 @@ pub struct Scenario {
     pub metric_options: MetricSettings,
     /// Pass/fail criteria.
     pub criteria: Vec<Criterion>,
+    /// Uncertain parameters (`[uncertainty]`), in file order; empty: none.
+    pub uncertainty: Vec<Uncertain>,
+    /// Sweep method, size and seed (`[sweep]`); `None`: not given.
+    pub sweep: Option<SweepPlan>,
+    /// Tolerances of the fixed-against-f64 comparison (`[compare]`).
+    pub compare: crate::compare::CompareSpec,
 }
 
 impl Scenario {

@@ -27,6 +27,17 @@ pub(crate) struct RawScenario {
     pub load_shift: Option<RawLoadShift>,
     pub metrics: Option<RawMetricOptions>,
     pub criteria: RawCriteria,
+    /// Parameter ranges for `evenkeel sweep` / `design` (`uncertainty.rs`).
+    pub uncertainty: Option<super::uncertainty::RawUncertainty>,
+    /// Sweep method, size and seed (`uncertainty.rs`).
+    pub sweep: Option<super::uncertainty::RawSweep>,
+    /// Injected faults (`faults.rs`).
+    #[serde(rename = "fault", default)]
+    pub faults: Vec<super::faults::RawFault>,
+    /// Loop-monitor settings (`faults.rs`).
+    pub monitor: Option<super::faults::RawMonitor>,
+    /// Tolerances of `evenkeel compare` (fixed against f64).
+    pub compare: Option<RawCompare>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -176,11 +187,16 @@ pub(crate) struct RawCriteria {
     pub peak_accel: Option<Spanned<RawLimit>>,
     pub peak_jerk: Option<Spanned<RawLimit>>,
     pub time_saturated_s: Option<Spanned<RawLimit>>,
+    pub limit_violations: Option<Spanned<RawLimit>>,
+    pub fault_flag_errors: Option<Spanned<RawLimit>>,
+    pub fault_recovery_s: Option<Spanned<RawLimit>>,
+    pub fault_return_jump: Option<Spanned<RawLimit>>,
+    pub fault_overshoot: Option<Spanned<RawLimit>>,
 }
 
 impl RawCriteria {
     /// `(key, limit)` in report order.
-    pub fn entries(&self) -> [(&'static str, Option<&Spanned<RawLimit>>); 12] {
+    pub fn entries(&self) -> [(&'static str, Option<&Spanned<RawLimit>>); 17] {
         [
             ("rise_time_s", self.rise_time_s.as_ref()),
             ("settling_time_s", self.settling_time_s.as_ref()),
@@ -197,6 +213,26 @@ impl RawCriteria {
             ("peak_accel", self.peak_accel.as_ref()),
             ("peak_jerk", self.peak_jerk.as_ref()),
             ("time_saturated_s", self.time_saturated_s.as_ref()),
+            ("limit_violations", self.limit_violations.as_ref()),
+            ("fault_flag_errors", self.fault_flag_errors.as_ref()),
+            ("fault_recovery_s", self.fault_recovery_s.as_ref()),
+            ("fault_return_jump", self.fault_return_jump.as_ref()),
+            ("fault_overshoot", self.fault_overshoot.as_ref()),
         ]
     }
+}
+
+/// `[compare]`: tolerances of the back-to-back comparison.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawCompare {
+    pub max_command_diff: Option<Num>,
+    pub rms_command_diff: Option<Num>,
+    pub max_output_diff: Option<Num>,
+    pub rms_output_diff: Option<Num>,
+    pub max_limit_cycle_amplitude: Option<Num>,
+    pub max_stall_error: Option<Num>,
+    pub max_lsb_pct: Option<Num>,
+    pub steady_window_s: Option<Num>,
+    pub source: Option<Text>,
 }

@@ -1,0 +1,318 @@
+//! `evenkeel sweep`, `evenkeel merge` and `evenkeel design`: thin layers
+//! over `evenkeel_harness::sweep` and `evenkeel_harness::design`.
+
+use std::io::{IsTerminal, Write};
+use std::path::{Path, PathBuf};
+
+use anyhow::Context;
+use clap::{Args, ValueEnum};
+use evenkeel_harness::design::{self, Request};
+use evenkeel_harness::report::write_atomic;
+use evenkeel_harness::sweep::{self, Method, Shard, SweepPlan, SweepResult};
+use evenkeel_harness::{BackendKind, Scenario};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+
+#[derive(Args)]
+pub struct SweepArgs {
+    /// Scenario file (TOML) with an [uncertainty] table.
+    scenario: PathBuf,
+    /// Sampling method (default: the file's [sweep] method, else corners).
+    #[arg(long, value_enum)]
+    method: Option<MethodArg>,
+    /// Variants for random and latin-hypercube sampling.
+    #[arg(long)]
+    count: Option<usize>,
+    /// Values per parameter for grid sampling.
+    #[arg(long)]
+    levels: Option<usize>,
+    /// Seed of the draws and of every variant's sensor noise.
+    #[arg(long)]
+    seed: Option<u64>,
+    /// Numeric backend of the controller.
+    #[arg(long, value_enum, default_value_t = OneBackend::Fixed)]
+    backend: OneBackend,
+    /// Run only shard I of N (1-based), e.g. 2/8; save it with --save and
+    /// combine the shards with `evenkeel merge`.
+    #[arg(long, value_name = "I/N")]
+    shard: Option<Shard>,
+    /// Worker threads (default: one per core).
+    #[arg(long)]
+    threads: Option<usize>,
+    /// Save the full result (for `evenkeel merge`) as JSON to PATH.
+    #[arg(long, value_name = "PATH")]
+    save: Option<PathBuf>,
+    #[command(flatten)]
+    out: ReportArgs,
+    /// No progress bar.
+    #[arg(long, short)]
+    quiet: bool,
+}
+
+#[derive(Args)]
+pub struct MergeArgs {
+    /// Result files written by `evenkeel sweep --shard I/N --save PATH`.
+    #[arg(required = true)]
+    results: Vec<PathBuf>,
+    /// The scenario file (for --plot and --worst-dir; default: the path
+    /// recorded in the results).
+    #[arg(long)]
+    scenario: Option<PathBuf>,
+    /// Save the merged result as JSON to PATH.
+    #[arg(long, value_name = "PATH")]
+    save: Option<PathBuf>,
+    #[command(flatten)]
+    out: ReportArgs,
+}
+
+#[derive(Args)]
+struct ReportArgs {
+    /// Write the sweep report as JSON to PATH (`-`: standard output).
+    #[arg(long, value_name = "PATH")]
+    json: Option<PathBuf>,
+    /// Write JUnit XML (one test case per criterion) to PATH.
+    #[arg(long, value_name = "PATH")]
+    junit: Option<PathBuf>,
+    /// Envelope plot (min/max band over the variants, worst highlighted),
+    /// SVG or PNG by extension.
+    #[arg(long, value_name = "PATH")]
+    plot: Option<PathBuf>,
+    /// Write each criterion's worst variant as a scenario file into DIR, to
+    /// re-run it alone with `evenkeel check`.
+    #[arg(long, value_name = "DIR")]
+    worst_dir: Option<PathBuf>,
+}
+
+#[derive(Args)]
+pub struct DesignArgs {
+    /// Scenario file (TOML): plant, [uncertainty], criteria.
+    scenario: PathBuf,
+    /// Tuning rule.
+    #[arg(long, value_enum, default_value_t = DesignMethod::Simc)]
+    method: DesignMethod,
+    /// Closed-loop time constant at the slowest corner, s (default: from
+    /// the rise and settling criteria).
+    #[arg(long, value_name = "S", conflicts_with = "bandwidth_rad_s")]
+    closed_loop_time_s: Option<f64>,
+    /// Closed-loop bandwidth target, rad/s (same as a time constant 1/ω).
+    #[arg(long, value_name = "RAD_S")]
+    bandwidth_rad_s: Option<f64>,
+    /// Damping ratio of the placed poles (pole placement).
+    #[arg(long, default_value_t = 1.0)]
+    damping: f64,
+    /// Peak acceleration allowed (default: the peak_accel criterion).
+    #[arg(long)]
+    accel_limit: Option<f64>,
+    /// Peak jerk allowed (default: the peak_jerk criterion).
+    #[arg(long)]
+    jerk_limit: Option<f64>,
+    /// Write the scenario with the proposed controller to PATH.
+    #[arg(long, value_name = "PATH")]
+    scenario_out: Option<PathBuf>,
+    /// Write the firmware `const` configuration (Rust) to PATH.
+    #[arg(long, value_name = "PATH")]
+    rust_out: Option<PathBuf>,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum MethodArg {
+    Grid,
+    Corners,
+    Random,
+    LatinHypercube,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum OneBackend {
+    Fixed,
+    F32,
+    F64,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum DesignMethod {
+    Simc,
+    PolePlacement,
+}
+
+fn write(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
+    write_atomic(path, bytes).with_context(|| format!("writing {}", path.display()))
+}
+
+/// `evenkeel sweep`: `Ok(all variants passed)`.
+pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
+    let scenario = Scenario::from_path(&args.scenario)?;
+    if scenario.uncertainty.is_empty() {
+        anyhow::bail!(
+            "{}: no [uncertainty] table: nothing to sweep (see docs/SCENARIO.md)",
+            scenario.source
+        );
+    }
+    let mut plan: SweepPlan = scenario.sweep.unwrap_or_default();
+    if let Some(m) = args.method {
+        plan.method = match m {
+            MethodArg::Grid => Method::Grid,
+            MethodArg::Corners => Method::Corners,
+            MethodArg::Random => Method::Random,
+            MethodArg::LatinHypercube => Method::LatinHypercube,
+        };
+    }
+    if let Some(c) = args.count {
+        anyhow::ensure!(c >= 1, "--count must be at least 1");
+        plan.count = c;
+    }
+    if let Some(l) = args.levels {
+        anyhow::ensure!(l >= 2, "--levels must be at least 2");
+        plan.levels = l;
+    }
+    if let Some(s) = args.seed {
+        plan.seed = s;
+    }
+    let backend = match args.backend {
+        OneBackend::Fixed => BackendKind::Fixed,
+        OneBackend::F32 => BackendKind::F32,
+        OneBackend::F64 => BackendKind::F64,
+    };
+    let total = plan
+        .variants(scenario.uncertainty.len())
+        .context("the design is too large")?;
+    let todo = args.shard.map_or(total, |s| s.range(total).len());
+    let bar = if args.quiet || !std::io::stderr().is_terminal() {
+        ProgressBar::hidden()
+    } else {
+        let bar = ProgressBar::with_draw_target(Some(todo as u64), ProgressDrawTarget::stderr());
+        bar.set_style(
+            ProgressStyle::with_template(
+                "{bar:40} {pos}/{len} variants, {elapsed} elapsed, eta {eta}",
+            )
+            .unwrap_or_else(|_| ProgressStyle::default_bar()),
+        );
+        bar
+    };
+    let work = || sweep::run(&scenario, &plan, backend, args.shard, &|n| bar.inc(n));
+    let result = match args.threads {
+        Some(t) => rayon::ThreadPoolBuilder::new()
+            .num_threads(t)
+            .build()
+            .context("starting the worker threads")?
+            .install(work),
+        None => work(),
+    }
+    .with_context(|| format!("{}: scenario `{}`", scenario.source, scenario.name))?;
+    bar.finish_and_clear();
+    if let Some(path) = &args.save {
+        write(path, serde_json::to_string(&result)?.as_bytes())?;
+    }
+    report(&scenario, &result, &args.out)
+}
+
+/// `evenkeel merge`: `Ok(all variants passed)`.
+pub fn merge(args: &MergeArgs) -> anyhow::Result<bool> {
+    let mut parts = Vec::with_capacity(args.results.len());
+    for path in &args.results {
+        let text =
+            std::fs::read_to_string(path).with_context(|| format!("reading {}", path.display()))?;
+        let part: SweepResult = serde_json::from_str(&text)
+            .with_context(|| format!("{}: not a sweep result file", path.display()))?;
+        parts.push(part);
+    }
+    let result = sweep::merge(parts)?;
+    let source = args
+        .scenario
+        .clone()
+        .unwrap_or_else(|| PathBuf::from(&result.source));
+    let scenario = Scenario::from_path(&source)?;
+    anyhow::ensure!(
+        sweep::fingerprint(&scenario) == result.fingerprint,
+        "{}: the scenario changed since the shards ran (fingerprint differs)",
+        source.display()
+    );
+    if let Some(path) = &args.save {
+        write(path, serde_json::to_string(&result)?.as_bytes())?;
+    }
+    report(&scenario, &result, &args.out)
+}
+
+fn report(scenario: &Scenario, result: &SweepResult, out: &ReportArgs) -> anyhow::Result<bool> {
+    let json_to_stdout = out.json.as_deref() == Some(Path::new("-"));
+    let table = sweep::table(result);
+    if json_to_stdout {
+        eprint!("{table}");
+    } else {
+        print!("{table}");
+    }
+    if let Some(path) = &out.json {
+        let text = serde_json::to_string_pretty(&sweep::json(result))? + "\n";
+        if json_to_stdout {
+            std::io::stdout().write_all(text.as_bytes())?;
+        } else {
+            write(path, text.as_bytes())?;
+        }
+    }
+    if let Some(path) = &out.junit {
+        write(path, sweep::junit(result).as_bytes())?;
+    }
+    let summary = sweep::summarise(result);
+    if let Some(path) = &out.plot {
+        let backend = BackendKind::from_name(&result.backend).unwrap_or(BackendKind::Fixed);
+        let worst = summary
+            .worst_index
+            .and_then(|i| sweep::variant_scenario(scenario, result, i))
+            .map(|s| s.run_on(&[backend]))
+            .transpose()?
+            .and_then(|o| o.runs.into_iter().next());
+        sweep::plot_envelope(scenario, result, worst.as_ref(), path)?;
+    }
+    if let Some(dir) = &out.worst_dir {
+        std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+        let text = std::fs::read_to_string(&scenario.source)
+            .with_context(|| format!("reading {}", scenario.source))?;
+        let mut done = Vec::new();
+        for c in &summary.criteria {
+            if done.contains(&c.worst_index) && c.passed == c.total {
+                continue;
+            }
+            let file = dir.join(format!(
+                "{}-worst-{}.toml",
+                result.scenario, c.criterion.metric
+            ));
+            let body = sweep::variant_toml(&text, scenario, result, c.worst_index)
+                .map_err(anyhow::Error::msg)?;
+            write(&file, body.as_bytes())?;
+            done.push(c.worst_index);
+        }
+    }
+    Ok(summary.all_passed())
+}
+
+/// `evenkeel design`: `Ok(true)` when every corner is stable and the
+/// fixed-point format holds the coefficients.
+pub fn design(args: &DesignArgs) -> anyhow::Result<bool> {
+    let scenario = Scenario::from_path(&args.scenario)?;
+    let request = Request {
+        method: match args.method {
+            DesignMethod::Simc => design::Method::Simc,
+            DesignMethod::PolePlacement => design::Method::PolePlacement,
+        },
+        closed_loop_time_s: args
+            .closed_loop_time_s
+            .or_else(|| args.bandwidth_rad_s.map(|w| 1.0 / w)),
+        damping: args.damping,
+        accel_limit: args.accel_limit,
+        jerk_limit: args.jerk_limit,
+    };
+    let proposal = design::design(&scenario, &request)?;
+    print!("{}", design::report(&scenario, &proposal));
+    let snippet = design::rust_snippet(&scenario, &proposal);
+    if let Some(path) = &args.rust_out {
+        write(path, snippet.as_bytes())?;
+    } else {
+        println!("\n{snippet}");
+    }
+    if let Some(path) = &args.scenario_out {
+        let text = std::fs::read_to_string(&args.scenario)
+            .with_context(|| format!("reading {}", args.scenario.display()))?;
+        let body = design::scenario_toml(&text, &proposal).map_err(anyhow::Error::msg)?;
+        write(path, body.as_bytes())?;
+    }
+    Ok(proposal.fixed.holds() && proposal.corners.iter().all(|c| c.margins.stable()))
+}

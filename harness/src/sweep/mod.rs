@@ -1,0 +1,67 @@
+//! Robustness over the unknown plant: run a scenario over every variant of
+//! its uncertain parameters (`[uncertainty]`), in parallel, and report per
+//! criterion the pass fraction, the worst value and the variant that
+//! produced it, with a min/max envelope of the signals.
+//!
+//! - [`space`](self::Param): uncertain parameters, distributions, designs
+//!   (grid, corners, random, Latin hypercube) and seeding
+//! - `run`: the parallel run ([`run`]) and the envelope
+//! - `merge`: shards ([`Shard`]) and [`merge`] of their results
+//! - `report`: per-criterion summary, table, JSON, JUnit, worst-case files
+//! - `plot`: the envelope plot
+//!
+//! ```
+//! use evenkeel_harness::{BackendKind, Scenario};
+//! use evenkeel_harness::sweep::{self, Distribution, Method, Param, SweepPlan, Uncertain};
+//! let mut tug = Scenario::demo()?;
+//! tug.setup.duration_s = 10.0; // short, for the example
+//! tug.criteria.retain(|c| c.metric.name() == "peak_jerk");
+//! tug.uncertainty = vec![Uncertain {
+//!     param: Param::MassKg,
+//!     dist: Distribution::Uniform { min: 1500.0, max: 3900.0 },
+//! }];
+//! let plan = SweepPlan { method: Method::Corners, ..SweepPlan::default() };
+//! let result = sweep::run(&tug, &plan, BackendKind::Fixed, None, &|_| {})?;
+//! assert_eq!(result.variants.len(), 3); // two corners and the centre
+//! assert!(sweep::summarise(&result).all_passed());
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
+
+mod merge;
+mod plot;
+mod report;
+mod run;
+mod space;
+
+pub use merge::{Shard, fingerprint, merge};
+pub use plot::plot_envelope;
+pub use report::{
+    CriterionSummary, SweepSummary, json, junit, summarise, table, variant_scenario, variant_toml,
+};
+pub use run::{CriterionRecord, Envelope, SweepResult, VariantResult, apply_variant, run};
+pub use space::{
+    Distribution, MAX_VARIANTS, Method, NORMAL_TRUNCATION, Param, SweepPlan, Uncertain,
+    design_points, normal_cdf, splitmix64, variant_seed,
+};
+
+/// Why a sweep could not run or its results could not be merged.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum SweepError {
+    /// The design has more variants than [`MAX_VARIANTS`].
+    #[error("the sweep would have more than {MAX_VARIANTS} variants")]
+    TooLarge,
+    /// The scenario cannot run at all (e.g. the backend refuses the settings).
+    #[error("{0}")]
+    Run(#[from] crate::RunError),
+    /// A shard is not `i/n` with 1 ≤ i ≤ n.
+    #[error("shard `{0}`: expected I/N with 1 <= I <= N, e.g. 2/8")]
+    Shard(String),
+    /// Results that do not belong to the same sweep, or that do not
+    /// together cover it exactly once.
+    #[error("cannot merge: {0}")]
+    Merge(String),
+    /// A result file that cannot be read.
+    #[error("result file: {0}")]
+    Format(String),
+}

@@ -1,0 +1,129 @@
+//! Bad input against every CLI command: missing and unreadable files, wrong
+//! types, huge values, empty sweeps, zero-length durations. Each must give
+//! a precise error on standard error, exit code 2, and write nothing.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn demo(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join(format!("../shared/scenarios/{name}.toml"))
+}
+
+fn evenkeel(dir: &Path, args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_evenkeel"))
+        .current_dir(dir)
+        .args(args)
+        .output()
+        .unwrap()
+}
+
+/// The pump demo with `from` replaced by `to`, as `bad.toml` in `dir`.
+fn broken(dir: &Path, from: &str, to: &str) {
+    let text = std::fs::read_to_string(demo("irrigation_pump")).unwrap();
+    assert!(text.contains(from), "{from}");
+    std::fs::write(dir.join("bad.toml"), text.replacen(from, to, 1)).unwrap();
+}
+
+/// Runs `args` in a fresh directory holding only `bad.toml` (made by
+/// `setup`) and the directory `unreadable.toml/`; expects exit code 2, an
+/// error mentioning `words`, and no new file.
+fn refused(setup: &dyn Fn(&Path), args: &[&str], words: &str) {
+    let dir = tempfile::tempdir().unwrap();
+    setup(dir.path());
+    std::fs::create_dir(dir.path().join("unreadable.toml")).unwrap();
+    let before = std::fs::read_dir(dir.path()).unwrap().count();
+    let out = evenkeel(dir.path(), args);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{args:?}: {err}");
+    assert!(err.contains(words), "{args:?}: want `{words}` in: {err}");
+    assert_eq!(
+        std::fs::read_dir(dir.path()).unwrap().count(),
+        before,
+        "{args:?} wrote a file"
+    );
+}
+
+fn none(_: &Path) {}
+
+#[test]
+fn missing_and_unreadable_files_in_every_command() {
+    for cmd in ["check", "sweep", "design", "compare"] {
+        refused(&none, &[cmd, "no-such.toml"], "no-such.toml");
+        refused(&none, &[cmd, "unreadable.toml"], "unreadable.toml");
+    }
+    refused(&none, &["merge", "no-such.json"], "no-such.json");
+    refused(&none, &["merge", "unreadable.toml"], "unreadable.toml");
+}
+
+#[test]
+fn wrong_types_and_huge_values_in_every_command() {
+    let wrong_type = |d: &Path| broken(d, "kp = 0.00165", "kp = \"fast\"");
+    let huge_duration = |d: &Path| broken(d, "duration_s = 120.0", "duration_s = 1.0e12");
+    let huge_gain = |d: &Path| broken(d, "kp = 0.00165", "kp = 1.0e300");
+    let zero_duration = |d: &Path| broken(d, "duration_s = 120.0", "duration_s = 0.0");
+    for cmd in ["check", "sweep", "design", "compare"] {
+        refused(&wrong_type, &[cmd, "bad.toml"], "bad.toml:");
+        refused(&wrong_type, &[cmd, "bad.toml"], "invalid type");
+        refused(&huge_duration, &[cmd, "bad.toml"], "scenario.duration_s");
+        refused(&huge_duration, &[cmd, "bad.toml"], "at most 1e7");
+        refused(&zero_duration, &[cmd, "bad.toml"], "scenario.duration_s");
+    }
+    // A gain no backend can hold: refused when the fixed backend runs.
+    refused(
+        &huge_gain,
+        &["check", "bad.toml", "--backend", "fixed"],
+        "kp",
+    );
+    // Huge numbers on the command line.
+    let pump = demo("irrigation_pump");
+    let pump = pump.to_str().unwrap();
+    refused(
+        &none,
+        &["sweep", pump, "--count", "99999999999999999999999"],
+        "count",
+    );
+    refused(&none, &["sweep", pump, "--shard", "3/2"], "shard");
+}
+
+#[test]
+fn empty_sweeps_and_bad_report_paths() {
+    let pump = demo("irrigation_pump");
+    let pump = pump.to_str().unwrap();
+    refused(
+        &none,
+        &["sweep", pump, "--method", "random", "--count", "0"],
+        "--count",
+    );
+    refused(
+        &none,
+        &["sweep", pump, "--method", "grid", "--levels", "1"],
+        "--levels",
+    );
+    refused(&none, &["merge"], "");
+    // A report into a directory that does not exist: refused before any
+    // run, so the other reports are not written either.
+    refused(
+        &none,
+        &[
+            "check",
+            pump,
+            "--json",
+            "r.json",
+            "--junit",
+            "no/such/dir/r.xml",
+        ],
+        "no/such/dir",
+    );
+    refused(
+        &none,
+        &[
+            "check",
+            pump,
+            "--trace",
+            "t.csv",
+            "--plot",
+            "unreadable.toml",
+        ],
+        "unreadable.toml",
+    );
+}
