@@ -32,7 +32,7 @@ struct Cli {
 enum Command {
     /// Run scenarios on the controller and report pass/fail per criterion.
     Check(CheckArgs),
-    /// Run a scenario over its uncertain parameters ([uncertainty]) in
+    /// Run a scenario over its uncertain parameters (`[uncertainty]`) in
     /// parallel: pass fraction and worst case per criterion, envelope plot.
     Sweep(robust::SweepArgs),
     /// Combine shard results of `evenkeel sweep --shard I/N --save PATH`.

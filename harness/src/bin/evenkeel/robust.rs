@@ -14,9 +14,9 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
 #[derive(Args)]
 pub struct SweepArgs {
-    /// Scenario file (TOML) with an [uncertainty] table.
+    /// Scenario file (TOML) with an `[uncertainty]` table.
     scenario: PathBuf,
-    /// Sampling method (default: the file's [sweep] method, else corners).
+    /// Sampling method (default: the file's `[sweep]` method, else corners).
     #[arg(long, value_enum)]
     method: Option<MethodArg>,
     /// Variants for random and latin-hypercube sampling.
@@ -84,7 +84,7 @@ struct ReportArgs {
 
 #[derive(Args)]
 pub struct DesignArgs {
-    /// Scenario file (TOML): plant, [uncertainty], criteria.
+    /// Scenario file (TOML): plant, `[uncertainty]`, criteria.
     scenario: PathBuf,
     /// Tuning rule.
     #[arg(long, value_enum, default_value_t = DesignMethod::Simc)]
