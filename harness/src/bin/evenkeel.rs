@@ -127,22 +127,8 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
             report_dir_exists(path)?;
         }
     }
-    if let Some(p) = &args.plot {
-        let ext = p
-            .extension()
-            .map(|e| e.to_string_lossy().to_ascii_lowercase());
-        if !matches!(ext.as_deref(), Some("svg" | "png")) {
-            anyhow::bail!("--plot {}: the file must end in .svg or .png", p.display());
-        }
-    }
-    let scenarios = if args.scenarios.is_empty() {
-        vec![Scenario::demo()?]
-    } else {
-        args.scenarios
-            .iter()
-            .map(Scenario::from_path)
-            .collect::<Result<Vec<_>, _>>()?
-    };
+    plot_extension_ok(args.plot.as_deref())?;
+    let scenarios = load_scenarios(&args.scenarios)?;
     let backends = args.backend.kinds();
     let mut outcomes = Vec::with_capacity(scenarios.len());
     for s in &scenarios {
@@ -190,6 +176,30 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
 
 /// The directory a report goes into must exist (reports are written
 /// atomically into it; nothing creates it).
+/// `--plot` must name an `.svg` or `.png` file.
+fn plot_extension_ok(plot: Option<&Path>) -> anyhow::Result<()> {
+    if let Some(p) = plot {
+        let ext = p
+            .extension()
+            .map(|e| e.to_string_lossy().to_ascii_lowercase());
+        if !matches!(ext.as_deref(), Some("svg" | "png")) {
+            anyhow::bail!("--plot {}: the file must end in .svg or .png", p.display());
+        }
+    }
+    Ok(())
+}
+
+/// The scenario files named, or the built-in demo when none is.
+fn load_scenarios(paths: &[PathBuf]) -> anyhow::Result<Vec<Scenario>> {
+    if paths.is_empty() {
+        return Ok(vec![Scenario::demo()?]);
+    }
+    Ok(paths
+        .iter()
+        .map(Scenario::from_path)
+        .collect::<Result<Vec<_>, _>>()?)
+}
+
 fn report_dir_exists(path: &Path) -> anyhow::Result<()> {
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d,

@@ -6,7 +6,6 @@ use std::path::{Path, PathBuf};
 
 use anyhow::Context;
 use clap::Args;
-use evenkeel_harness::Scenario;
 use evenkeel_harness::compare::{self, Comparison};
 use evenkeel_harness::report::per_run_path;
 
@@ -33,22 +32,8 @@ pub(crate) struct CompareArgs {
 
 /// Runs every comparison; `Ok(passed)`, or an error for bad input.
 pub(crate) fn run(args: &CompareArgs) -> anyhow::Result<bool> {
-    if let Some(p) = &args.plot {
-        let ext = p
-            .extension()
-            .map(|e| e.to_string_lossy().to_ascii_lowercase());
-        if !matches!(ext.as_deref(), Some("svg" | "png")) {
-            anyhow::bail!("--plot {}: the file must end in .svg or .png", p.display());
-        }
-    }
-    let scenarios = if args.scenarios.is_empty() {
-        vec![Scenario::demo()?]
-    } else {
-        args.scenarios
-            .iter()
-            .map(Scenario::from_path)
-            .collect::<Result<Vec<_>, _>>()?
-    };
+    super::plot_extension_ok(args.plot.as_deref())?;
+    let scenarios = super::load_scenarios(&args.scenarios)?;
     let mut comparisons: Vec<Comparison> = Vec::with_capacity(scenarios.len());
     for s in &scenarios {
         let c =
