@@ -392,14 +392,26 @@ mod words {
         (p as u32, (p >> 32) as i32)
     }
 
-    /// The exact product `x · m` as (low word, high word), from four 16 × 16-bit
-    /// multiplies. For Armv6-M (Cortex-M0/M0+/M1, recognised by its lack of
-    /// 32-bit atomics), which has no 32 × 32 → 64-bit multiply: LLVM would call
-    /// the 64 × 64-bit `__aeabi_lmul` (about 45 instructions with the call);
-    /// this is about 20, inline.
+    /// The exact product `x · m` as (low word, high word), on Armv6-M
+    /// (Cortex-M0/M0+/M1, recognised by its lack of 32-bit atomics), which
+    /// has no 32 × 32 → 64-bit multiply: LLVM would call the 64 × 64-bit
+    /// `__aeabi_lmul` (about 45 instructions with the call); [`mul_halves`]
+    /// is about 20, inline.
     #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
     #[inline(always)]
     pub(super) fn mul_wide(x: i32, m: i32) -> (u32, i32) {
+        mul_halves(x, m)
+    }
+
+    /// The exact product `x · m` as (low word, high word), from four 16 × 16-bit
+    /// multiplies. Compiled everywhere so that the host tests check it
+    /// (`word_products_match_the_64_bit_definition`); only Armv6-M uses it.
+    #[cfg_attr(
+        not(all(target_arch = "arm", not(target_has_atomic = "32"))),
+        allow(dead_code)
+    )]
+    #[inline(always)]
+    pub(super) fn mul_halves(x: i32, m: i32) -> (u32, i32) {
         let (x_lo, x_hi) = (x & 0xffff, x >> 16);
         let (m_lo, m_hi) = (m & 0xffff, m >> 16);
         // x = x_hi·2¹⁶ + x_lo with 0 ≤ x_lo < 2¹⁶ and |x_hi| ≤ 2¹⁵ (same for m):
@@ -704,6 +716,8 @@ mod tests {
                 };
                 for &x in edges.iter().chain(values.iter()) {
                     let p = i64::from(x) * i64::from(m);
+                    let (lo, hi) = words::mul_halves(x, m);
+                    assert_eq!((i64::from(hi) << 32) | i64::from(lo), p, "halves {x}·{m}");
                     let want = saturate_i32(round_shift(p, shift));
                     assert_eq!(words::rounded(x, m, shift), want, "words {x}·{m}>>{shift}");
                     assert_eq!(
