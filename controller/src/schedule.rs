@@ -274,6 +274,52 @@ mod tests {
     }
 
     #[test]
+    fn rejects_bad_breakpoints() {
+        let with_at = |at: f64| [ROWS[0], Breakpoint { at, ..ROWS[1] }];
+        assert_eq!(
+            Schedule::<I16F16, 2>::new(&BASE, &with_at(f64::NAN)).err(),
+            Some(ConfigError::NotFinite(Setting::Breakpoint))
+        );
+        // Two rows at one point: a zero-width segment.
+        assert_eq!(
+            Schedule::<I16F16, 2>::new(&BASE, &with_at(1500.0)).err(),
+            Some(ConfigError::Schedule)
+        );
+        // Beyond Q16.16 (largest 32767.99998).
+        assert_eq!(
+            Schedule::<I16F16, 2>::new(&BASE, &with_at(40_000.0)).err(),
+            Some(ConfigError::OutOfFormat(Setting::Breakpoint))
+        );
+        // In range but not a multiple of 2⁻¹⁶: rounded, accepted.
+        assert!(Schedule::<I16F16, 2>::new(&BASE, &with_at(2100.3)).is_ok());
+        let first_nan = [
+            Breakpoint {
+                at: f64::NAN,
+                ..ROWS[0]
+            },
+            ROWS[1],
+        ];
+        assert_eq!(
+            Schedule::<f64, 2>::new(&BASE, &first_nan).err(),
+            Some(ConfigError::NotFinite(Setting::Breakpoint))
+        );
+    }
+
+    /// A non-finite scheduling variable (a failed sensor) leaves the gains
+    /// as they were.
+    #[test]
+    fn non_finite_variable_keeps_the_gains() {
+        let table: Schedule<f64, 3> = Schedule::new(&BASE, &ROWS).expect("valid");
+        let mut pi = Controller::new(Config::<f64>::try_new(&BASE).expect("valid"));
+        pi.schedule(&table, f64::NAN);
+        assert_eq!(pi.config().kp(), 1.0);
+        pi.schedule(&table, 2100.0);
+        assert!((pi.config().kp() - 55.0).abs() < 1e-9);
+        pi.schedule(&table, f64::INFINITY);
+        assert!((pi.config().kp() - 55.0).abs() < 1e-9);
+    }
+
+    #[test]
     fn scheduling_is_bumpless() {
         let table: Schedule<I16F16, 3> = Schedule::new(&BASE, &ROWS).expect("valid");
         let mut pi = Controller::new(Config::<I16F16>::try_new(&BASE).expect("valid"));

@@ -514,6 +514,107 @@ mod tests {
         }
     }
 
+    /// Every non-finite setting is named in the error, each on its own.
+    #[test]
+    fn names_each_non_finite_setting() {
+        let nan = f64::NAN;
+        let cases: [(Settings, Setting); 10] = [
+            (Settings { kp: nan, ..BASE }, Setting::Kp),
+            (BASE.with_setpoint_weight(nan), Setting::SetpointWeight),
+            (
+                Settings {
+                    output_min: nan,
+                    ..BASE
+                },
+                Setting::OutputMin,
+            ),
+            (
+                Settings {
+                    output_max: f64::INFINITY,
+                    ..BASE
+                },
+                Setting::OutputMax,
+            ),
+            (
+                BASE.with_measurement_range(nan, 1.0),
+                Setting::MeasurementMin,
+            ),
+            (
+                BASE.with_measurement_range(0.0, nan),
+                Setting::MeasurementMax,
+            ),
+            (BASE.with_slew_per_s(f64::INFINITY), Setting::Slew),
+            (BASE.with_filter_time_s(nan), Setting::FilterTime),
+            (BASE.with_deadband(nan), Setting::Deadband),
+            (
+                BASE.with_anti_windup(AntiWindup::BackCalculation {
+                    tracking_time_s: nan,
+                }),
+                Setting::TrackingTime,
+            ),
+        ];
+        for (settings, which) in cases {
+            assert_eq!(
+                settings.per_sample(),
+                Err(ConfigError::NotFinite(which)),
+                "{which:?}"
+            );
+        }
+    }
+
+    /// The edges of each rule that must still be accepted: P only, I only,
+    /// b at both ends of [0, 1], a zero deadband.
+    #[test]
+    fn accepts_the_edges() {
+        let p_only = Settings {
+            ki_per_s: 0.0,
+            ..BASE
+        }
+        .per_sample();
+        assert_eq!(p_only.map(|p| (p.kp, p.ki_ts)), Ok((2.0, 0.0)));
+        let i_only = Settings { kp: 0.0, ..BASE }.per_sample();
+        assert_eq!(i_only.map(|p| (p.kp, p.ki_ts)), Ok((0.0, 0.01)));
+        let b0 = BASE.with_setpoint_weight(0.0).per_sample();
+        assert_eq!(b0.map(|p| p.setpoint_weight), Ok(Some(0.0)));
+        let b_half = BASE.with_setpoint_weight(0.5).per_sample();
+        assert_eq!(b_half.map(|p| p.setpoint_weight), Ok(Some(0.5)));
+        let b1 = BASE.with_setpoint_weight(1.0).per_sample();
+        assert_eq!(b1.map(|p| p.setpoint_weight), Ok(None));
+        assert_eq!(
+            BASE.with_setpoint_weight(-0.1).per_sample(),
+            Err(ConfigError::SetpointWeightOutOfRange)
+        );
+        let no_band = BASE.with_deadband(0.0).per_sample();
+        assert_eq!(no_band.map(|p| p.deadband), Ok(Some(0.0)));
+        let range = BASE.with_measurement_range(-2.0, 7.0).per_sample();
+        assert_eq!(
+            range.map(|p| (p.measurement_min, p.measurement_max)),
+            Ok((-2.0, 7.0))
+        );
+        assert_eq!(
+            BASE.with_measurement_range(3.0, -3.0).per_sample(),
+            Err(ConfigError::Inverted(Setting::MeasurementMax))
+        );
+    }
+
+    /// A tracking time so long that Ts/Tt underflows to zero would leave the
+    /// back-calculation with no effect: refused, like a ratio above one.
+    #[test]
+    fn tracking_ratio_zero_is_refused() {
+        let s = Settings {
+            period_s: 1e-300,
+            ..BASE
+        }
+        .with_anti_windup(AntiWindup::BackCalculation {
+            tracking_time_s: 1e300,
+        });
+        assert_eq!(s.per_sample(), Err(ConfigError::TrackingRatioOutOfRange));
+        let zero = BASE.with_anti_windup(AntiWindup::BackCalculation {
+            tracking_time_s: 0.0,
+        });
+        assert_eq!(zero.per_sample(), Err(ConfigError::TrackingRatioOutOfRange));
+    }
+
     #[test]
     fn tracking_ratio_one_is_accepted() {
         let s = BASE.with_anti_windup(AntiWindup::BackCalculation {

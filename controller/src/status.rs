@@ -274,4 +274,59 @@ mod tests {
         }
         assert_eq!(seen, 0x07ff);
     }
+
+    /// Which flags count as a limit and which as a fault, flag by flag (the
+    /// table is the documented contract of `is_limited` and `is_fault`).
+    #[test]
+    fn limits_and_faults_per_flag() {
+        let limits = [
+            Status::CLAMP_HIGH,
+            Status::CLAMP_LOW,
+            Status::SLEW,
+            Status::DOWNSTREAM,
+        ];
+        let faults = [
+            Status::NON_FINITE,
+            Status::MEASUREMENT_RANGE,
+            Status::SETPOINT_RANGE,
+        ];
+        for (flag, name) in Status::NAMES {
+            assert_eq!(flag.is_limited(), limits.contains(&flag), "{name}");
+            assert_eq!(flag.is_fault(), faults.contains(&flag), "{name}");
+        }
+        assert!(!Status::NONE.is_limited() && !Status::NONE.is_fault());
+    }
+
+    #[test]
+    fn contains_needs_every_bit() {
+        let s = Status::SLEW | Status::DEADBAND;
+        assert!(s.contains(Status::SLEW));
+        assert!(s.contains(s));
+        assert!(s.contains(Status::NONE));
+        assert!(!Status::SLEW.contains(s));
+        assert!(!s.contains(Status::TRACKING));
+    }
+
+    #[test]
+    fn union_is_idempotent() {
+        assert_eq!((Status::SLEW | Status::SLEW).bits(), 1 << 2);
+        let mut s = Status::NONE;
+        s |= Status::ENGAGED;
+        s |= Status::ENGAGED;
+        s |= Status::CLAMP_LOW;
+        assert_eq!(s.bits(), (1 << 7) | (1 << 1));
+        assert_eq!(Status::from_bits(0x0800), Status::NONE);
+        assert_eq!(Status::from_bits(0x0805).bits(), 0x0005);
+    }
+
+    #[test]
+    fn debug_shows_the_names() {
+        let s = Status::CLAMP_HIGH | Status::TRACKING | Status::NON_FINITE;
+        assert_eq!(
+            std::format!("{s:?}"),
+            "Status(clamp_high|tracking|non_finite)"
+        );
+        assert_eq!(std::format!("{:?}", Status::NONE), "Status(-)");
+        assert_eq!(Status::DEADBAND.to_string(), "deadband");
+    }
 }
