@@ -118,18 +118,12 @@ impl FixedCoef {
                 shift: min_shift as u8,
             });
         }
-        let magnitude = if value < 0.0 { -value } else { value };
-        // Largest shift with |value|·2^shift < 2^31, capped at MAX_SHIFT.
+        // The largest shift whose rounded mantissa fits 31 bits and a sign:
+        // down from MAX_SHIFT, one bit of precision at a time (at most 63
+        // multiplications by a power of two, all exact).
         let mut shift = MAX_SHIFT;
         loop {
-            if magnitude * pow2(shift) < 2_147_483_648.0 || shift == 0 {
-                break;
-            }
-            shift -= 1;
-        }
-        loop {
-            let scaled = value * pow2(shift);
-            let rounded = round_half_away(scaled);
+            let rounded = round_half_away(value * pow2(shift));
             if rounded > -2_147_483_648.0 && rounded < 2_147_483_648.0 {
                 if shift < min_shift {
                     return None;
@@ -142,7 +136,6 @@ impl FixedCoef {
             if shift == 0 {
                 return None;
             }
-            // Rounding carried into bit 31: one bit less precision.
             shift -= 1;
         }
     }
@@ -654,6 +647,36 @@ mod tests {
         }
     }
 
+    /// Shifts beyond the contract (s > 62) act as 62: no shift overflow.
+    #[test]
+    fn round_shift_clamps_large_shifts() {
+        for s in [63, 64, 65, 200, u32::MAX] {
+            assert_eq!(round_shift(1 << 62, s), 1, "s={s}");
+            assert_eq!(round_shift(-(3 << 61), s), -1, "s={s}");
+        }
+    }
+
+    /// Conversions round to nearest with ties away from zero, not toward
+    /// zero (the `as` cast alone would truncate).
+    #[test]
+    fn conversions_round_ties_away() {
+        for (value, shift, want) in [
+            (0.625, 2, 3), // 2.5
+            (-0.625, 2, -3),
+            (0.6, 2, 2), // 2.4
+            (0.7, 2, 3), // 2.8
+            (-0.7, 2, -3),
+        ] {
+            let got = FixedCoef::with_shift(value, shift).map(FixedCoef::mantissa);
+            assert_eq!(got, Some(want), "{value}·2^{shift}");
+        }
+        let lsb = 1.0 / 65_536.0;
+        assert_eq!(signal_from_f64(0.5 * lsb).map(I16F16::to_bits), Some(1));
+        assert_eq!(signal_from_f64(-0.5 * lsb).map(I16F16::to_bits), Some(-1));
+        assert_eq!(signal_from_f64(0.49 * lsb).map(I16F16::to_bits), Some(0));
+        assert_eq!(signal_from_f64(2.75 * lsb).map(I16F16::to_bits), Some(3));
+    }
+
     #[test]
     fn round_shift_extremes_do_not_wrap() {
         assert_eq!(round_shift(1 << 62, 62), 1);
@@ -797,6 +820,34 @@ mod tests {
         assert!(FixedCoef::from_f64(3.0e9, 0).is_none());
         assert!(FixedCoef::from_f64(40_000.0, 16).is_none());
         assert!(FixedCoef::from_f64(30_000.0, 16).is_some());
+        // Zero takes the requested shift, which must itself be valid.
+        assert_eq!(FixedCoef::from_f64(0.0, 62).map(FixedCoef::shift), Some(62));
+        assert!(FixedCoef::from_f64(0.0, 63).is_none());
+    }
+
+    /// The mantissa range is (−2³¹, 2³¹): −2³¹ itself is refused so that
+    /// |mantissa| < 2³¹ holds for the product bounds.
+    #[test]
+    fn exact_shift_edges() {
+        assert_eq!(
+            FixedCoef::with_shift(0.0, MAX_SHIFT).map(FixedCoef::shift),
+            Some(MAX_SHIFT)
+        );
+        assert!(FixedCoef::with_shift(0.0, MAX_SHIFT + 1).is_none());
+        assert!(FixedCoef::with_shift(f64::NAN, 0).is_none());
+        assert!(FixedCoef::with_shift(f64::NEG_INFINITY, 0).is_none());
+        assert!(FixedCoef::with_shift(1.0, 31).is_none()); // 2³¹
+        assert!(FixedCoef::with_shift(-1.0, 31).is_none()); // −2³¹
+        assert!(FixedCoef::with_shift(3.0e9, 0).is_none());
+        assert!(FixedCoef::with_shift(-3.0e9, 0).is_none());
+        let top = FixedCoef::with_shift(2_147_483_647.0, 0).map(FixedCoef::mantissa);
+        assert_eq!(top, Some(i32::MAX));
+        let bottom = FixedCoef::with_shift(-2_147_483_647.0, 0).map(FixedCoef::mantissa);
+        assert_eq!(bottom, Some(-i32::MAX));
+        // −1 · 2³⁰ just fits; from_f64 picks the same representation.
+        let minus_one = FixedCoef::with_shift(-1.0, 30);
+        assert_eq!(minus_one.map(FixedCoef::mantissa), Some(-(1 << 30)));
+        assert_eq!(FixedCoef::from_f64(-1.0, 0), minus_one);
     }
 
     #[test]
