@@ -1,8 +1,8 @@
 //! End-to-end tests of the `evenkeel` binary, run in a temporary directory.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
+use common::{data, demos, evenkeel, text};
 use evenkeel_harness::CAUTION;
 
 const METRIC_KEYS: [&str; 17] = [
@@ -24,35 +24,6 @@ const METRIC_KEYS: [&str; 17] = [
     "fault_return_jump",
     "fault_overshoot",
 ];
-
-fn demos() -> Vec<PathBuf> {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/scenarios");
-    let mut files: Vec<PathBuf> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
-        .collect();
-    files.sort();
-    files
-}
-
-fn data(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/data")
-        .join(name)
-}
-
-fn evenkeel(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_evenkeel"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
 
 #[test]
 fn demos_pass_on_all_backends_with_every_report() {

@@ -1,20 +1,9 @@
 //! End-to-end tests of `evenkeel sweep`, `merge` and `design`, run in a
 //! temporary directory.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn demo(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(format!("../shared/scenarios/{name}.toml"))
-}
-
-fn evenkeel(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_evenkeel"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
-}
+use common::{demo, evenkeel};
 
 #[test]
 fn sweep_writes_every_report_and_shards_merge() {

@@ -1,28 +1,13 @@
 //! Back-to-back comparison, fixed point against f64: the library on the
 //! demos and constructed cases, and the `evenkeel compare` binary.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
+use std::path::Path;
+
+use common::{data, demos, evenkeel};
 use evenkeel_harness::compare::{self, Comparison, LSB};
 use evenkeel_harness::{CAUTION, Scenario};
-
-fn demos() -> Vec<PathBuf> {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/scenarios");
-    let mut files: Vec<PathBuf> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
-        .collect();
-    files.sort();
-    files
-}
-
-fn data(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/data")
-        .join(name)
-}
 
 fn run(path: &Path) -> Comparison {
     compare::compare(&Scenario::from_path(path).unwrap()).unwrap()
@@ -169,14 +154,6 @@ fn compare_table_is_validated() {
     // Absent table: everything derived.
     let s = Scenario::demo().unwrap();
     assert_eq!(s.compare, compare::CompareSpec::default());
-}
-
-fn evenkeel(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_evenkeel"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
 }
 
 #[test]
