@@ -2,7 +2,7 @@
 
 mod common;
 
-use common::{data, demos, evenkeel, text};
+use common::{assert_exit, data, demos, evenkeel, text};
 use evenkeel_harness::CAUTION;
 
 const METRIC_KEYS: [&str; 17] = [
@@ -40,12 +40,7 @@ fn demos_pass_on_all_backends_with_every_report() {
     let args: Vec<&str> = args.iter().map(String::as_str).collect();
     let out = evenkeel(dir.path(), &args);
     let stdout = text(&out.stdout);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{stdout}\n{}",
-        text(&out.stderr)
-    );
+    assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));
     assert_eq!(stdout.matches("PASS").count(), 9, "{stdout}");
 
@@ -133,7 +128,7 @@ fn default_runs_the_built_in_demo_and_writes_a_png() {
         &["check", "--backend", "fixed", "--plot", "tug.png"],
     );
     let stdout = text(&out.stdout);
-    assert_eq!(out.status.code(), Some(0), "{stdout}{}", text(&out.stderr));
+    assert_exit(&out, 0);
     assert!(stdout.contains("scenario baggage-tug (<built-in"));
     assert!(stdout.contains("backend fixed  PASS"));
     assert!(stdout.contains(CAUTION));
@@ -146,7 +141,7 @@ fn default_runs_the_built_in_demo_and_writes_a_png() {
 fn json_to_standard_output() {
     let dir = tempfile::tempdir().unwrap();
     let out = evenkeel(dir.path(), &["check", "--backend", "f32", "--json", "-"]);
-    assert_eq!(out.status.code(), Some(0));
+    assert_exit(&out, 0);
     let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(json["scenarios"][0]["runs"][0]["backend"], "f32");
     // The table went to standard error.
@@ -169,7 +164,7 @@ fn bad_tuning_fails_with_exit_code_1() {
         ],
     );
     let stdout = text(&out.stdout);
-    assert_eq!(out.status.code(), Some(1), "{stdout}{}", text(&out.stderr));
+    assert_exit(&out, 1);
     assert!(stdout.contains("FAIL"));
     assert!(
         stdout
@@ -291,7 +286,7 @@ fn unknown_key_is_rejected_with_its_location() {
     let (dir, line, column) = broken("crr = 0.015", "crr = 0.015\nmass_kgs = 12.0", "mass_kgs", 0);
     let out = evenkeel(dir.path(), &["check", "bad.toml"]);
     let err = text(&out.stderr);
-    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert_exit(&out, 2);
     assert!(
         err.contains(&format!("bad.toml:{line}:{column}: key `plant.mass_kgs`")),
         "{err}"
@@ -303,7 +298,7 @@ fn unknown_key_is_rejected_with_its_location() {
     // Unknown tables too.
     let (dir, _, _) = broken("[sensor]", "[sensors]", "[sensors]", 0);
     let out = evenkeel(dir.path(), &["check", "bad.toml"]);
-    assert_eq!(out.status.code(), Some(2));
+    assert_exit(&out, 2);
     assert!(text(&out.stderr).contains("unknown field `sensors`"));
 }
 
@@ -328,5 +323,5 @@ fn usage_errors_exit_with_code_2_and_write_nothing() {
     }
     assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
     let out = evenkeel(dir.path(), &["check", "--help"]);
-    assert_eq!(out.status.code(), Some(0));
+    assert_exit(&out, 0);
 }

@@ -6,7 +6,7 @@ mod common;
 
 use std::path::Path;
 
-use common::{demo, evenkeel};
+use common::{demo, evenkeel, text};
 
 /// The pump demo with `from` replaced by `to`, as `bad.toml` in `dir`.
 fn broken(dir: &Path, from: &str, to: &str) {
@@ -24,7 +24,7 @@ fn refused(setup: &dyn Fn(&Path), args: &[&str], words: &str) {
     std::fs::create_dir(dir.path().join("unreadable.toml")).unwrap();
     let before = std::fs::read_dir(dir.path()).unwrap().count();
     let out = evenkeel(dir.path(), args);
-    let err = String::from_utf8_lossy(&out.stderr);
+    let err = text(&out.stderr);
     assert_eq!(out.status.code(), Some(2), "{args:?}: {err}");
     assert!(err.contains(words), "{args:?}: want `{words}` in: {err}");
     assert_eq!(

@@ -5,7 +5,7 @@ mod common;
 
 use std::path::Path;
 
-use common::{data, demos, evenkeel};
+use common::{assert_exit, data, demos, evenkeel, text};
 use evenkeel_harness::compare::{self, Comparison, LSB};
 use evenkeel_harness::{CAUTION, Scenario};
 
@@ -168,8 +168,8 @@ fn cli_compares_the_demos_with_every_report() {
     }
     let args: Vec<&str> = args.iter().map(String::as_str).collect();
     let out = evenkeel(dir.path(), &args);
-    let stdout = String::from_utf8_lossy(&out.stdout);
-    assert_eq!(out.status.code(), Some(0), "{stdout}");
+    let stdout = text(&out.stdout);
+    assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));
     assert_eq!(stdout.matches("  PASS  (").count(), 3, "{stdout}");
     let json: serde_json::Value =
@@ -206,7 +206,7 @@ fn cli_fails_the_coarse_scenario_and_refuses_bad_usage() {
             "compare", &coarse, "--json", "-", "--junit", "j.xml", "--plot", "p.png",
         ],
     );
-    assert_eq!(out.status.code(), Some(1));
+    assert_exit(&out, 1);
     let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(json["passed"], false);
     let checks = json["comparisons"][0]["checks"].as_array().unwrap();
@@ -220,7 +220,7 @@ fn cli_fails_the_coarse_scenario_and_refuses_bad_usage() {
     assert_eq!(declared["declared"], true);
     assert!(declared["source"].as_str().unwrap().contains("0.5 %"));
     // The table went to stderr, the JUnit names the failure.
-    assert!(String::from_utf8_lossy(&out.stderr).contains("FAIL"));
+    assert!(text(&out.stderr).contains("FAIL"));
     let xml = std::fs::read_to_string(dir.path().join("j.xml")).unwrap();
     assert!(xml.contains("failures=\"2\""), "{xml}");
     assert!(
@@ -230,8 +230,8 @@ fn cli_fails_the_coarse_scenario_and_refuses_bad_usage() {
     );
     // Usage errors: exit 2, nothing written.
     let out = evenkeel(dir.path(), &["compare", "--plot", "p.pdf"]);
-    assert_eq!(out.status.code(), Some(2));
+    assert_exit(&out, 2);
     let out = evenkeel(dir.path(), &["compare", "no-such.toml"]);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("no-such.toml"));
+    assert_exit(&out, 2);
+    assert!(text(&out.stderr).contains("no-such.toml"));
 }

@@ -53,3 +53,16 @@ pub fn evenkeel(dir: &Path, args: &[&str]) -> Output {
 pub fn text(bytes: &[u8]) -> String {
     String::from_utf8_lossy(bytes).into_owned()
 }
+
+/// Asserts that the binary exited with `code`; on failure the message
+/// shows both of its output streams.
+#[track_caller]
+pub fn assert_exit(out: &Output, code: i32) {
+    assert_eq!(
+        out.status.code(),
+        Some(code),
+        "stdout:\n{}\nstderr:\n{}",
+        text(&out.stdout),
+        text(&out.stderr)
+    );
+}
