@@ -2,7 +2,7 @@
 
 mod common;
 
-use common::{assert_exit, data, demos, evenkeel, text};
+use common::{assert_exit, data, demos, evenkeel, evenkeel_on, text};
 use evenkeel_harness::CAUTION;
 
 const METRIC_KEYS: [&str; 17] = [
@@ -30,15 +30,14 @@ fn demos_pass_on_all_backends_with_every_report() {
     let dir = tempfile::tempdir().unwrap();
     let files = demos();
     assert_eq!(files.len(), 3, "{files:?}");
-    let mut args = vec!["check".to_owned()];
-    args.extend(files.iter().map(|p| p.display().to_string()));
-    for a in [
-        "--json", "r.json", "--junit", "r.xml", "--trace", "t.csv", "--plot", "p.svg",
-    ] {
-        args.push(a.into());
-    }
-    let args: Vec<&str> = args.iter().map(String::as_str).collect();
-    let out = evenkeel(dir.path(), &args);
+    let out = evenkeel_on(
+        dir.path(),
+        "check",
+        &files,
+        &[
+            "--json", "r.json", "--junit", "r.xml", "--trace", "t.csv", "--plot", "p.svg",
+        ],
+    );
     let stdout = text(&out.stdout);
     assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));

@@ -5,7 +5,7 @@ mod common;
 
 use std::path::Path;
 
-use common::{assert_exit, data, demos, evenkeel, text};
+use common::{assert_exit, data, demos, evenkeel, evenkeel_on, text};
 use evenkeel_harness::compare::{self, Comparison, LSB};
 use evenkeel_harness::{CAUTION, Scenario};
 
@@ -159,15 +159,14 @@ fn compare_table_is_validated() {
 #[test]
 fn cli_compares_the_demos_with_every_report() {
     let dir = tempfile::tempdir().unwrap();
-    let mut args = vec!["compare".to_owned()];
-    args.extend(demos().iter().map(|p| p.display().to_string()));
-    for a in [
-        "--json", "c.json", "--junit", "c.xml", "--plot", "c.svg", "--trace", "c.csv",
-    ] {
-        args.push(a.into());
-    }
-    let args: Vec<&str> = args.iter().map(String::as_str).collect();
-    let out = evenkeel(dir.path(), &args);
+    let out = evenkeel_on(
+        dir.path(),
+        "compare",
+        &demos(),
+        &[
+            "--json", "c.json", "--junit", "c.xml", "--plot", "c.svg", "--trace", "c.csv",
+        ],
+    );
     let stdout = text(&out.stdout);
     assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));

@@ -49,6 +49,15 @@ pub fn evenkeel(dir: &Path, args: &[&str]) -> Output {
         .unwrap()
 }
 
+/// Runs `evenkeel {command} {files…} {flags…}` in `dir`.
+pub fn evenkeel_on(dir: &Path, command: &str, files: &[PathBuf], flags: &[&str]) -> Output {
+    let files: Vec<String> = files.iter().map(|p| p.display().to_string()).collect();
+    let mut args = vec![command];
+    args.extend(files.iter().map(String::as_str));
+    args.extend_from_slice(flags);
+    evenkeel(dir, &args)
+}
+
 /// The binary's output as text (invalid UTF-8 replaced).
 pub fn text(bytes: &[u8]) -> String {
     String::from_utf8_lossy(bytes).into_owned()
