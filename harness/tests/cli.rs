@@ -1,8 +1,8 @@
 //! End-to-end tests of the `evenkeel` binary, run in a temporary directory.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
+use common::{assert_exit, data, demos, evenkeel, evenkeel_on, text};
 use evenkeel_harness::CAUTION;
 
 const METRIC_KEYS: [&str; 17] = [
@@ -25,56 +25,21 @@ const METRIC_KEYS: [&str; 17] = [
     "fault_overshoot",
 ];
 
-fn demos() -> Vec<PathBuf> {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/scenarios");
-    let mut files: Vec<PathBuf> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
-        .collect();
-    files.sort();
-    files
-}
-
-fn data(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/data")
-        .join(name)
-}
-
-fn evenkeel(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_evenkeel"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
-
 #[test]
 fn demos_pass_on_all_backends_with_every_report() {
     let dir = tempfile::tempdir().unwrap();
     let files = demos();
     assert_eq!(files.len(), 3, "{files:?}");
-    let mut args = vec!["check".to_owned()];
-    args.extend(files.iter().map(|p| p.display().to_string()));
-    for a in [
-        "--json", "r.json", "--junit", "r.xml", "--trace", "t.csv", "--plot", "p.svg",
-    ] {
-        args.push(a.into());
-    }
-    let args: Vec<&str> = args.iter().map(String::as_str).collect();
-    let out = evenkeel(dir.path(), &args);
-    let stdout = text(&out.stdout);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{stdout}\n{}",
-        text(&out.stderr)
+    let out = evenkeel_on(
+        dir.path(),
+        "check",
+        &files,
+        &[
+            "--json", "r.json", "--junit", "r.xml", "--trace", "t.csv", "--plot", "p.svg",
+        ],
     );
+    let stdout = text(&out.stdout);
+    assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));
     assert_eq!(stdout.matches("PASS").count(), 9, "{stdout}");
 
@@ -162,7 +127,7 @@ fn default_runs_the_built_in_demo_and_writes_a_png() {
         &["check", "--backend", "fixed", "--plot", "tug.png"],
     );
     let stdout = text(&out.stdout);
-    assert_eq!(out.status.code(), Some(0), "{stdout}{}", text(&out.stderr));
+    assert_exit(&out, 0);
     assert!(stdout.contains("scenario baggage-tug (<built-in"));
     assert!(stdout.contains("backend fixed  PASS"));
     assert!(stdout.contains(CAUTION));
@@ -175,7 +140,7 @@ fn default_runs_the_built_in_demo_and_writes_a_png() {
 fn json_to_standard_output() {
     let dir = tempfile::tempdir().unwrap();
     let out = evenkeel(dir.path(), &["check", "--backend", "f32", "--json", "-"]);
-    assert_eq!(out.status.code(), Some(0));
+    assert_exit(&out, 0);
     let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(json["scenarios"][0]["runs"][0]["backend"], "f32");
     // The table went to standard error.
@@ -198,7 +163,7 @@ fn bad_tuning_fails_with_exit_code_1() {
         ],
     );
     let stdout = text(&out.stdout);
-    assert_eq!(out.status.code(), Some(1), "{stdout}{}", text(&out.stderr));
+    assert_exit(&out, 1);
     assert!(stdout.contains("FAIL"));
     assert!(
         stdout
@@ -320,7 +285,7 @@ fn unknown_key_is_rejected_with_its_location() {
     let (dir, line, column) = broken("crr = 0.015", "crr = 0.015\nmass_kgs = 12.0", "mass_kgs", 0);
     let out = evenkeel(dir.path(), &["check", "bad.toml"]);
     let err = text(&out.stderr);
-    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert_exit(&out, 2);
     assert!(
         err.contains(&format!("bad.toml:{line}:{column}: key `plant.mass_kgs`")),
         "{err}"
@@ -332,7 +297,7 @@ fn unknown_key_is_rejected_with_its_location() {
     // Unknown tables too.
     let (dir, _, _) = broken("[sensor]", "[sensors]", "[sensors]", 0);
     let out = evenkeel(dir.path(), &["check", "bad.toml"]);
-    assert_eq!(out.status.code(), Some(2));
+    assert_exit(&out, 2);
     assert!(text(&out.stderr).contains("unknown field `sensors`"));
 }
 
@@ -357,5 +322,5 @@ fn usage_errors_exit_with_code_2_and_write_nothing() {
     }
     assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
     let out = evenkeel(dir.path(), &["check", "--help"]);
-    assert_eq!(out.status.code(), Some(0));
+    assert_exit(&out, 0);
 }

@@ -2,20 +2,11 @@
 //! types, huge values, empty sweeps, zero-length durations. Each must give
 //! a precise error on standard error, exit code 2, and write nothing.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn demo(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(format!("../shared/scenarios/{name}.toml"))
-}
+use std::path::Path;
 
-fn evenkeel(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_evenkeel"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
-}
+use common::{demo, evenkeel, text};
 
 /// The pump demo with `from` replaced by `to`, as `bad.toml` in `dir`.
 fn broken(dir: &Path, from: &str, to: &str) {
@@ -33,7 +24,7 @@ fn refused(setup: &dyn Fn(&Path), args: &[&str], words: &str) {
     std::fs::create_dir(dir.path().join("unreadable.toml")).unwrap();
     let before = std::fs::read_dir(dir.path()).unwrap().count();
     let out = evenkeel(dir.path(), args);
-    let err = String::from_utf8_lossy(&out.stderr);
+    let err = text(&out.stderr);
     assert_eq!(out.status.code(), Some(2), "{args:?}: {err}");
     assert!(err.contains(words), "{args:?}: want `{words}` in: {err}");
     assert_eq!(

@@ -1,20 +1,9 @@
 //! End-to-end tests of `evenkeel sweep`, `merge` and `design`, run in a
 //! temporary directory.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn demo(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(format!("../shared/scenarios/{name}.toml"))
-}
-
-fn evenkeel(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_evenkeel"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
-}
+use common::{assert_exit, demo, evenkeel, text};
 
 #[test]
 fn sweep_writes_every_report_and_shards_merge() {
@@ -37,13 +26,8 @@ fn sweep_writes_every_report_and_shards_merge() {
         "all.json",
     ]);
     let out = evenkeel(dir.path(), &args);
-    let table = String::from_utf8_lossy(&out.stdout);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{table}{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let table = text(&out.stdout);
+    assert_exit(&out, 0);
     assert!(
         table.contains("pass %") && table.contains("6 of 6 variants"),
         "{table}"
@@ -70,47 +54,32 @@ fn sweep_writes_every_report_and_shards_merge() {
         dir.path(),
         &["check", first.to_str().unwrap(), "--backend", "fixed"],
     );
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stdout)
-    );
+    assert_exit(&out, 0);
 
     // Two shards, merged: the same JSON report as the single run.
     for i in ["1/2", "2/2"] {
         let save = format!("shard{}.json", &i[..1]);
         let mut args = vec!["sweep", pump, "--quiet", "--shard", i, "--save", &save];
         args.extend(common);
-        assert!(evenkeel(dir.path(), &args).status.success());
+        assert_exit(&evenkeel(dir.path(), &args), 0);
     }
     let out = evenkeel(
         dir.path(),
         &["merge", "shard2.json", "shard1.json", "--json", "m.json"],
     );
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    assert_exit(&out, 0);
     assert_eq!(
         std::fs::read_to_string(dir.path().join("m.json")).unwrap(),
         std::fs::read_to_string(dir.path().join("s.json")).unwrap()
     );
     // A lone shard does not merge.
     let out = evenkeel(dir.path(), &["merge", "shard1.json"]);
-    assert_eq!(out.status.code(), Some(2));
+    assert_exit(&out, 2);
     // A scenario without [uncertainty] has nothing to sweep.
     let bare = dir.path().join("bare.toml");
-    let text = std::fs::read_to_string(pump).unwrap();
-    std::fs::write(&bare, text.split("[uncertainty]").next().unwrap()).unwrap();
-    assert_eq!(
-        evenkeel(dir.path(), &["sweep", bare.to_str().unwrap()])
-            .status
-            .code(),
-        Some(2)
-    );
+    let pump_text = std::fs::read_to_string(pump).unwrap();
+    std::fs::write(&bare, pump_text.split("[uncertainty]").next().unwrap()).unwrap();
+    assert_exit(&evenkeel(dir.path(), &["sweep", bare.to_str().unwrap()]), 2);
 }
 
 #[test]
@@ -128,8 +97,8 @@ fn design_writes_a_scenario_that_checks_and_a_const_snippet() {
             "fan.rs",
         ],
     );
-    let report = String::from_utf8_lossy(&out.stdout);
-    assert_eq!(out.status.code(), Some(0), "{report}");
+    let report = text(&out.stdout);
+    assert_exit(&out, 0);
     for needle in [
         "SIMC",
         "GM dB",
@@ -146,19 +115,9 @@ fn design_writes_a_scenario_that_checks_and_a_const_snippet() {
         "{rust}"
     );
     let out = evenkeel(dir.path(), &["check", "fan.toml"]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stdout)
-    );
+    assert_exit(&out, 0);
     let out = evenkeel(dir.path(), &["sweep", "fan.toml", "-q"]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stdout)
-    );
+    assert_exit(&out, 0);
     // Pole placement works too.
     let out = evenkeel(
         dir.path(),
@@ -169,5 +128,5 @@ fn design_writes_a_scenario_that_checks_and_a_const_snippet() {
             "pole-placement",
         ],
     );
-    assert!(String::from_utf8_lossy(&out.stdout).contains("pole placement"));
+    assert!(text(&out.stdout).contains("pole placement"));
 }

@@ -1,28 +1,13 @@
 //! Back-to-back comparison, fixed point against f64: the library on the
 //! demos and constructed cases, and the `evenkeel compare` binary.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
+use std::path::Path;
+
+use common::{assert_exit, data, demos, evenkeel, evenkeel_on, text};
 use evenkeel_harness::compare::{self, Comparison, LSB};
 use evenkeel_harness::{CAUTION, Scenario};
-
-fn demos() -> Vec<PathBuf> {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/scenarios");
-    let mut files: Vec<PathBuf> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
-        .collect();
-    files.sort();
-    files
-}
-
-fn data(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/data")
-        .join(name)
-}
 
 fn run(path: &Path) -> Comparison {
     compare::compare(&Scenario::from_path(path).unwrap()).unwrap()
@@ -171,28 +156,19 @@ fn compare_table_is_validated() {
     assert_eq!(s.compare, compare::CompareSpec::default());
 }
 
-fn evenkeel(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_evenkeel"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
-}
-
 #[test]
 fn cli_compares_the_demos_with_every_report() {
     let dir = tempfile::tempdir().unwrap();
-    let mut args = vec!["compare".to_owned()];
-    args.extend(demos().iter().map(|p| p.display().to_string()));
-    for a in [
-        "--json", "c.json", "--junit", "c.xml", "--plot", "c.svg", "--trace", "c.csv",
-    ] {
-        args.push(a.into());
-    }
-    let args: Vec<&str> = args.iter().map(String::as_str).collect();
-    let out = evenkeel(dir.path(), &args);
-    let stdout = String::from_utf8_lossy(&out.stdout);
-    assert_eq!(out.status.code(), Some(0), "{stdout}");
+    let out = evenkeel_on(
+        dir.path(),
+        "compare",
+        &demos(),
+        &[
+            "--json", "c.json", "--junit", "c.xml", "--plot", "c.svg", "--trace", "c.csv",
+        ],
+    );
+    let stdout = text(&out.stdout);
+    assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));
     assert_eq!(stdout.matches("  PASS  (").count(), 3, "{stdout}");
     let json: serde_json::Value =
@@ -229,7 +205,7 @@ fn cli_fails_the_coarse_scenario_and_refuses_bad_usage() {
             "compare", &coarse, "--json", "-", "--junit", "j.xml", "--plot", "p.png",
         ],
     );
-    assert_eq!(out.status.code(), Some(1));
+    assert_exit(&out, 1);
     let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(json["passed"], false);
     let checks = json["comparisons"][0]["checks"].as_array().unwrap();
@@ -243,7 +219,7 @@ fn cli_fails_the_coarse_scenario_and_refuses_bad_usage() {
     assert_eq!(declared["declared"], true);
     assert!(declared["source"].as_str().unwrap().contains("0.5 %"));
     // The table went to stderr, the JUnit names the failure.
-    assert!(String::from_utf8_lossy(&out.stderr).contains("FAIL"));
+    assert!(text(&out.stderr).contains("FAIL"));
     let xml = std::fs::read_to_string(dir.path().join("j.xml")).unwrap();
     assert!(xml.contains("failures=\"2\""), "{xml}");
     assert!(
@@ -253,8 +229,8 @@ fn cli_fails_the_coarse_scenario_and_refuses_bad_usage() {
     );
     // Usage errors: exit 2, nothing written.
     let out = evenkeel(dir.path(), &["compare", "--plot", "p.pdf"]);
-    assert_eq!(out.status.code(), Some(2));
+    assert_exit(&out, 2);
     let out = evenkeel(dir.path(), &["compare", "no-such.toml"]);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("no-such.toml"));
+    assert_exit(&out, 2);
+    assert!(text(&out.stderr).contains("no-such.toml"));
 }

@@ -3,22 +3,19 @@
 //! constructed oscillation and stays quiet on every demo scenario; fault
 //! and monitor settings are validated like the rest of a scenario file.
 
-use std::path::{Path, PathBuf};
+mod common;
 
+use std::path::Path;
+
+use common::{demo, demos};
 use evenkeel::Status;
 use evenkeel::monitor::Diagnostics;
 use evenkeel_harness::fault::FaultKind;
 use evenkeel_harness::sim::Recording;
 use evenkeel_harness::{BackendKind, Scenario};
 
-fn shared(rel: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../shared/scenarios")
-        .join(rel)
-}
-
 fn fault_demo() -> Scenario {
-    Scenario::from_path(shared("faults/irrigation_pump_faults.toml")).unwrap()
+    Scenario::from_path(demo("faults/irrigation_pump_faults")).unwrap()
 }
 
 /// Sample indices `[first, end)` of the fault of `kind`'s name, `nth` of that name.
@@ -135,7 +132,7 @@ fn every_fault_kind_is_in_the_demo_and_each_is_documented() {
 /// reasoning: k·Kp ≫ 1 with L/τ ≈ 0.7 loses the phase margin; common
 /// practice). The loop oscillates in a limit cycle between the limits.
 fn aggressive() -> Scenario {
-    let mut s = Scenario::from_path(shared("irrigation_pump.toml")).unwrap();
+    let mut s = Scenario::from_path(demo("irrigation_pump")).unwrap();
     s.setup.overrides.clear();
     s.controller.kp = 0.02;
     s.controller.ki_per_s = 0.01;
@@ -168,12 +165,7 @@ fn monitor_detects_a_constructed_oscillation() {
 
 #[test]
 fn monitor_stays_quiet_on_every_demo_scenario() {
-    let mut files: Vec<PathBuf> = std::fs::read_dir(shared(""))
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
-        .collect();
-    files.sort();
+    let files = demos();
     assert!(files.len() >= 3, "{files:?}");
     for file in files {
         let outcome = Scenario::from_path(&file).unwrap().run_all().unwrap();
@@ -209,7 +201,7 @@ fn trace_csv_carries_fault_and_monitor_columns() {
 }
 
 fn with(extra: &str) -> String {
-    let base = std::fs::read_to_string(shared("irrigation_pump.toml")).unwrap();
+    let base = std::fs::read_to_string(demo("irrigation_pump")).unwrap();
     format!("{base}\n{extra}\n")
 }
 

@@ -2,16 +2,14 @@
 //! unsharded result, and the design proposals holding over each demo's
 //! whole uncertainty range.
 
+mod common;
+
 use evenkeel_harness::design::{self, Request};
 use evenkeel_harness::sweep::{self, Method, Shard, SweepPlan, SweepResult};
 use evenkeel_harness::{BackendKind, Scenario};
 
 fn demo(name: &str) -> Scenario {
-    let path = format!(
-        "{}/../shared/scenarios/{name}.toml",
-        env!("CARGO_MANIFEST_DIR")
-    );
-    Scenario::from_path(path).unwrap()
+    Scenario::from_path(common::demo(name)).unwrap()
 }
 
 fn pump_plan() -> SweepPlan {
