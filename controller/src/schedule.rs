@@ -271,6 +271,18 @@ mod tests {
             Schedule::<f32, 4>::new(&BASE, &negative).err(),
             Some(ConfigError::Negative(Setting::Kp))
         );
+        // Each row's Ki is checked with the row's own value, not the base's.
+        let negative_ki = [
+            ROWS[0],
+            Breakpoint {
+                ki_per_s: -1.0,
+                ..ROWS[1]
+            },
+        ];
+        assert_eq!(
+            Schedule::<f32, 4>::new(&BASE, &negative_ki).err(),
+            Some(ConfigError::Negative(Setting::Ki))
+        );
     }
 
     #[test]

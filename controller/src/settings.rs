@@ -164,7 +164,8 @@ impl Settings {
     }
 
     /// Like [`Settings::new`] with the integral time Ti in seconds instead of
-    /// Ki (Ki = Kp/Ti). A non-positive Ti gives a Ki that validation rejects.
+    /// Ki (Ki = Kp/Ti). A non-positive Ti gives Ki = NaN (never ±∞, whatever
+    /// Kp is), which validation rejects.
     ///
     /// ```
     /// let s = evenkeel::Settings::from_integral_time(0.1, 4.0, 2.0, 0.0, 100.0);
@@ -628,6 +629,12 @@ mod tests {
         let s = Settings::from_integral_time(0.01, 3.0, 1.5, 0.0, 1.0);
         assert_eq!(s.ki_per_s, 2.0);
         let bad = Settings::from_integral_time(0.01, 3.0, 0.0, 0.0, 1.0);
+        assert!(bad.ki_per_s.is_nan());
+        assert!(
+            Settings::from_integral_time(0.01, 3.0, -2.0, 0.0, 1.0)
+                .ki_per_s
+                .is_nan()
+        );
         assert_eq!(bad.per_sample(), Err(ConfigError::NotFinite(Setting::Ki)));
     }
 }
