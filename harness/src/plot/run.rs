@@ -1,68 +1,16 @@
-//! Plots of one run: SVG or PNG (by file extension), four stacked panels
-//! sharing the time axis, the caution in the footer.
-//!
-//! 1. reference, measurement and true output;
-//! 2. command with its output limits;
-//! 3. plant rate (acceleration) with the `peak_accel` limit;
-//! 4. jerk with the `peak_jerk` limit;
-//! 5. fault and diagnostic lanes: injected faults, the controller's fault
-//!    flags (`non_finite`, `measurement_range`, `setpoint_range`,
-//!    `downstream`), and the loop monitor's alarms
-//!    ([`evenkeel::monitor::Diagnostics`]), each a 0/1 lane.
-//!
-//! Text uses the vendored DejaVu Sans (`assets/`, Bitstream Vera licence),
-//! so no system font library is needed.
+//! The plot of one run (see the module above for its panels).
 
 use std::ops::Range;
 use std::path::Path;
-use std::sync::Once;
 
 use plotters::coord::Shift;
 use plotters::prelude::*;
-use plotters::style::{FontStyle, register_font};
 
-use crate::criteria::{Bound, MetricKey};
+use super::{FONT, PlotError, SIZE, max_limit, reduce, register, span};
+use crate::criteria::MetricKey;
 use crate::outcome::BackendRun;
 use crate::report::{CAUTION, write_atomic};
 use crate::scenario::Scenario;
-
-pub(crate) const FONT: &str = "sans-serif";
-pub(crate) const SIZE: (u32, u32) = (1200, 1500);
-/// Longest series drawn; longer ones are reduced to per-bucket min and max,
-/// which keeps every peak.
-pub(crate) const MAX_POINTS: usize = 2400;
-
-/// A plot that could not be drawn or written.
-#[derive(Debug, thiserror::Error)]
-#[non_exhaustive]
-pub enum PlotError {
-    /// The extension is neither `.svg` nor `.png`.
-    #[error("plot file must end in .svg or .png: {0}")]
-    Extension(String),
-    /// Drawing failed.
-    #[error("drawing the plot failed: {0}")]
-    Draw(String),
-    /// Writing the file failed.
-    #[error("writing {path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The cause.
-        source: std::io::Error,
-    },
-}
-
-pub(crate) fn register() {
-    static ONCE: Once = Once::new();
-    ONCE.call_once(|| {
-        // The font is vendored and valid; a failure would only lose labels.
-        let _ = register_font(
-            FONT,
-            FontStyle::Normal,
-            include_bytes!("../assets/DejaVuSans.ttf"),
-        );
-    });
-}
 
 /// Draws `run` of `scenario` into `path` (`.svg` or `.png`), atomically.
 ///
@@ -111,64 +59,6 @@ pub(crate) fn encode_png(
 ) -> Result<(), image::ImageError> {
     use image::ImageEncoder;
     image::codecs::png::PngEncoder::new(out).write_image(rgb, w, h, image::ColorType::Rgb8)
-}
-
-/// The limit of criterion `metric` with bound `max`, if the scenario has one.
-pub(crate) fn max_limit(scenario: &Scenario, metric: MetricKey) -> Option<f64> {
-    scenario
-        .criteria
-        .iter()
-        .find(|c| c.metric == metric && c.bound == Bound::Max)
-        .map(|c| c.limit)
-}
-
-/// `(t, x)` reduced to at most about `MAX_POINTS` points, keeping each
-/// bucket's minimum and maximum in time order.
-pub(crate) fn reduce(t: &[f64], x: &[f64]) -> Vec<(f64, f64)> {
-    let n = t.len().min(x.len());
-    let bucket = n.div_ceil(MAX_POINTS / 2).max(1);
-    if bucket == 1 {
-        return t.iter().copied().zip(x.iter().copied()).collect();
-    }
-    let mut out = Vec::with_capacity(MAX_POINTS + 2);
-    let mut i = 0;
-    while i < n {
-        let end = (i + bucket).min(n);
-        let (mut lo, mut hi) = (i, i);
-        for k in i..end {
-            if x[k] < x[lo] {
-                lo = k;
-            }
-            if x[k] > x[hi] {
-                hi = k;
-            }
-        }
-        let (a, b) = if lo <= hi { (lo, hi) } else { (hi, lo) };
-        out.push((t[a], x[a]));
-        if b != a {
-            out.push((t[b], x[b]));
-        }
-        i = end;
-    }
-    out
-}
-
-/// Range covering `values` and `extra` with 8 % head room; never empty.
-pub(crate) fn span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
-    let all = values
-        .iter()
-        .flat_map(|v| v.iter())
-        .chain(extra)
-        .copied()
-        .filter(|v| v.is_finite());
-    let (lo, hi) = all.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
-        (lo.min(v), hi.max(v))
-    });
-    if !lo.is_finite() {
-        return -1.0..1.0;
-    }
-    let pad = ((hi - lo) * 0.08).max(1e-6 * hi.abs().max(1.0));
-    (lo - pad)..(hi + pad)
 }
 
 /// Panel 5: one 0/1 lane per signal, lane `i` drawn between `i` and `i + 0.8`.
@@ -398,22 +288,4 @@ fn draw<DB: DrawingBackend>(
             .map_err(e)?;
     }
     Ok(())
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn reduction_keeps_peaks() {
-        let t: Vec<f64> = (0..10_000).map(|i| f64::from(i) * 0.01).collect();
-        let mut x = vec![0.0; 10_000];
-        x[4321] = 7.0;
-        x[8765] = -3.0;
-        let r = reduce(&t, &x);
-        assert!(r.len() <= MAX_POINTS + 2);
-        assert!(r.contains(&(t[4321], 7.0)));
-        assert!(r.contains(&(t[8765], -3.0)));
-        assert!(r.windows(2).all(|w| w[0].0 <= w[1].0));
-    }
 }
