@@ -12,46 +12,23 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::Comparison;
-use crate::plot::{FONT, PlotError, SIZE, encode_png, reduce, register, span};
-use crate::report::{CAUTION, write_atomic};
+use crate::plot::{FONT, Figure, PlotError, SIZE, reduce, span, write_figure};
+use crate::report::CAUTION;
 
 /// Draws `c` into `path` (`.svg` or `.png`), atomically.
 ///
 /// # Errors
 /// [`PlotError`] for a wrong extension, a drawing or a writing failure.
 pub fn plot(c: &Comparison, path: &Path) -> Result<(), PlotError> {
-    register();
-    let ext = path
-        .extension()
-        .map(|e| e.to_string_lossy().to_ascii_lowercase());
-    let io = |source| PlotError::Io {
-        path: path.display().to_string(),
-        source,
-    };
-    let draw_err = |e: String| PlotError::Draw(e);
-    match ext.as_deref() {
-        Some("svg") => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
-                draw(&root, c)?;
-                root.present().map_err(|e| draw_err(e.to_string()))?;
-            }
-            write_atomic(path, svg.as_bytes()).map_err(io)
-        }
-        Some("png") => {
-            let (w, h) = SIZE;
-            let mut rgb = vec![0u8; (w * h * 3) as usize];
-            {
-                let root = BitMapBackend::with_buffer(&mut rgb, SIZE).into_drawing_area();
-                draw(&root, c)?;
-                root.present().map_err(|e| draw_err(e.to_string()))?;
-            }
-            let mut png = Vec::new();
-            encode_png(&mut png, &rgb, w, h).map_err(|e| draw_err(e.to_string()))?;
-            write_atomic(path, &png).map_err(io)
-        }
-        _ => Err(PlotError::Extension(path.display().to_string())),
+    write_figure(&ComparisonFigure(c), path)
+}
+
+/// A comparison, as a page.
+struct ComparisonFigure<'a>(&'a Comparison);
+
+impl Figure for ComparisonFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
+        draw(root, self.0)
     }
 }
 

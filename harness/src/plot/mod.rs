@@ -13,6 +13,7 @@
 //! The sweep envelope ([`crate::sweep::plot_envelope`]) and the comparison
 //! ([`crate::compare::plot`]) are drawn with the same private parts:
 //!
+//! - `file`: a `Figure` (a whole page) written to an SVG or PNG file
 //! - `run`: the plot of one run ([`plot`])
 //! - `series`: series reduced to a drawable size, axis ranges, limits
 //!
@@ -23,10 +24,11 @@ use std::sync::Once;
 
 use plotters::style::{FontStyle, register_font};
 
+mod file;
 mod run;
 mod series;
 
-pub(crate) use run::encode_png;
+pub(crate) use file::{Figure, write_figure};
 pub use run::plot;
 pub(crate) use series::{MAX_POINTS, max_limit, reduce, span};
 
@@ -54,7 +56,7 @@ pub enum PlotError {
 }
 
 /// Registers the vendored font under [`FONT`], once per process.
-pub(crate) fn register() {
+fn register() {
     static ONCE: Once = Once::new();
     ONCE.call_once(|| {
         // The font is vendored and valid; a failure would only lose labels.

@@ -6,10 +6,10 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::{FONT, PlotError, SIZE, max_limit, reduce, register, span};
+use super::{FONT, Figure, PlotError, SIZE, max_limit, reduce, span, write_figure};
 use crate::criteria::MetricKey;
 use crate::outcome::BackendRun;
-use crate::report::{CAUTION, write_atomic};
+use crate::report::CAUTION;
 use crate::scenario::Scenario;
 
 /// Draws `run` of `scenario` into `path` (`.svg` or `.png`), atomically.
@@ -17,48 +17,19 @@ use crate::scenario::Scenario;
 /// # Errors
 /// [`PlotError`] for a wrong extension, a drawing or a writing failure.
 pub fn plot(scenario: &Scenario, run: &BackendRun, path: &Path) -> Result<(), PlotError> {
-    register();
-    let ext = path
-        .extension()
-        .map(|e| e.to_string_lossy().to_ascii_lowercase());
-    let io = |source| PlotError::Io {
-        path: path.display().to_string(),
-        source,
-    };
-    match ext.as_deref() {
-        Some("svg") => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
-                draw(&root, scenario, run)?;
-                root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
-            }
-            write_atomic(path, svg.as_bytes()).map_err(io)
-        }
-        Some("png") => {
-            let (w, h) = SIZE;
-            let mut rgb = vec![0u8; (w * h * 3) as usize];
-            {
-                let root = BitMapBackend::with_buffer(&mut rgb, SIZE).into_drawing_area();
-                draw(&root, scenario, run)?;
-                root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
-            }
-            let mut png = Vec::new();
-            encode_png(&mut png, &rgb, w, h).map_err(|e| PlotError::Draw(e.to_string()))?;
-            write_atomic(path, &png).map_err(io)
-        }
-        _ => Err(PlotError::Extension(path.display().to_string())),
-    }
+    write_figure(&RunFigure { scenario, run }, path)
 }
 
-pub(crate) fn encode_png(
-    out: &mut Vec<u8>,
-    rgb: &[u8],
-    w: u32,
-    h: u32,
-) -> Result<(), image::ImageError> {
-    use image::ImageEncoder;
-    image::codecs::png::PngEncoder::new(out).write_image(rgb, w, h, image::ColorType::Rgb8)
+/// One run of a scenario, as a page.
+struct RunFigure<'a> {
+    scenario: &'a Scenario,
+    run: &'a BackendRun,
+}
+
+impl Figure for RunFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
+        draw(root, self.scenario, self.run)
+    }
 }
 
 /// Panel 5: one 0/1 lane per signal, lane `i` drawn between `i` and `i + 0.8`.

@@ -15,9 +15,9 @@ use super::run::SweepResult;
 use crate::criteria::MetricKey;
 use crate::outcome::BackendRun;
 use crate::plot::{
-    FONT, MAX_POINTS, PlotError, SIZE, encode_png, max_limit, reduce, register, span,
+    FONT, Figure, MAX_POINTS, PlotError, SIZE, max_limit, reduce, span, write_figure,
 };
-use crate::report::{CAUTION, write_atomic};
+use crate::report::CAUTION;
 use crate::scenario::Scenario;
 
 /// Band `(t, lo, hi)` reduced to about `MAX_POINTS / 2` buckets, each
@@ -47,37 +47,24 @@ pub fn plot_envelope(
     worst: Option<&BackendRun>,
     path: &Path,
 ) -> Result<(), PlotError> {
-    register();
-    let ext = path
-        .extension()
-        .map(|e| e.to_string_lossy().to_ascii_lowercase());
-    let io = |source| PlotError::Io {
-        path: path.display().to_string(),
-        source,
+    let figure = EnvelopeFigure {
+        scenario,
+        result,
+        worst,
     };
-    match ext.as_deref() {
-        Some("svg") => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
-                draw(&root, scenario, result, worst)?;
-                root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
-            }
-            write_atomic(path, svg.as_bytes()).map_err(io)
-        }
-        Some("png") => {
-            let (w, h) = SIZE;
-            let mut rgb = vec![0u8; (w * h * 3) as usize];
-            {
-                let root = BitMapBackend::with_buffer(&mut rgb, SIZE).into_drawing_area();
-                draw(&root, scenario, result, worst)?;
-                root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
-            }
-            let mut png = Vec::new();
-            encode_png(&mut png, &rgb, w, h).map_err(|e| PlotError::Draw(e.to_string()))?;
-            write_atomic(path, &png).map_err(io)
-        }
-        _ => Err(PlotError::Extension(path.display().to_string())),
+    write_figure(&figure, path)
+}
+
+/// The envelope of a sweep with its worst variant, as a page.
+struct EnvelopeFigure<'a> {
+    scenario: &'a Scenario,
+    result: &'a SweepResult,
+    worst: Option<&'a BackendRun>,
+}
+
+impl Figure for EnvelopeFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
+        draw(root, self.scenario, self.result, self.worst)
     }
 }
 
