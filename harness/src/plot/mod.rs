@@ -14,6 +14,7 @@
 //! ([`crate::compare::plot`]) are drawn with the same private parts:
 //!
 //! - `file`: a `Figure` (a whole page) written to an SVG or PNG file
+//! - `page`: title and caution footer, time panels, limit lines, legend
 //! - `run`: the plot of one run ([`plot`])
 //! - `series`: series reduced to a drawable size, axis ranges, limits
 //!
@@ -25,15 +26,22 @@ use std::sync::Once;
 use plotters::style::{FontStyle, register_font};
 
 mod file;
+mod page;
 mod run;
 mod series;
 
 pub(crate) use file::{Figure, write_figure};
+pub(crate) use page::{
+    LabelledLine, draw_error, draw_grid, draw_labelled_line, draw_legend_box, draw_limit_lines,
+    draw_page, time_panel,
+};
 pub use run::plot;
-pub(crate) use series::{MAX_POINTS, max_limit, reduce, span};
+pub(crate) use series::{MAX_POINTS, derivative_units, max_limit, mirrored, reduce, span};
 
-pub(crate) const FONT: &str = "sans-serif";
-pub(crate) const SIZE: (u32, u32) = (1200, 1500);
+/// Family name the vendored font is registered under.
+const FONT: &str = "sans-serif";
+/// Page size in pixels, width × height.
+const SIZE: (u32, u32) = (1200, 1500);
 
 /// A plot that could not be drawn or written.
 #[derive(Debug, thiserror::Error)]

@@ -6,10 +6,13 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::{FONT, Figure, PlotError, SIZE, max_limit, reduce, span, write_figure};
+use super::{
+    Figure, LabelledLine, PlotError, derivative_units, draw_grid, draw_labelled_line,
+    draw_legend_box, draw_limit_lines, draw_page, max_limit, mirrored, reduce, span, time_panel,
+    write_figure,
+};
 use crate::criteria::MetricKey;
 use crate::outcome::BackendRun;
-use crate::report::CAUTION;
 use crate::scenario::Scenario;
 
 /// Draws `run` of `scenario` into `path` (`.svg` or `.png`), atomically.
@@ -92,17 +95,17 @@ fn lanes_panel(run: &BackendRun) -> Panel<'static> {
         y_desc: "faults / flags (lanes, 0/1)".to_owned(),
         series,
         limits: Vec::new(),
+        limit_name: "",
         range: -0.3..10.5, // head room for the legend above the lanes
     }
 }
 
-/// A named line: label, points, colour.
-type Series<'a> = (&'a str, Vec<(f64, f64)>, RGBColor);
-
 struct Panel<'a> {
     y_desc: String,
-    series: Vec<Series<'a>>,
-    limits: Vec<(String, f64)>,
+    series: Vec<LabelledLine<'a>>,
+    /// Limit lines, all under one legend entry `limit_name`.
+    limits: Vec<f64>,
+    limit_name: &'static str,
     range: Range<f64>,
 }
 
@@ -111,25 +114,18 @@ fn draw<DB: DrawingBackend>(
     scenario: &Scenario,
     run: &BackendRun,
 ) -> Result<(), PlotError> {
-    let e = |e: DrawingAreaErrorKind<DB::ErrorType>| PlotError::Draw(e.to_string());
     let rec = &run.recording;
     let t = &rec.time_s;
     let t_end = t.last().copied().unwrap_or(1.0).max(rec.dt_s);
     let unit = &scenario.output_unit;
-    let (rate_unit, jerk_unit) = match unit.as_str() {
-        "m/s" => ("m/s²".to_owned(), "m/s³".to_owned()),
-        "rad/s" => ("rad/s²".to_owned(), "rad/s³".to_owned()),
-        "1" => ("1/s".to_owned(), "1/s²".to_owned()),
-        u => (format!("{u}/s"), format!("{u}/s²")),
-    };
+    let (rate_unit, jerk_unit) = derivative_units(unit);
     let (u_lo, u_hi) = (
         scenario.controller.output_min,
         scenario.controller.output_max,
     );
     let jerk = rec.jerk();
-    let accel_limit = max_limit(scenario, MetricKey::PeakAccel);
-    let jerk_limit = max_limit(scenario, MetricKey::PeakJerk);
-    let sym = |l: Option<f64>| l.map(|v| vec![v, -v]).unwrap_or_default();
+    let accel_limits = mirrored(max_limit(scenario, MetricKey::PeakAccel));
+    let jerk_limits = mirrored(max_limit(scenario, MetricKey::PeakJerk));
     let blue = RGBColor(31, 119, 180);
     let orange = RGBColor(230, 120, 20);
     let green = RGBColor(44, 160, 44);
@@ -145,6 +141,7 @@ fn draw<DB: DrawingBackend>(
                 ("reference", reduce(t, &rec.reference), orange),
             ],
             limits: Vec::new(),
+            limit_name: "",
         },
         Panel {
             y_desc: format!("command ({})", scenario.command_unit),
@@ -153,56 +150,32 @@ fn draw<DB: DrawingBackend>(
                 ("applied", reduce(t, &rec.applied), grey),
                 ("command", reduce(t, &rec.command), blue),
             ],
-            limits: vec![
-                ("output limits".into(), u_lo),
-                ("output limits".into(), u_hi),
-            ],
+            limits: vec![u_lo, u_hi],
+            limit_name: "output limits",
         },
         Panel {
             y_desc: format!("acceleration ({rate_unit})"),
-            range: span(&[&rec.accel], &sym(accel_limit)),
+            range: span(&[&rec.accel], &accel_limits),
             series: vec![("acceleration", reduce(t, &rec.accel), green)],
-            limits: sym(accel_limit)
-                .into_iter()
-                .map(|v| ("peak_accel limit (±)".to_owned(), v))
-                .collect(),
+            limits: accel_limits,
+            limit_name: "peak_accel limit (±)",
         },
         Panel {
             y_desc: format!("jerk ({jerk_unit})"),
-            range: span(&[&jerk], &sym(jerk_limit)),
+            range: span(&[&jerk], &jerk_limits),
             series: vec![("jerk", reduce(t, &jerk), green)],
-            limits: sym(jerk_limit)
-                .into_iter()
-                .map(|v| ("peak_jerk limit (±)".to_owned(), v))
-                .collect(),
+            limits: jerk_limits,
+            limit_name: "peak_jerk limit (±)",
         },
         lanes_panel(run),
     ];
 
-    root.fill(&WHITE).map_err(e)?;
-    let (title, rest) = root.split_vertically(50);
-    let (body, footer) = rest.split_vertically(SIZE.1 - 50 - 36);
     let verdict = if run.passed() { "PASS" } else { "FAIL" };
-    title
-        .titled(
-            &format!("{} — backend {} — {verdict}", scenario.name, run.backend),
-            (FONT, 24),
-        )
-        .map_err(e)?;
-    footer
-        .draw_text(CAUTION, &(FONT, 15).into_font().color(&BLACK), (20, 8))
-        .map_err(e)?;
-
+    let title = format!("{} — backend {} — {verdict}", scenario.name, run.backend);
+    let body = draw_page(root, &title, 24)?;
     let areas = body.split_evenly((panels.len(), 1));
     for (area, panel) in areas.iter().zip(panels.iter_mut()) {
-        let mut chart = ChartBuilder::on(area)
-            .margin_left(12)
-            .margin_right(24)
-            .margin_top(8)
-            .x_label_area_size(40)
-            .y_label_area_size(80)
-            .build_cartesian_2d(0.0..t_end, panel.range.clone())
-            .map_err(e)?;
+        let mut chart = time_panel(area, t_end, panel.range.clone(), 80)?;
         let height = panel.range.end - panel.range.start;
         // Decimals for about three significant digits over the range.
         #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
@@ -212,51 +185,13 @@ fn draw<DB: DrawingBackend>(
             let v = if v.abs() < 1e-9 * height { 0.0 } else { *v };
             format!("{v:.decimals$}")
         };
-        chart
-            .configure_mesh()
-            .y_label_formatter(&y_label)
-            .x_desc("time (s)")
-            .y_desc(panel.y_desc.as_str())
-            .label_style((FONT, 14))
-            .axis_desc_style((FONT, 16))
-            .light_line_style(RGBColor(235, 235, 235))
-            .draw()
-            .map_err(e)?;
+        draw_grid(&mut chart, &panel.y_desc, Some(&y_label))?;
         let red = RGBColor(200, 30, 30);
-        for (i, (name, value)) in panel.limits.iter().enumerate() {
-            let line = chart
-                .draw_series(DashedLineSeries::new(
-                    [(0.0, *value), (t_end, *value)],
-                    8,
-                    5,
-                    red.stroke_width(2),
-                ))
-                .map_err(e)?;
-            // One legend entry for the pair of limit lines.
-            if i == 0 {
-                line.label(name.clone()).legend(move |(x, y)| {
-                    PathElement::new([(x, y), (x + 20, y)], red.stroke_width(2))
-                });
-            }
+        draw_limit_lines(&mut chart, t_end, &panel.limits, panel.limit_name, red)?;
+        for (name, points, colour) in panel.series.drain(..) {
+            draw_labelled_line(&mut chart, points, name, colour)?;
         }
-        for (name, points, color) in panel.series.drain(..) {
-            let c = color;
-            chart
-                // Width 1: wider polylines get miter spikes at the sharp
-                // corners of noisy signals in the bitmap back end.
-                .draw_series(LineSeries::new(points, c.stroke_width(1)))
-                .map_err(e)?
-                .label(name)
-                .legend(move |(x, y)| PathElement::new([(x, y), (x + 20, y)], c.stroke_width(2)));
-        }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .label_font((FONT, 14))
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(e)?;
+        draw_legend_box(&mut chart)?;
     }
     Ok(())
 }

@@ -19,6 +19,21 @@ pub(crate) fn max_limit(scenario: &Scenario, metric: MetricKey) -> Option<f64> {
         .map(|c| c.limit)
 }
 
+/// `limit` and its negative (the band `±limit`); empty without a limit.
+pub(crate) fn mirrored(limit: Option<f64>) -> Vec<f64> {
+    limit.map(|v| vec![v, -v]).unwrap_or_default()
+}
+
+/// Units of the first and second time derivative of a signal in `unit`
+/// (`m/s` → `m/s²`, `m/s³`; otherwise `unit/s`, `unit/s²`).
+pub(crate) fn derivative_units(unit: &str) -> (String, String) {
+    match unit {
+        "m/s" => ("m/s²".to_owned(), "m/s³".to_owned()),
+        "rad/s" => ("rad/s²".to_owned(), "rad/s³".to_owned()),
+        u => (format!("{u}/s"), format!("{u}/s²")),
+    }
+}
+
 /// `(t, x)` reduced to at most about `MAX_POINTS` points, keeping each
 /// bucket's minimum and maximum in time order.
 pub(crate) fn reduce(t: &[f64], x: &[f64]) -> Vec<(f64, f64)> {
@@ -71,6 +86,29 @@ pub(crate) fn span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn derivative_units_of_common_signals() {
+        let table = [
+            ("m/s", ("m/s²", "m/s³")),
+            ("rad/s", ("rad/s²", "rad/s³")),
+            ("1", ("1/s", "1/s²")),
+            ("kPa", ("kPa/s", "kPa/s²")),
+        ];
+        for (unit, (rate, jerk)) in table {
+            assert_eq!(
+                derivative_units(unit),
+                (rate.to_owned(), jerk.to_owned()),
+                "{unit}"
+            );
+        }
+    }
+
+    #[test]
+    fn mirrored_limits() {
+        assert_eq!(mirrored(Some(2.5)), [2.5, -2.5]);
+        assert!(mirrored(None).is_empty());
+    }
 
     #[test]
     fn reduction_keeps_peaks() {
