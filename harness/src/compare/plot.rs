@@ -12,57 +12,32 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::Comparison;
-use crate::plot::{FONT, PlotError, SIZE, encode_png, reduce, register, span};
-use crate::report::{CAUTION, write_atomic};
+use crate::plot::{
+    Figure, LabelledLine, PlotError, draw_grid, draw_labelled_line, draw_legend_box,
+    draw_limit_lines, draw_page, reduce, span, time_panel, write_figure,
+};
 
 /// Draws `c` into `path` (`.svg` or `.png`), atomically.
 ///
 /// # Errors
 /// [`PlotError`] for a wrong extension, a drawing or a writing failure.
 pub fn plot(c: &Comparison, path: &Path) -> Result<(), PlotError> {
-    register();
-    let ext = path
-        .extension()
-        .map(|e| e.to_string_lossy().to_ascii_lowercase());
-    let io = |source| PlotError::Io {
-        path: path.display().to_string(),
-        source,
-    };
-    let draw_err = |e: String| PlotError::Draw(e);
-    match ext.as_deref() {
-        Some("svg") => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
-                draw(&root, c)?;
-                root.present().map_err(|e| draw_err(e.to_string()))?;
-            }
-            write_atomic(path, svg.as_bytes()).map_err(io)
-        }
-        Some("png") => {
-            let (w, h) = SIZE;
-            let mut rgb = vec![0u8; (w * h * 3) as usize];
-            {
-                let root = BitMapBackend::with_buffer(&mut rgb, SIZE).into_drawing_area();
-                draw(&root, c)?;
-                root.present().map_err(|e| draw_err(e.to_string()))?;
-            }
-            let mut png = Vec::new();
-            encode_png(&mut png, &rgb, w, h).map_err(|e| draw_err(e.to_string()))?;
-            write_atomic(path, &png).map_err(io)
-        }
-        _ => Err(PlotError::Extension(path.display().to_string())),
-    }
+    write_figure(&ComparisonFigure(c), path)
 }
 
-/// A named line: label, points, colour.
-type Series<'a> = (&'a str, Vec<(f64, f64)>, RGBColor);
+/// A comparison, as a page.
+struct ComparisonFigure<'a>(&'a Comparison);
+
+impl Figure for ComparisonFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
+        draw(root, self.0)
+    }
+}
 
 fn draw<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     c: &Comparison,
 ) -> Result<(), PlotError> {
-    let e = |e: DrawingAreaErrorKind<DB::ErrorType>| PlotError::Draw(e.to_string());
     let (a, b) = (&c.fixed, &c.float);
     let t = &a.time_s;
     let t_end = t.last().copied().unwrap_or(1.0).max(a.dt_s);
@@ -87,7 +62,7 @@ fn draw<DB: DrawingBackend>(
     let grey = RGBColor(150, 150, 150);
     let red = RGBColor(200, 30, 30);
     // (y label, range, series, symmetric limit)
-    let mut panels: Vec<(String, std::ops::Range<f64>, Vec<Series<'_>>, f64)> = vec![
+    let mut panels: Vec<(String, std::ops::Range<f64>, Vec<LabelledLine<'_>>, f64)> = vec![
         (
             format!("output ({yu})"),
             span(&[&a.reference, &a.output, &b.output], &[]),
@@ -121,29 +96,12 @@ fn draw<DB: DrawingBackend>(
         ),
     ];
 
-    root.fill(&WHITE).map_err(e)?;
-    let (title, rest) = root.split_vertically(50);
-    let (body, footer) = rest.split_vertically(SIZE.1 - 50 - 36);
     let verdict = if c.passed() { "PASS" } else { "FAIL" };
-    title
-        .titled(
-            &format!("{} — fixed Q16.16 against f64 — {verdict}", c.scenario.name),
-            (FONT, 24),
-        )
-        .map_err(e)?;
-    footer
-        .draw_text(CAUTION, &(FONT, 15).into_font().color(&BLACK), (20, 8))
-        .map_err(e)?;
+    let title = format!("{} — fixed Q16.16 against f64 — {verdict}", c.scenario.name);
+    let body = draw_page(root, &title, 24)?;
     let areas = body.split_evenly((panels.len(), 1));
     for (area, (y_desc, range, series, lim)) in areas.iter().zip(panels.iter_mut()) {
-        let mut chart = ChartBuilder::on(area)
-            .margin_left(12)
-            .margin_right(24)
-            .margin_top(8)
-            .x_label_area_size(40)
-            .y_label_area_size(90)
-            .build_cartesian_2d(0.0..t_end, range.clone())
-            .map_err(e)?;
+        let mut chart = time_panel(area, t_end, range.clone(), 90)?;
         let height = range.end - range.start;
         let y_label = move |v: &f64| {
             let v = if v.abs() < 1e-9 * height { 0.0 } else { *v };
@@ -153,50 +111,14 @@ fn draw<DB: DrawingBackend>(
                 format!("{v:.3}")
             }
         };
-        chart
-            .configure_mesh()
-            .y_label_formatter(&y_label)
-            .x_desc("time (s)")
-            .y_desc(y_desc.as_str())
-            .label_style((FONT, 14))
-            .axis_desc_style((FONT, 16))
-            .light_line_style(RGBColor(235, 235, 235))
-            .draw()
-            .map_err(e)?;
+        draw_grid(&mut chart, y_desc, Some(&y_label))?;
         if *lim > 0.0 {
-            for (i, v) in [*lim, -*lim].into_iter().enumerate() {
-                let line = chart
-                    .draw_series(DashedLineSeries::new(
-                        [(0.0, v), (t_end, v)],
-                        8,
-                        5,
-                        red.stroke_width(2),
-                    ))
-                    .map_err(e)?;
-                if i == 0 {
-                    line.label("tolerance (±)").legend(move |(x, y)| {
-                        PathElement::new([(x, y), (x + 20, y)], red.stroke_width(2))
-                    });
-                }
-            }
+            draw_limit_lines(&mut chart, t_end, &[*lim, -*lim], "tolerance (±)", red)?;
         }
-        for (name, points, color) in series.drain(..) {
-            chart
-                .draw_series(LineSeries::new(points, color.stroke_width(1)))
-                .map_err(e)?
-                .label(name)
-                .legend(move |(x, y)| {
-                    PathElement::new([(x, y), (x + 20, y)], color.stroke_width(2))
-                });
+        for (name, points, colour) in series.drain(..) {
+            draw_labelled_line(&mut chart, points, name, colour)?;
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .label_font((FONT, 14))
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(e)?;
+        draw_legend_box(&mut chart)?;
     }
     Ok(())
 }

@@ -15,9 +15,10 @@ use super::run::SweepResult;
 use crate::criteria::MetricKey;
 use crate::outcome::BackendRun;
 use crate::plot::{
-    FONT, MAX_POINTS, PlotError, SIZE, encode_png, max_limit, reduce, register, span,
+    Figure, MAX_POINTS, PlotError, derivative_units, draw_error, draw_grid, draw_labelled_line,
+    draw_legend_box, draw_limit_lines, draw_page, max_limit, mirrored, reduce, span, time_panel,
+    write_figure,
 };
-use crate::report::{CAUTION, write_atomic};
 use crate::scenario::Scenario;
 
 /// Band `(t, lo, hi)` reduced to about `MAX_POINTS / 2` buckets, each
@@ -47,37 +48,24 @@ pub fn plot_envelope(
     worst: Option<&BackendRun>,
     path: &Path,
 ) -> Result<(), PlotError> {
-    register();
-    let ext = path
-        .extension()
-        .map(|e| e.to_string_lossy().to_ascii_lowercase());
-    let io = |source| PlotError::Io {
-        path: path.display().to_string(),
-        source,
+    let figure = EnvelopeFigure {
+        scenario,
+        result,
+        worst,
     };
-    match ext.as_deref() {
-        Some("svg") => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
-                draw(&root, scenario, result, worst)?;
-                root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
-            }
-            write_atomic(path, svg.as_bytes()).map_err(io)
-        }
-        Some("png") => {
-            let (w, h) = SIZE;
-            let mut rgb = vec![0u8; (w * h * 3) as usize];
-            {
-                let root = BitMapBackend::with_buffer(&mut rgb, SIZE).into_drawing_area();
-                draw(&root, scenario, result, worst)?;
-                root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
-            }
-            let mut png = Vec::new();
-            encode_png(&mut png, &rgb, w, h).map_err(|e| PlotError::Draw(e.to_string()))?;
-            write_atomic(path, &png).map_err(io)
-        }
-        _ => Err(PlotError::Extension(path.display().to_string())),
+    write_figure(&figure, path)
+}
+
+/// The envelope of a sweep with its worst variant, as a page.
+struct EnvelopeFigure<'a> {
+    scenario: &'a Scenario,
+    result: &'a SweepResult,
+    worst: Option<&'a BackendRun>,
+}
+
+impl Figure for EnvelopeFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
+        draw(root, self.scenario, self.result, self.worst)
     }
 }
 
@@ -96,7 +84,6 @@ fn draw<DB: DrawingBackend>(
     result: &SweepResult,
     worst: Option<&BackendRun>,
 ) -> Result<(), PlotError> {
-    let e = |e: DrawingAreaErrorKind<DB::ErrorType>| PlotError::Draw(e.to_string());
     let env = &result.envelope;
     #[allow(clippy::cast_precision_loss)]
     let t: Vec<f64> = (0..env.reference.len())
@@ -104,12 +91,7 @@ fn draw<DB: DrawingBackend>(
         .collect();
     let t_end = t.last().copied().unwrap_or(1.0).max(env.dt_s);
     let unit = &scenario.output_unit;
-    let (rate_unit, jerk_unit) = match unit.as_str() {
-        "m/s" => ("m/s²".to_owned(), "m/s³".to_owned()),
-        "rad/s" => ("rad/s²".to_owned(), "rad/s³".to_owned()),
-        u => (format!("{u}/s"), format!("{u}/s²")),
-    };
-    let sym = |l: Option<f64>| l.map(|v| vec![v, -v]).unwrap_or_default();
+    let (rate_unit, jerk_unit) = derivative_units(unit);
     let rec = worst.map(|w| &w.recording);
     let mut panels = [
         Panel {
@@ -136,7 +118,7 @@ fn draw<DB: DrawingBackend>(
             band: &env.accel,
             worst: rec.map(|r| r.accel.clone()),
             reference: None,
-            limits: sym(max_limit(scenario, MetricKey::PeakAccel)),
+            limits: mirrored(max_limit(scenario, MetricKey::PeakAccel)),
             limit_name: "peak_accel limit (±)",
         },
         Panel {
@@ -144,32 +126,22 @@ fn draw<DB: DrawingBackend>(
             band: &env.jerk,
             worst: rec.map(crate::sim::Recording::jerk),
             reference: None,
-            limits: sym(max_limit(scenario, MetricKey::PeakJerk)),
+            limits: mirrored(max_limit(scenario, MetricKey::PeakJerk)),
             limit_name: "peak_jerk limit (±)",
         },
     ];
 
-    root.fill(&WHITE).map_err(e)?;
-    let (title, rest) = root.split_vertically(50);
-    let (body, footer) = rest.split_vertically(SIZE.1 - 50 - 36);
     let summary = super::summarise(result);
-    title
-        .titled(
-            &format!(
-                "{} — {} sweep, {} variants, backend {} — {} of {} pass",
-                result.scenario,
-                result.method,
-                result.variants.len(),
-                result.backend,
-                summary.passed,
-                summary.total
-            ),
-            (FONT, 22),
-        )
-        .map_err(e)?;
-    footer
-        .draw_text(CAUTION, &(FONT, 15).into_font().color(&BLACK), (20, 8))
-        .map_err(e)?;
+    let title = format!(
+        "{} — {} sweep, {} variants, backend {} — {} of {} pass",
+        result.scenario,
+        result.method,
+        result.variants.len(),
+        result.backend,
+        summary.passed,
+        summary.total
+    );
+    let body = draw_page(root, &title, 22)?;
     let worst_label = summary.worst_index.map_or_else(
         || "worst variant".to_owned(),
         |i| format!("worst variant #{i}"),
@@ -185,23 +157,8 @@ fn draw<DB: DrawingBackend>(
             &[&panel.band[0], &panel.band[1], &worst_series, reference],
             &panel.limits,
         );
-        let mut chart = ChartBuilder::on(area)
-            .margin_left(12)
-            .margin_right(24)
-            .margin_top(8)
-            .x_label_area_size(40)
-            .y_label_area_size(80)
-            .build_cartesian_2d(0.0..t_end, range)
-            .map_err(e)?;
-        chart
-            .configure_mesh()
-            .x_desc("time (s)")
-            .y_desc(panel.y_desc.as_str())
-            .label_style((FONT, 14))
-            .axis_desc_style((FONT, 16))
-            .light_line_style(RGBColor(235, 235, 235))
-            .draw()
-            .map_err(e)?;
+        let mut chart = time_panel(area, t_end, range, 80)?;
+        draw_grid(&mut chart, &panel.y_desc, None)?;
         let band = reduce_band(&t, &panel.band[0], &panel.band[1]);
         let mut outline: Vec<(f64, f64)> = band.iter().map(|&(x, _, h)| (x, h)).collect();
         outline.extend(band.iter().rev().map(|&(x, l, _)| (x, l)));
@@ -210,56 +167,25 @@ fn draw<DB: DrawingBackend>(
                 outline,
                 band_colour.mix(0.3).filled(),
             )))
-            .map_err(e)?
+            .map_err(draw_error)?
             .label("min/max over variants")
             .legend(move |(x, y)| {
                 Rectangle::new([(x, y - 5), (x + 20, y + 5)], band_colour.mix(0.3).filled())
             });
-        for (i, v) in panel.limits.iter().enumerate() {
-            let line = chart
-                .draw_series(DashedLineSeries::new(
-                    [(0.0, *v), (t_end, *v)],
-                    8,
-                    5,
-                    RGBColor(90, 90, 90).stroke_width(2),
-                ))
-                .map_err(e)?;
-            if i == 0 {
-                line.label(panel.limit_name).legend(|(x, y)| {
-                    PathElement::new([(x, y), (x + 20, y)], RGBColor(90, 90, 90).stroke_width(2))
-                });
-            }
-        }
+        draw_limit_lines(
+            &mut chart,
+            t_end,
+            &panel.limits,
+            panel.limit_name,
+            RGBColor(90, 90, 90),
+        )?;
         if !reference.is_empty() {
-            chart
-                .draw_series(LineSeries::new(
-                    reduce(&t, reference),
-                    orange.stroke_width(1),
-                ))
-                .map_err(e)?
-                .label("reference")
-                .legend(move |(x, y)| {
-                    PathElement::new([(x, y), (x + 20, y)], orange.stroke_width(2))
-                });
+            draw_labelled_line(&mut chart, reduce(&t, reference), "reference", orange)?;
         }
         if !worst_series.is_empty() {
-            chart
-                .draw_series(LineSeries::new(
-                    reduce(&t, &worst_series),
-                    red.stroke_width(1),
-                ))
-                .map_err(e)?
-                .label(worst_label.clone())
-                .legend(move |(x, y)| PathElement::new([(x, y), (x + 20, y)], red.stroke_width(2)));
+            draw_labelled_line(&mut chart, reduce(&t, &worst_series), &worst_label, red)?;
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .label_font((FONT, 14))
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(e)?;
+        draw_legend_box(&mut chart)?;
     }
     Ok(())
 }

@@ -1,0 +1,77 @@
+//! Plots of one run: SVG or PNG (by file extension), five stacked panels
+//! sharing the time axis, the caution in the footer.
+//!
+//! 1. reference, measurement and true output;
+//! 2. command with its output limits;
+//! 3. plant rate (acceleration) with the `peak_accel` limit;
+//! 4. jerk with the `peak_jerk` limit;
+//! 5. fault and diagnostic lanes: injected faults, the controller's fault
+//!    flags (`non_finite`, `measurement_range`, `setpoint_range`,
+//!    `downstream`), and the loop monitor's alarms
+//!    ([`evenkeel::monitor::Diagnostics`]), each a 0/1 lane.
+//!
+//! The sweep envelope ([`crate::sweep::plot_envelope`]) and the comparison
+//! ([`crate::compare::plot`]) are drawn with the same private parts:
+//!
+//! - `file`: a `Figure` (a whole page) written to an SVG or PNG file
+//! - `page`: title and caution footer, time panels, limit lines, legend
+//! - `run`: the plot of one run ([`plot`])
+//! - `series`: series reduced to a drawable size, axis ranges, limits
+//!
+//! Text uses the vendored DejaVu Sans (`assets/`, Bitstream Vera licence),
+//! so no system font library is needed.
+
+use std::sync::Once;
+
+use plotters::style::{FontStyle, register_font};
+
+mod file;
+mod page;
+mod run;
+mod series;
+
+pub(crate) use file::{Figure, write_figure};
+pub(crate) use page::{
+    LabelledLine, draw_error, draw_grid, draw_labelled_line, draw_legend_box, draw_limit_lines,
+    draw_page, time_panel,
+};
+pub use run::plot;
+pub(crate) use series::{MAX_POINTS, derivative_units, max_limit, mirrored, reduce, span};
+
+/// Family name the vendored font is registered under.
+const FONT: &str = "sans-serif";
+/// Page size in pixels, width × height.
+const SIZE: (u32, u32) = (1200, 1500);
+
+/// A plot that could not be drawn or written.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum PlotError {
+    /// The extension is neither `.svg` nor `.png`.
+    #[error("plot file must end in .svg or .png: {0}")]
+    Extension(String),
+    /// Drawing failed.
+    #[error("drawing the plot failed: {0}")]
+    Draw(String),
+    /// Writing the file failed.
+    #[error("writing {path}: {source}")]
+    Io {
+        /// The file.
+        path: String,
+        /// The cause.
+        source: std::io::Error,
+    },
+}
+
+/// Registers the vendored font under [`FONT`], once per process.
+fn register() {
+    static ONCE: Once = Once::new();
+    ONCE.call_once(|| {
+        // The font is vendored and valid; a failure would only lose labels.
+        let _ = register_font(
+            FONT,
+            FontStyle::Normal,
+            include_bytes!("../../assets/DejaVuSans.ttf"),
+        );
+    });
+}

@@ -1,0 +1,125 @@
+//! What the plots draw: series reduced to a drawable size, axis ranges and
+//! the limits taken from a scenario's criteria.
+
+use std::ops::Range;
+
+use crate::criteria::{Bound, MetricKey};
+use crate::scenario::Scenario;
+
+/// Longest series drawn; longer ones are reduced to per-bucket min and max,
+/// which keeps every peak.
+pub(crate) const MAX_POINTS: usize = 2400;
+
+/// The limit of criterion `metric` with bound `max`, if the scenario has one.
+pub(crate) fn max_limit(scenario: &Scenario, metric: MetricKey) -> Option<f64> {
+    scenario
+        .criteria
+        .iter()
+        .find(|c| c.metric == metric && c.bound == Bound::Max)
+        .map(|c| c.limit)
+}
+
+/// `limit` and its negative (the band `±limit`); empty without a limit.
+pub(crate) fn mirrored(limit: Option<f64>) -> Vec<f64> {
+    limit.map(|v| vec![v, -v]).unwrap_or_default()
+}
+
+/// Units of the first and second time derivative of a signal in `unit`
+/// (`m/s` → `m/s²`, `m/s³`; otherwise `unit/s`, `unit/s²`).
+pub(crate) fn derivative_units(unit: &str) -> (String, String) {
+    match unit {
+        "m/s" => ("m/s²".to_owned(), "m/s³".to_owned()),
+        "rad/s" => ("rad/s²".to_owned(), "rad/s³".to_owned()),
+        u => (format!("{u}/s"), format!("{u}/s²")),
+    }
+}
+
+/// `(t, x)` reduced to at most about `MAX_POINTS` points, keeping each
+/// bucket's minimum and maximum in time order.
+pub(crate) fn reduce(t: &[f64], x: &[f64]) -> Vec<(f64, f64)> {
+    let n = t.len().min(x.len());
+    let bucket = n.div_ceil(MAX_POINTS / 2).max(1);
+    if bucket == 1 {
+        return t.iter().copied().zip(x.iter().copied()).collect();
+    }
+    let mut out = Vec::with_capacity(MAX_POINTS + 2);
+    let mut i = 0;
+    while i < n {
+        let end = (i + bucket).min(n);
+        let (mut lo, mut hi) = (i, i);
+        for k in i..end {
+            if x[k] < x[lo] {
+                lo = k;
+            }
+            if x[k] > x[hi] {
+                hi = k;
+            }
+        }
+        let (a, b) = if lo <= hi { (lo, hi) } else { (hi, lo) };
+        out.push((t[a], x[a]));
+        if b != a {
+            out.push((t[b], x[b]));
+        }
+        i = end;
+    }
+    out
+}
+
+/// Range covering `values` and `extra` with 8 % head room; never empty.
+pub(crate) fn span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
+    let all = values
+        .iter()
+        .flat_map(|v| v.iter())
+        .chain(extra)
+        .copied()
+        .filter(|v| v.is_finite());
+    let (lo, hi) = all.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
+        (lo.min(v), hi.max(v))
+    });
+    if !lo.is_finite() {
+        return -1.0..1.0;
+    }
+    let pad = ((hi - lo) * 0.08).max(1e-6 * hi.abs().max(1.0));
+    (lo - pad)..(hi + pad)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn derivative_units_of_common_signals() {
+        let table = [
+            ("m/s", ("m/s²", "m/s³")),
+            ("rad/s", ("rad/s²", "rad/s³")),
+            ("1", ("1/s", "1/s²")),
+            ("kPa", ("kPa/s", "kPa/s²")),
+        ];
+        for (unit, (rate, jerk)) in table {
+            assert_eq!(
+                derivative_units(unit),
+                (rate.to_owned(), jerk.to_owned()),
+                "{unit}"
+            );
+        }
+    }
+
+    #[test]
+    fn mirrored_limits() {
+        assert_eq!(mirrored(Some(2.5)), [2.5, -2.5]);
+        assert!(mirrored(None).is_empty());
+    }
+
+    #[test]
+    fn reduction_keeps_peaks() {
+        let t: Vec<f64> = (0..10_000).map(|i| f64::from(i) * 0.01).collect();
+        let mut x = vec![0.0; 10_000];
+        x[4321] = 7.0;
+        x[8765] = -3.0;
+        let r = reduce(&t, &x);
+        assert!(r.len() <= MAX_POINTS + 2);
+        assert!(r.contains(&(t[4321], 7.0)));
+        assert!(r.contains(&(t[8765], -3.0)));
+        assert!(r.windows(2).all(|w| w[0].0 <= w[1].0));
+    }
+}
