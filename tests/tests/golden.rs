@@ -147,6 +147,27 @@ fn damaged_files_are_refused() {
         Ok(s) => s.steps().any(|step| step.is_err()),
     });
     assert!(failed);
+    // After the first error an iterator ends instead of reading on from a
+    // position it no longer trusts.
+    for scenario in file.scenarios() {
+        let Ok(scenario) = scenario else { continue };
+        let mut steps = scenario.steps();
+        if steps.by_ref().any(|step| step.is_err()) {
+            assert!(steps.next().is_none());
+        }
+    }
+    let mut scenarios = file.scenarios();
+    if scenarios.by_ref().any(|s| s.is_err()) {
+        assert!(scenarios.next().is_none());
+    }
+    // Bytes after the last scenario, under a valid checksum.
+    let mut extra = good.clone();
+    extra.push(0);
+    let sum = vectors::fnv1a(&extra[format::HEADER_LEN..]);
+    extra[6..10].copy_from_slice(&sum.to_le_bytes());
+    let file = File::open(&extra).expect("checksum matches");
+    let last = file.scenarios().last();
+    assert_eq!(last.and_then(Result::err), Some(FormatError::Trailing));
 }
 
 #[test]

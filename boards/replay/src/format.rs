@@ -211,8 +211,11 @@ impl<'a> File<'a> {
     #[must_use]
     pub fn scenarios(&self) -> Scenarios<'a> {
         Scenarios {
-            cursor: Cursor::new(self.body),
-            left: self.scenario_count,
+            section: Section::new(
+                self.body,
+                u16::from(self.scenario_count),
+                FormatError::Trailing,
+            ),
         }
     }
 }
@@ -303,8 +306,7 @@ impl<'a> Scenario<'a> {
     #[must_use]
     pub fn steps(&self) -> Steps<'a> {
         Steps {
-            cursor: Cursor::new(self.steps),
-            left: self.step_count,
+            section: Section::new(self.steps, self.step_count, FormatError::StepSection),
             state: Step::default(),
         }
     }
@@ -313,13 +315,57 @@ impl<'a> Scenario<'a> {
 /// Iterator over the scenarios of a [`File`].
 #[derive(Clone, Copy, Debug)]
 pub struct Scenarios<'a> {
+    section: Section<'a>,
+}
+
+/// A counted run of records (the scenarios of a file, the steps of a
+/// scenario): `left` more to read from `cursor`. Bytes after the last record
+/// are the error `leftover`; after any error the section is closed, so the
+/// iterator over it ends.
+#[derive(Clone, Copy, Debug)]
+struct Section<'a> {
     cursor: Cursor<'a>,
-    left: u8,
+    left: u16,
+    leftover: FormatError,
+}
+
+impl<'a> Section<'a> {
+    const fn new(bytes: &'a [u8], count: u16, leftover: FormatError) -> Self {
+        Self {
+            cursor: Cursor::new(bytes),
+            left: count,
+            leftover,
+        }
+    }
+
+    /// The next record, decoded by `read`; `None` at a clean end.
+    fn next_with<T>(
+        &mut self,
+        read: impl FnOnce(&mut Cursor<'a>) -> Result<T, FormatError>,
+    ) -> Option<Result<T, FormatError>> {
+        if self.left == 0 {
+            if self.cursor.remaining() != 0 {
+                self.close();
+                return Some(Err(self.leftover));
+            }
+            return None;
+        }
+        self.left -= 1;
+        let item = read(&mut self.cursor);
+        if item.is_err() {
+            self.close();
+        }
+        Some(item)
+    }
+
+    fn close(&mut self) {
+        self.left = 0;
+        self.cursor = Cursor::new(&[]);
+    }
 }
 
 impl<'a> Scenarios<'a> {
-    fn read(&mut self) -> Result<Scenario<'a>, FormatError> {
-        let c = &mut self.cursor;
+    fn read(c: &mut Cursor<'a>) -> Result<Scenario<'a>, FormatError> {
         let name_len = c.u8()?;
         let name = c.take(usize::from(name_len))?;
         let flags = c.u8()?;
@@ -369,20 +415,7 @@ impl<'a> Iterator for Scenarios<'a> {
     type Item = Result<Scenario<'a>, FormatError>;
 
     fn next(&mut self) -> Option<Self::Item> {
-        if self.left == 0 {
-            if self.cursor.remaining() != 0 {
-                self.cursor = Cursor::new(&[]);
-                return Some(Err(FormatError::Trailing));
-            }
-            return None;
-        }
-        self.left -= 1;
-        let item = self.read();
-        if item.is_err() {
-            self.left = 0;
-            self.cursor = Cursor::new(&[]);
-        }
-        Some(item)
+        self.section.next_with(Self::read)
     }
 }
 
@@ -434,15 +467,13 @@ pub struct Step {
 /// Iterator over the steps of a [`Scenario`].
 #[derive(Clone, Copy, Debug)]
 pub struct Steps<'a> {
-    cursor: Cursor<'a>,
-    left: u16,
+    section: Section<'a>,
     state: Step,
 }
 
 impl Steps<'_> {
-    fn read(&mut self) -> Result<Step, FormatError> {
-        let c = &mut self.cursor;
-        let prev = self.state;
+    /// The step after `prev`: the format stores most fields as deltas.
+    fn read(c: &mut Cursor<'_>, prev: Step) -> Result<Step, FormatError> {
         let head = c.u8()?;
         if head & 0x80 != 0 {
             return Err(FormatError::Op(head));
@@ -481,7 +512,7 @@ impl Steps<'_> {
         } else {
             prev.status
         };
-        let step = Step {
+        Ok(Step {
             op,
             setpoint,
             measurement,
@@ -489,9 +520,7 @@ impl Steps<'_> {
             applied,
             command,
             status,
-        };
-        self.state = step;
-        Ok(step)
+        })
     }
 }
 
@@ -499,19 +528,11 @@ impl Iterator for Steps<'_> {
     type Item = Result<Step, FormatError>;
 
     fn next(&mut self) -> Option<Self::Item> {
-        if self.left == 0 {
-            if self.cursor.remaining() != 0 {
-                self.cursor = Cursor::new(&[]);
-                return Some(Err(FormatError::StepSection));
-            }
-            return None;
+        let prev = self.state;
+        let item = self.section.next_with(|c| Self::read(c, prev));
+        if let Some(Ok(step)) = item {
+            self.state = step;
         }
-        self.left -= 1;
-        let item = self.read();
-        if item.is_err() {
-            self.left = 0;
-            self.cursor = Cursor::new(&[]);
-        }
-        Some(item)
+        item
     }
 }
