@@ -6,17 +6,18 @@
 //! or usage (unreadable or invalid scenario, settings a backend refuses,
 //! a report that cannot be written).
 
-use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 use anyhow::Context;
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use evenkeel_harness::report::{json, junit, per_run_path, trace_csv, write_atomic};
+use evenkeel_harness::report::{json, junit, trace_csv};
 use evenkeel_harness::{BackendKind, Outcome, Scenario, plot};
 
 #[path = "evenkeel/compare.rs"]
 mod compare;
+#[path = "evenkeel/output.rs"]
+mod output;
 #[path = "evenkeel/robust.rs"]
 mod robust;
 
@@ -124,10 +125,10 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
     let reports = [&args.json, &args.junit, &args.trace, &args.plot];
     for path in reports.into_iter().flatten() {
         if path.as_os_str() != "-" {
-            report_dir_exists(path)?;
+            output::report_dir_exists(path)?;
         }
     }
-    plot_extension_ok(args.plot.as_deref())?;
+    output::plot_extension_ok(args.plot.as_deref())?;
     let scenarios = load_scenarios(&args.scenarios)?;
     let backends = args.backend.kinds();
     let mut outcomes = Vec::with_capacity(scenarios.len());
@@ -138,55 +139,30 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
         outcomes.push(outcome);
     }
 
-    // The table goes to stderr when stdout carries the JSON.
-    let json_to_stdout = args.json.as_deref() == Some(Path::new("-"));
     let tables: String = outcomes.iter().map(ToString::to_string).collect();
-    if json_to_stdout {
-        eprint!("{tables}");
-    } else {
-        print!("{tables}");
-    }
-
-    if let Some(path) = &args.json {
-        let text = serde_json::to_string_pretty(&json(&outcomes))? + "\n";
-        if json_to_stdout {
-            std::io::stdout().write_all(text.as_bytes())?;
-        } else {
-            write(path, text.as_bytes())?;
-        }
-    }
-    if let Some(path) = &args.junit {
-        write(path, junit(&outcomes).as_bytes())?;
-    }
-    let only = outcomes.iter().map(|o| o.runs.len()).sum::<usize>() == 1;
+    output::summary(
+        &tables,
+        args.json.as_deref(),
+        || json(&outcomes),
+        args.junit.as_deref(),
+        || junit(&outcomes),
+    )?;
+    let files = output::PerRun {
+        trace: args.trace.as_deref(),
+        plot: args.plot.as_deref(),
+        only: outcomes.iter().map(|o| o.runs.len()).sum::<usize>() == 1,
+    };
     for o in &outcomes {
         for run in &o.runs {
-            if let Some(base) = &args.trace {
-                let path = per_run_path(base, &o.scenario.name, run.backend, only);
-                write(&path, trace_csv(&run.recording).as_bytes())?;
-            }
-            if let Some(base) = &args.plot {
-                let path = per_run_path(base, &o.scenario.name, run.backend, only);
-                plot::plot(&o.scenario, run, &path)?;
-            }
+            files.write(
+                &o.scenario.name,
+                run.backend,
+                || trace_csv(&run.recording),
+                |path| Ok(plot::plot(&o.scenario, run, path)?),
+            )?;
         }
     }
     Ok(outcomes.iter().all(Outcome::passed))
-}
-
-/// The directory a report goes into must exist (reports are written
-/// atomically into it; nothing creates it).
-/// `--plot` must name an `.svg` or `.png` file.
-fn plot_extension_ok(plot: Option<&Path>) -> anyhow::Result<()> {
-    if let Some(p) = plot {
-        let ext = p
-            .extension()
-            .map(|e| e.to_string_lossy().to_ascii_lowercase());
-        if !matches!(ext.as_deref(), Some("svg" | "png")) {
-            anyhow::bail!("--plot {}: the file must end in .svg or .png", p.display());
-        }
-    }
-    Ok(())
 }
 
 /// The scenario files named, or the built-in demo when none is.
@@ -198,27 +174,4 @@ fn load_scenarios(paths: &[PathBuf]) -> anyhow::Result<Vec<Scenario>> {
         .iter()
         .map(Scenario::from_path)
         .collect::<Result<Vec<_>, _>>()?)
-}
-
-fn report_dir_exists(path: &Path) -> anyhow::Result<()> {
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d,
-        _ => Path::new("."),
-    };
-    anyhow::ensure!(
-        dir.is_dir(),
-        "{}: the directory {} does not exist",
-        path.display(),
-        dir.display()
-    );
-    anyhow::ensure!(
-        !path.is_dir(),
-        "{}: is a directory, not a report file",
-        path.display()
-    );
-    Ok(())
-}
-
-fn write(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
-    write_atomic(path, bytes).with_context(|| format!("writing {}", path.display()))
 }

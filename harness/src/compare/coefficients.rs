@@ -48,16 +48,16 @@ pub fn coefficient_table(settings: &Settings) -> Result<Vec<CoefRow>, ConfigErro
     let c = Config::<I16F16>::try_new(settings)?;
     let coef_ok = "rel ≤ 2⁻²⁰";
     let signal_ok = "abs ≤ q/2";
-    let mut rows = vec![coef_row("kp", "Kp", p.kp, c.kp(), coef_ok)];
+    let mut rows = vec![row("kp", "Kp", p.kp, c.kp(), coef_ok)];
     if let (Some(exact), Some(stored)) = (p.setpoint_weight, c.setpoint_weight()) {
-        rows.push(coef_row("setpoint_weight", "b", exact, stored, coef_ok));
+        rows.push(row("setpoint_weight", "b", exact, stored, coef_ok));
     }
-    rows.push(coef_row("ki_ts", "Ki·Ts", p.ki_ts, c.ki_ts(), coef_ok));
+    rows.push(row("ki_ts", "Ki·Ts", p.ki_ts, c.ki_ts(), coef_ok));
     if let (Some(exact), Some(stored)) = (p.tracking_ratio, c.tracking_ratio()) {
-        rows.push(coef_row("tracking_ratio", "Ts/Tt", exact, stored, coef_ok));
+        rows.push(row("tracking_ratio", "Ts/Tt", exact, stored, coef_ok));
     }
     if let (Some(exact), Some(stored)) = (p.filter_alpha, c.filter_alpha()) {
-        rows.push(coef_row(
+        rows.push(row(
             "filter_alpha",
             "α = Ts/(Tf+Ts)",
             exact,
@@ -67,26 +67,14 @@ pub fn coefficient_table(settings: &Settings) -> Result<Vec<CoefRow>, ConfigErro
     }
     if let (Some(exact), Some(stored)) = (p.slew_step, c.slew_step()) {
         // SLEW_REL_TOLERANCE: 1 %.
-        rows.push(signal_row("slew_step", "R·Ts", exact, stored, "rel ≤ 1 %"));
+        rows.push(row("slew_step", "R·Ts", exact, stored, "rel ≤ 1 %"));
     }
     if let (Some(exact), Some(stored)) = (p.deadband, c.deadband()) {
-        rows.push(signal_row("deadband", "deadband", exact, stored, signal_ok));
+        rows.push(row("deadband", "deadband", exact, stored, signal_ok));
     }
     let (lo, hi) = c.output_limits();
-    rows.push(signal_row(
-        "output_min",
-        "u_min",
-        p.output_min,
-        lo,
-        signal_ok,
-    ));
-    rows.push(signal_row(
-        "output_max",
-        "u_max",
-        p.output_max,
-        hi,
-        signal_ok,
-    ));
+    rows.push(row("output_min", "u_min", p.output_min, lo, signal_ok));
+    rows.push(row("output_max", "u_max", p.output_max, hi, signal_ok));
     Ok(rows)
 }
 
@@ -99,48 +87,43 @@ pub fn coefficients_within_contract(rows: &[CoefRow]) -> bool {
         .all(|r| r.rel_error <= COEF_REL_TOLERANCE)
 }
 
-fn coef_row(
-    name: &'static str,
-    meaning: &'static str,
-    exact: f64,
-    stored: FixedCoef,
-    accepted: &'static str,
-) -> CoefRow {
-    finish(
-        name,
-        meaning,
-        exact,
-        stored.to_f64(),
-        format!("{}·2^-{}", stored.mantissa(), stored.shift()),
-        accepted,
-    )
+/// A value as the fixed-point backend stores it: its exact `f64` value and
+/// how it is written in the table.
+trait Stored {
+    fn value(&self) -> f64;
+    fn representation(&self) -> String;
 }
 
-fn signal_row(
-    name: &'static str,
-    meaning: &'static str,
-    exact: f64,
-    stored: I16F16,
-    accepted: &'static str,
-) -> CoefRow {
-    finish(
-        name,
-        meaning,
-        exact,
-        stored.to_num::<f64>(),
-        format!("{} LSB", stored.to_bits()),
-        accepted,
-    )
+/// A coefficient: `mantissa·2^-shift`.
+impl Stored for FixedCoef {
+    fn value(&self) -> f64 {
+        self.to_f64()
+    }
+    fn representation(&self) -> String {
+        format!("{}·2^-{}", self.mantissa(), self.shift())
+    }
 }
 
-fn finish(
+/// A signal-scale value (Q16.16): `N LSB`.
+impl Stored for I16F16 {
+    fn value(&self) -> f64 {
+        self.to_num::<f64>()
+    }
+    fn representation(&self) -> String {
+        format!("{} LSB", self.to_bits())
+    }
+}
+
+/// The row of `stored` next to `exact`; the relative error is infinite
+/// when `exact` is 0 and `stored` is not.
+fn row(
     name: &'static str,
     meaning: &'static str,
     exact: f64,
-    stored: f64,
-    representation: String,
+    stored: impl Stored,
     accepted: &'static str,
 ) -> CoefRow {
+    let (representation, stored) = (stored.representation(), stored.value());
     let abs_error = stored - exact;
     let rel_error = if exact == 0.0 {
         if stored == 0.0 { 0.0 } else { f64::INFINITY }

@@ -4,6 +4,25 @@ use std::collections::VecDeque;
 
 use super::{Environment, ParamError, Plant, check, lag_step, valid_period};
 
+/// [`Plant::output`], [`Plant::rate`] and [`Plant::states`] of a linear
+/// plant, whose one state is its output `x` (with `rate`, its derivative
+/// after the last period).
+macro_rules! output_is_x {
+    () => {
+        fn output(&self) -> f64 {
+            self.x
+        }
+
+        fn rate(&self) -> f64 {
+            self.rate
+        }
+
+        fn states(&self, out: &mut Vec<(&'static str, f64)>) {
+            out.push(("output", self.x));
+        }
+    };
+}
+
 /// Integrating plant `ẋ = k·u + d` (a tank level, a position from a speed
 /// command). `d` is [`Environment::load`] in output units per second.
 ///
@@ -49,17 +68,7 @@ impl Plant for Integrator {
         self.x += self.rate * dt_s;
     }
 
-    fn output(&self) -> f64 {
-        self.x
-    }
-
-    fn rate(&self) -> f64 {
-        self.rate
-    }
-
-    fn states(&self, out: &mut Vec<(&'static str, f64)>) {
-        out.push(("output", self.x));
-    }
+    output_is_x!();
 
     fn reset(&mut self, output0: f64) {
         self.x = output0;
@@ -183,17 +192,7 @@ impl Plant for FirstOrderLag {
         self.rate = (k * acting + d - self.x) / tau;
     }
 
-    fn output(&self) -> f64 {
-        self.x
-    }
-
-    fn rate(&self) -> f64 {
-        self.rate
-    }
-
-    fn states(&self, out: &mut Vec<(&'static str, f64)>) {
-        out.push(("output", self.x));
-    }
+    output_is_x!();
 
     /// At rest with zero load: the delay line holds `output0 / gain`.
     fn reset(&mut self, output0: f64) {

@@ -1,13 +1,11 @@
 //! `evenkeel compare`: the fixed-point and the `f64` controller back to
 //! back on the same scenarios.
 
-use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::Args;
 use evenkeel_harness::compare::{self, Comparison};
-use evenkeel_harness::report::per_run_path;
 
 /// Options of `evenkeel compare` (those of `check` that apply).
 #[derive(Args)]
@@ -32,7 +30,7 @@ pub(crate) struct CompareArgs {
 
 /// Runs every comparison; `Ok(passed)`, or an error for bad input.
 pub(crate) fn run(args: &CompareArgs) -> anyhow::Result<bool> {
-    super::plot_extension_ok(args.plot.as_deref())?;
+    super::output::plot_extension_ok(args.plot.as_deref())?;
     let scenarios = super::load_scenarios(&args.scenarios)?;
     let mut comparisons: Vec<Comparison> = Vec::with_capacity(scenarios.len());
     for s in &scenarios {
@@ -41,34 +39,26 @@ pub(crate) fn run(args: &CompareArgs) -> anyhow::Result<bool> {
         comparisons.push(c);
     }
 
-    let json_to_stdout = args.json.as_deref() == Some(Path::new("-"));
     let tables: String = comparisons.iter().map(compare::table).collect();
-    if json_to_stdout {
-        eprint!("{tables}");
-    } else {
-        print!("{tables}");
-    }
-    if let Some(path) = &args.json {
-        let text = serde_json::to_string_pretty(&compare::json(&comparisons))? + "\n";
-        if json_to_stdout {
-            std::io::stdout().write_all(text.as_bytes())?;
-        } else {
-            super::write(path, text.as_bytes())?;
-        }
-    }
-    if let Some(path) = &args.junit {
-        super::write(path, compare::junit(&comparisons).as_bytes())?;
-    }
-    let only = comparisons.len() == 1;
+    super::output::summary(
+        &tables,
+        args.json.as_deref(),
+        || compare::json(&comparisons),
+        args.junit.as_deref(),
+        || compare::junit(&comparisons),
+    )?;
+    let files = super::output::PerRun {
+        trace: args.trace.as_deref(),
+        plot: args.plot.as_deref(),
+        only: comparisons.len() == 1,
+    };
     for c in &comparisons {
-        if let Some(base) = &args.trace {
-            let path = per_run_path(base, &c.scenario.name, "compare", only);
-            super::write(&path, compare::trace_csv(c).as_bytes())?;
-        }
-        if let Some(base) = &args.plot {
-            let path = per_run_path(base, &c.scenario.name, "compare", only);
-            compare::plot(c, &path)?;
-        }
+        files.write(
+            &c.scenario.name,
+            "compare",
+            || compare::trace_csv(c),
+            |path| Ok(compare::plot(c, path)?),
+        )?;
     }
     Ok(comparisons.iter().all(Comparison::passed))
 }

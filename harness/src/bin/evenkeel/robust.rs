@@ -1,16 +1,17 @@
 //! `evenkeel sweep`, `evenkeel merge` and `evenkeel design`: thin layers
 //! over `evenkeel_harness::sweep` and `evenkeel_harness::design`.
 
-use std::io::{IsTerminal, Write};
-use std::path::{Path, PathBuf};
+use std::io::IsTerminal;
+use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 use evenkeel_harness::design::{self, Request};
-use evenkeel_harness::report::write_atomic;
 use evenkeel_harness::sweep::{self, Method, Shard, SweepPlan, SweepResult};
 use evenkeel_harness::{BackendKind, Scenario};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+
+use super::output::{self, write};
 
 #[derive(Args)]
 pub struct SweepArgs {
@@ -134,10 +135,6 @@ enum DesignMethod {
     PolePlacement,
 }
 
-fn write(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
-    write_atomic(path, bytes).with_context(|| format!("writing {}", path.display()))
-}
-
 /// `evenkeel sweep`: `Ok(all variants passed)`.
 pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
     let scenario = Scenario::from_path(&args.scenario)?;
@@ -233,24 +230,13 @@ pub fn merge(args: &MergeArgs) -> anyhow::Result<bool> {
 }
 
 fn report(scenario: &Scenario, result: &SweepResult, out: &ReportArgs) -> anyhow::Result<bool> {
-    let json_to_stdout = out.json.as_deref() == Some(Path::new("-"));
-    let table = sweep::table(result);
-    if json_to_stdout {
-        eprint!("{table}");
-    } else {
-        print!("{table}");
-    }
-    if let Some(path) = &out.json {
-        let text = serde_json::to_string_pretty(&sweep::json(result))? + "\n";
-        if json_to_stdout {
-            std::io::stdout().write_all(text.as_bytes())?;
-        } else {
-            write(path, text.as_bytes())?;
-        }
-    }
-    if let Some(path) = &out.junit {
-        write(path, sweep::junit(result).as_bytes())?;
-    }
+    output::summary(
+        &sweep::table(result),
+        out.json.as_deref(),
+        || sweep::json(result),
+        out.junit.as_deref(),
+        || sweep::junit(result),
+    )?;
     let summary = sweep::summarise(result);
     if let Some(path) = &out.plot {
         let backend = BackendKind::from_name(&result.backend).unwrap_or(BackendKind::Fixed);
