@@ -118,3 +118,50 @@ fn empty_sweeps_and_bad_report_paths() {
         "unreadable.toml",
     );
 }
+
+/// Every command that writes reports checks all its report paths before it
+/// runs anything (a sweep can take minutes), with the same words.
+#[test]
+fn every_command_checks_report_paths_first() {
+    let pump = demo("irrigation_pump");
+    let pump = pump.to_str().unwrap();
+    let missing_dir = "no/such/dir";
+    for (cmd, flag) in [
+        ("compare", "--json"),
+        ("compare", "--junit"),
+        ("compare", "--trace"),
+        ("compare", "--plot"),
+        ("sweep", "--json"),
+        ("sweep", "--junit"),
+        ("sweep", "--save"),
+        ("sweep", "--plot"),
+        ("design", "--rust-out"),
+        ("design", "--scenario-out"),
+    ] {
+        let path = format!("{missing_dir}/r.svg");
+        let mut args = vec![cmd, pump, flag, path.as_str()];
+        if cmd != "design" && flag != "--json" {
+            // A writable report beside it: it must not be written either.
+            args.extend(["--json", "ok.json"]);
+        }
+        refused(&none, &args, "the directory no/such/dir does not exist");
+        refused(
+            &none,
+            &[cmd, pump, flag, "unreadable.toml"],
+            "is a directory, not a report file",
+        );
+    }
+    for cmd in ["check", "compare", "sweep"] {
+        refused(
+            &none,
+            &[cmd, pump, "--plot", "p.gif"],
+            "--plot p.gif: the file must end in .svg or .png",
+        );
+    }
+    // merge checks its paths before it reads the shard files.
+    refused(
+        &none,
+        &["merge", "no-such.json", "--junit", "no/such/dir/r.xml"],
+        "the directory no/such/dir does not exist",
+    );
+}

@@ -120,15 +120,14 @@ fn main() -> ExitCode {
 
 /// Runs everything; `Ok(passed)`, or an error for bad input.
 fn check(args: &CheckArgs) -> anyhow::Result<bool> {
-    // Refuse unwritable report paths before running anything, so that a bad
-    // path never leaves some reports written and others not.
-    let reports = [&args.json, &args.junit, &args.trace, &args.plot];
-    for path in reports.into_iter().flatten() {
-        if path.as_os_str() != "-" {
-            output::report_dir_exists(path)?;
-        }
-    }
-    output::plot_extension_ok(args.plot.as_deref())?;
+    output::check_report_paths(
+        &[
+            args.json.as_deref(),
+            args.junit.as_deref(),
+            args.trace.as_deref(),
+        ],
+        args.plot.as_deref(),
+    )?;
     let scenarios = load_scenarios(&args.scenarios)?;
     let backends = args.backend.kinds();
     let mut outcomes = Vec::with_capacity(scenarios.len());

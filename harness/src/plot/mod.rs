@@ -54,7 +54,7 @@ pub enum PlotError {
     #[error("drawing the plot failed: {0}")]
     Draw(String),
     /// Writing the file failed.
-    #[error("writing {path}: {source}")]
+    #[error("writing {path}")]
     Io {
         /// The file.
         path: String,

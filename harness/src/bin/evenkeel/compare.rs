@@ -30,7 +30,14 @@ pub(crate) struct CompareArgs {
 
 /// Runs every comparison; `Ok(passed)`, or an error for bad input.
 pub(crate) fn run(args: &CompareArgs) -> anyhow::Result<bool> {
-    super::output::plot_extension_ok(args.plot.as_deref())?;
+    super::output::check_report_paths(
+        &[
+            args.json.as_deref(),
+            args.junit.as_deref(),
+            args.trace.as_deref(),
+        ],
+        args.plot.as_deref(),
+    )?;
     let scenarios = super::load_scenarios(&args.scenarios)?;
     let mut comparisons: Vec<Comparison> = Vec::with_capacity(scenarios.len());
     for s in &scenarios {

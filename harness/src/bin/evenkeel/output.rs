@@ -78,10 +78,27 @@ pub(crate) fn write(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
     write_atomic(path, bytes).with_context(|| format!("writing {}", path.display()))
 }
 
+/// Refuses, before anything runs, report paths that could not be written:
+/// a directory that does not exist, a directory in place of a file, a
+/// `--plot` that is not `.svg` or `.png`. So a bad path never leaves some
+/// reports written and others not, nor wastes a long run. `-` (standard
+/// output) is always accepted.
+pub(crate) fn check_report_paths(
+    files: &[Option<&Path>],
+    plot: Option<&Path>,
+) -> anyhow::Result<()> {
+    for path in files.iter().copied().chain([plot]).flatten() {
+        if path.as_os_str() != "-" {
+            report_dir_exists(path)?;
+        }
+    }
+    plot_extension_ok(plot)
+}
+
 /// The directory a report goes into must exist (reports are written
 /// atomically into it; nothing creates it), and `path` must not be a
 /// directory itself.
-pub(crate) fn report_dir_exists(path: &Path) -> anyhow::Result<()> {
+fn report_dir_exists(path: &Path) -> anyhow::Result<()> {
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d,
         _ => Path::new("."),
@@ -101,7 +118,7 @@ pub(crate) fn report_dir_exists(path: &Path) -> anyhow::Result<()> {
 }
 
 /// `--plot` must name an `.svg` or `.png` file.
-pub(crate) fn plot_extension_ok(plot: Option<&Path>) -> anyhow::Result<()> {
+fn plot_extension_ok(plot: Option<&Path>) -> anyhow::Result<()> {
     if let Some(p) = plot {
         let ext = p
             .extension()

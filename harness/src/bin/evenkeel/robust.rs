@@ -83,6 +83,17 @@ struct ReportArgs {
     worst_dir: Option<PathBuf>,
 }
 
+impl ReportArgs {
+    /// The report paths and `--save` (`save`) can be written (see
+    /// [`output::check_report_paths`]); `--worst-dir` is created if missing.
+    fn check_paths(&self, save: Option<&std::path::Path>) -> anyhow::Result<()> {
+        output::check_report_paths(
+            &[self.json.as_deref(), self.junit.as_deref(), save],
+            self.plot.as_deref(),
+        )
+    }
+}
+
 #[derive(Args)]
 pub struct DesignArgs {
     /// Scenario file (TOML): plant, `[uncertainty]`, criteria.
@@ -137,6 +148,7 @@ enum DesignMethod {
 
 /// `evenkeel sweep`: `Ok(all variants passed)`.
 pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
+    args.out.check_paths(args.save.as_deref())?;
     let scenario = Scenario::from_path(&args.scenario)?;
     if scenario.uncertainty.is_empty() {
         anyhow::bail!(
@@ -204,6 +216,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
 
 /// `evenkeel merge`: `Ok(all variants passed)`.
 pub fn merge(args: &MergeArgs) -> anyhow::Result<bool> {
+    args.out.check_paths(args.save.as_deref())?;
     let mut parts = Vec::with_capacity(args.results.len());
     for path in &args.results {
         let text =
@@ -273,6 +286,10 @@ fn report(scenario: &Scenario, result: &SweepResult, out: &ReportArgs) -> anyhow
 /// `evenkeel design`: `Ok(true)` when every corner is stable and the
 /// fixed-point format holds the coefficients.
 pub fn design(args: &DesignArgs) -> anyhow::Result<bool> {
+    output::check_report_paths(
+        &[args.rust_out.as_deref(), args.scenario_out.as_deref()],
+        None,
+    )?;
     let scenario = Scenario::from_path(&args.scenario)?;
     let request = Request {
         method: match args.method {
