@@ -6,7 +6,7 @@ use std::fmt::Write;
 use serde_json::{Value, json as j};
 
 use super::{Comparison, LimitCycle};
-use crate::report::{CAUTION, format_number, xml_escape};
+use crate::report::{CAUTION, Failure, JunitXml, format_number};
 
 fn n(x: f64) -> String {
     format_number(Some(x))
@@ -303,64 +303,41 @@ pub fn junit(comparisons: &[Comparison]) -> String {
         .iter()
         .map(|c| c.checks.iter().filter(|ch| !ch.pass).count())
         .sum();
-    let mut x = String::from("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
-    let _ = writeln!(
-        x,
-        "<testsuites name=\"evenkeel compare\" tests=\"{tests}\" failures=\"{failures}\" errors=\"0\">"
-    );
+    let mut x = JunitXml::new("evenkeel compare", tests, failures);
     for c in comparisons {
         let name = &c.scenario.name;
         let failed = c.checks.iter().filter(|ch| !ch.pass).count();
-        let _ = writeln!(
-            x,
-            "  <testsuite name=\"{}\" tests=\"{}\" failures=\"{failed}\" errors=\"0\">",
-            xml_escape(&format!("{name} [fixed vs f64]")),
-            c.checks.len()
-        );
-        let _ = writeln!(
-            x,
-            "    <properties>\n      <property name=\"source\" value=\"{}\"/>\n      <property name=\"caution\" value=\"{}\"/>\n    </properties>",
-            xml_escape(&c.scenario.source),
-            xml_escape(CAUTION)
+        x.open_suite(
+            &format!("{name} [fixed vs f64]"),
+            c.checks.len(),
+            failed,
+            Some(&c.scenario.source),
         );
         for ch in &c.checks {
             let limit = format!("<= {}", n(ch.tolerance.limit));
-            let _ = write!(
-                x,
-                "    <testcase classname=\"{}\" name=\"{}\"",
-                xml_escape(&format!("{name}.compare")),
-                xml_escape(&format!("{} {limit}", ch.name))
+            let msg = format!(
+                "{} measured {} {}, required {limit} ({})",
+                ch.name,
+                n(ch.measured),
+                ch.unit,
+                if ch.tolerance.declared {
+                    "declared"
+                } else {
+                    "derived from the formats"
+                }
             );
-            if ch.pass {
-                x.push_str("/>\n");
-            } else {
-                let msg = format!(
-                    "{} measured {} {}, required {limit} ({})",
-                    ch.name,
-                    n(ch.measured),
-                    ch.unit,
-                    if ch.tolerance.declared {
-                        "declared"
-                    } else {
-                        "derived from the formats"
-                    }
-                );
-                let _ = writeln!(
-                    x,
-                    ">\n      <failure message=\"{}\" type=\"back-to-back\">{}</failure>\n    </testcase>",
-                    xml_escape(&msg),
-                    xml_escape(ch.note.as_deref().unwrap_or(&msg))
-                );
-            }
+            let failure = (!ch.pass).then(|| {
+                Failure::new("back-to-back", &msg).with_text(ch.note.as_deref().unwrap_or(&msg))
+            });
+            x.case(
+                &format!("{name}.compare"),
+                &format!("{} {limit}", ch.name),
+                failure,
+            );
         }
-        let _ = writeln!(
-            x,
-            "    <system-out>{}</system-out>\n  </testsuite>",
-            xml_escape(CAUTION)
-        );
+        x.close_suite();
     }
-    x.push_str("</testsuites>\n");
-    x
+    x.finish()
 }
 
 /// Both trajectories and their differences as CSV, one row per sample:

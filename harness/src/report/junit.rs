@@ -37,61 +37,133 @@ pub fn junit(outcomes: &[Outcome]) -> String {
     let failures: usize = runs
         .map(|r| r.verdicts.iter().filter(|v| !v.pass).count())
         .sum();
-    let mut x = String::new();
-    x.push_str("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
-    let _ = writeln!(
-        x,
-        "<testsuites name=\"evenkeel check\" tests=\"{tests}\" failures=\"{failures}\" errors=\"0\">"
-    );
+    let mut x = JunitXml::new("evenkeel check", tests, failures);
     for o in outcomes {
         let name = &o.scenario.name;
         for r in &o.runs {
             let failed = r.verdicts.iter().filter(|v| !v.pass).count();
-            let _ = writeln!(
-                x,
-                "  <testsuite name=\"{}\" tests=\"{}\" failures=\"{failed}\" errors=\"0\">",
-                xml_escape(&format!("{name} [{}]", r.backend)),
-                r.verdicts.len()
+            x.open_suite(
+                &format!("{name} [{}]", r.backend),
+                r.verdicts.len(),
+                failed,
+                Some(&o.scenario.source),
             );
-            let _ = writeln!(
-                x,
-                "    <properties>\n      <property name=\"source\" value=\"{}\"/>\n      <property name=\"caution\" value=\"{}\"/>\n    </properties>",
-                xml_escape(&o.scenario.source),
-                xml_escape(CAUTION)
-            );
+            let class = format!("{name}.{}", r.backend);
             for v in &r.verdicts {
                 let c = &v.criterion;
                 let limit = format!("{} {}", c.bound.symbol(), format_number(Some(c.limit)));
-                let case = format!("{} {limit}", c.metric.name());
-                let class = format!("{name}.{}", r.backend);
-                let _ = write!(
-                    x,
-                    "    <testcase classname=\"{}\" name=\"{}\"",
-                    xml_escape(&class),
-                    xml_escape(&case)
+                let msg = format!(
+                    "{} measured {}, required {limit}",
+                    c.metric.name(),
+                    format_number(v.measured)
                 );
-                if v.pass {
-                    x.push_str("/>\n");
-                } else {
-                    let msg = format!(
-                        "{} measured {}, required {limit}",
-                        c.metric.name(),
-                        format_number(v.measured)
-                    );
-                    let _ = writeln!(
-                        x,
-                        ">\n      <failure message=\"{m}\" type=\"criterion\">{m}</failure>\n    </testcase>",
-                        m = xml_escape(&msg)
-                    );
-                }
+                let failure = (!v.pass).then(|| Failure::new("criterion", &msg));
+                x.case(&class, &format!("{} {limit}", c.metric.name()), failure);
             }
+            x.close_suite();
+        }
+    }
+    x.finish()
+}
+
+/// A JUnit XML document written front to back: `check`, `compare` and
+/// `sweep` each fill one. Every suite ends with [`CAUTION`] as its output.
+pub(crate) struct JunitXml(String);
+
+/// Why a test case failed: the `type` attribute, the `message` attribute
+/// and the element text (the message again unless there is more to say).
+pub(crate) struct Failure<'a> {
+    kind: &'a str,
+    message: &'a str,
+    text: &'a str,
+}
+
+impl<'a> Failure<'a> {
+    /// A failure whose text is its message.
+    pub(crate) fn new(kind: &'a str, message: &'a str) -> Self {
+        Self {
+            kind,
+            message,
+            text: message,
+        }
+    }
+
+    /// The same with a longer text.
+    pub(crate) fn with_text(self, text: &'a str) -> Self {
+        Self { text, ..self }
+    }
+}
+
+impl JunitXml {
+    /// The XML declaration and the root element for `tests` cases in all.
+    pub(crate) fn new(name: &str, tests: usize, failures: usize) -> Self {
+        let mut x = String::from("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
+        let _ = writeln!(
+            x,
+            "<testsuites name=\"{}\" tests=\"{tests}\" failures=\"{failures}\" errors=\"0\">",
+            xml_escape(name)
+        );
+        Self(x)
+    }
+
+    /// Opens a suite; with `source`, its properties name the scenario file
+    /// and the caution.
+    pub(crate) fn open_suite(
+        &mut self,
+        name: &str,
+        tests: usize,
+        failures: usize,
+        source: Option<&str>,
+    ) {
+        let _ = writeln!(
+            self.0,
+            "  <testsuite name=\"{}\" tests=\"{tests}\" failures=\"{failures}\" errors=\"0\">",
+            xml_escape(name)
+        );
+        if let Some(source) = source {
             let _ = writeln!(
-                x,
-                "    <system-out>{}</system-out>\n  </testsuite>",
+                self.0,
+                "    <properties>\n      <property name=\"source\" value=\"{}\"/>\n      <property name=\"caution\" value=\"{}\"/>\n    </properties>",
+                xml_escape(source),
                 xml_escape(CAUTION)
             );
         }
     }
-    x.push_str("</testsuites>\n");
-    x
+
+    /// One test case, passed when `failure` is `None`.
+    pub(crate) fn case(&mut self, class: &str, name: &str, failure: Option<Failure<'_>>) {
+        let _ = write!(
+            self.0,
+            "    <testcase classname=\"{}\" name=\"{}\"",
+            xml_escape(class),
+            xml_escape(name)
+        );
+        match failure {
+            None => self.0.push_str("/>\n"),
+            Some(f) => {
+                let _ = writeln!(
+                    self.0,
+                    ">\n      <failure message=\"{}\" type=\"{}\">{}</failure>\n    </testcase>",
+                    xml_escape(f.message),
+                    xml_escape(f.kind),
+                    xml_escape(f.text)
+                );
+            }
+        }
+    }
+
+    /// Closes the open suite, with the caution as its output.
+    pub(crate) fn close_suite(&mut self) {
+        let _ = writeln!(
+            self.0,
+            "    <system-out>{}</system-out>\n  </testsuite>",
+            xml_escape(CAUTION)
+        );
+    }
+
+    /// The finished document.
+    pub(crate) fn finish(mut self) -> String {
+        self.0.push_str("</testsuites>\n");
+        self.0
+    }
 }

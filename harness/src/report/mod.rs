@@ -14,6 +14,7 @@ use std::sync::atomic::{AtomicU32, Ordering};
 
 pub use csv::trace_csv;
 pub use json::json;
+pub(crate) use junit::{Failure, JunitXml};
 pub use junit::{junit, xml_escape};
 pub use table::{format_number, table};
 

@@ -8,7 +8,7 @@ use serde_json::{Value, json as j};
 
 use super::run::{CriterionRecord, SweepResult, VariantResult};
 use super::space::Param;
-use crate::report::{CAUTION, format_number, xml_escape};
+use crate::report::{CAUTION, Failure, JunitXml, format_number};
 use crate::scenario::Scenario;
 
 /// One criterion over all variants.
@@ -274,56 +274,33 @@ pub fn junit(result: &SweepResult) -> String {
         .iter()
         .filter(|c| c.passed < c.total || c.total == 0)
         .count();
-    let mut x = String::from("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
     let n = summary.criteria.len();
-    let _ = writeln!(
-        x,
-        "<testsuites name=\"evenkeel sweep\" tests=\"{n}\" failures=\"{failures}\" errors=\"0\">"
-    );
+    let mut x = JunitXml::new("evenkeel sweep", n, failures);
     let suite = format!(
         "{} [{} sweep, {}]",
         result.scenario, result.method, result.backend
     );
-    let _ = writeln!(
-        x,
-        "  <testsuite name=\"{}\" tests=\"{n}\" failures=\"{failures}\" errors=\"0\">",
-        xml_escape(&suite)
-    );
+    x.open_suite(&suite, n, failures, None);
+    let class = format!("{}.sweep", result.scenario);
     for c in &summary.criteria {
         let r = &c.criterion;
         let symbol = if r.bound == "min" { ">=" } else { "<=" };
         let name = format!("{} {symbol} {}", r.metric, format_number(Some(r.limit)));
-        let _ = write!(
-            x,
-            "    <testcase classname=\"{}\" name=\"{}\"",
-            xml_escape(&format!("{}.sweep", result.scenario)),
-            xml_escape(&name)
+        let who = variant(result, c.worst_index).map_or_else(String::new, |v| {
+            format!(" at variant #{} ({})", v.index, params_text(result, v))
+        });
+        let msg = format!(
+            "{} of {} variants met {name}; worst {}{who}",
+            c.passed,
+            c.total,
+            format_number(c.worst)
         );
-        if c.total > 0 && c.passed == c.total {
-            x.push_str("/>\n");
-        } else {
-            let who = variant(result, c.worst_index).map_or_else(String::new, |v| {
-                format!(" at variant #{} ({})", v.index, params_text(result, v))
-            });
-            let msg = format!(
-                "{} of {} variants met {name}; worst {}{who}",
-                c.passed,
-                c.total,
-                format_number(c.worst)
-            );
-            let _ = writeln!(
-                x,
-                ">\n      <failure message=\"{m}\" type=\"criterion\">{m}</failure>\n    </testcase>",
-                m = xml_escape(&msg)
-            );
-        }
+        let passed = c.total > 0 && c.passed == c.total;
+        let failure = (!passed).then(|| Failure::new("criterion", &msg));
+        x.case(&class, &name, failure);
     }
-    let _ = writeln!(
-        x,
-        "    <system-out>{}</system-out>\n  </testsuite>\n</testsuites>",
-        xml_escape(CAUTION)
-    );
-    x
+    x.close_suite();
+    x.finish()
 }
 
 /// `scenario` with the values of variant `index` of `result` put in (and
