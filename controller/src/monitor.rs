@@ -773,6 +773,8 @@ impl core::ops::BitAnd for Diagnostics {
     }
 }
 
+// Test-only: `expect` on settings the tests build from constants (a
+// failure there is a broken test, not a run-time path of the monitor).
 #[cfg(test)]
 mod tests {
     extern crate std;
