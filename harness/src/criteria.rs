@@ -218,6 +218,46 @@ impl Criterion {
     }
 }
 
+impl Criterion {
+    /// The normalised margin of `measured` against this criterion: the
+    /// distance to the limit as a fraction of the limit (of 1 when the
+    /// limit is 0), positive on the passing side, so that criteria of
+    /// different units compare. `≥ 0` exactly when the criterion passes;
+    /// an undefined metric gives [`UNDEFINED_MARGIN`].
+    ///
+    /// ```
+    /// use evenkeel_harness::criteria::{Criterion, MetricKey, UNDEFINED_MARGIN};
+    /// let c = Criterion::max(MetricKey::SettlingTime, 10.0);
+    /// assert_eq!(c.margin(Some(8.0)), 0.2);   // 2 s of 10 to spare
+    /// assert_eq!(c.margin(Some(12.5)), -0.25);
+    /// assert_eq!(c.margin(None), UNDEFINED_MARGIN);
+    /// let floor = Criterion::min(MetricKey::Iae, 0.0);
+    /// assert_eq!(floor.margin(Some(0.5)), 0.5);
+    /// ```
+    #[must_use]
+    pub fn margin(&self, measured: Option<f64>) -> f64 {
+        let Some(x) = measured else {
+            return UNDEFINED_MARGIN;
+        };
+        if x.is_nan() {
+            return UNDEFINED_MARGIN;
+        }
+        let scale = if self.limit == 0.0 {
+            1.0
+        } else {
+            self.limit.abs()
+        };
+        match self.bound {
+            Bound::Max => (self.limit - x) / scale,
+            Bound::Min => (x - self.limit) / scale,
+        }
+    }
+}
+
+/// Margin of an undefined metric (e.g. a settling time when the output
+/// never settles): as bad as a measurement at twice the limit.
+pub const UNDEFINED_MARGIN: f64 = -1.0;
+
 /// A criterion with its measured value and result.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Verdict {

@@ -65,6 +65,35 @@ impl Segment {
     }
 }
 
+/// One segment of a [`Profile`] placed in time ([`Profile::pieces`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Piece {
+    /// When the segment starts, s.
+    pub start_s: f64,
+    /// Value at its start.
+    pub from: f64,
+    /// Value at the end of its ramp (= `from` for a pure hold).
+    pub to: f64,
+    /// Ramp duration, s (0: a step).
+    pub ramp_s: f64,
+    /// Hold duration after the ramp, s.
+    pub hold_s: f64,
+}
+
+impl Piece {
+    /// When the hold at `to` starts, s.
+    #[must_use]
+    pub fn hold_start_s(&self) -> f64 {
+        self.start_s + self.ramp_s
+    }
+
+    /// When the segment ends, s.
+    #[must_use]
+    pub fn end_s(&self) -> f64 {
+        self.start_s + self.ramp_s + self.hold_s
+    }
+}
+
 /// Start value and segments; evaluate with [`Profile::at`].
 ///
 /// Durations are assumed finite and non-negative (the scenario loader
@@ -155,6 +184,29 @@ impl Profile {
     pub fn duration_s(&self) -> f64 {
         self.pieces.last().map_or(0.0, |&(start, _, s)| {
             start + s.ramp_s.max(0.0) + s.hold_s.max(0.0)
+        })
+    }
+
+    /// The segments in time order, each with its start time and the value
+    /// it starts from: a ramp from `from` to `to` over `ramp_s`, then a
+    /// hold at `to` for `hold_s` (after the last segment the value holds
+    /// for ever).
+    ///
+    /// ```
+    /// use evenkeel_harness::profile::{Profile, Segment};
+    /// let p = Profile::new(1.0, vec![Segment::hold(2.0), Segment::ramp(4.0, 3.0, 1.0)]);
+    /// let pieces: Vec<_> = p.pieces().collect();
+    /// assert_eq!(pieces[1].start_s, 2.0);
+    /// assert_eq!((pieces[1].from, pieces[1].to), (1.0, 4.0));
+    /// assert_eq!(pieces[1].hold_start_s(), 5.0);
+    /// ```
+    pub fn pieces(&self) -> impl Iterator<Item = Piece> + '_ {
+        self.pieces.iter().map(|&(start_s, from, s)| Piece {
+            start_s,
+            from,
+            to: s.to.unwrap_or(from),
+            ramp_s: s.ramp_s.max(0.0),
+            hold_s: s.hold_s.max(0.0),
         })
     }
 

@@ -1,5 +1,5 @@
 //! `evenkeel check`: run scenarios, print verdicts, write reports; `sweep`,
-//! `merge` and `design` (in `evenkeel/robust.rs`) for robustness over the
+//! `merge` (in `evenkeel/robust.rs`) and `design` (`evenkeel/design.rs`) for robustness over the
 //! unknown plant.
 //!
 //! Exit status: 0 every criterion passed, 1 a criterion failed, 2 bad input
@@ -16,6 +16,8 @@ use evenkeel_harness::{BackendKind, Outcome, Scenario, plot};
 
 #[path = "evenkeel/compare.rs"]
 mod compare;
+#[path = "evenkeel/design.rs"]
+mod design;
 #[path = "evenkeel/output.rs"]
 mod output;
 #[path = "evenkeel/robust.rs"]
@@ -38,9 +40,11 @@ enum Command {
     Sweep(robust::SweepArgs),
     /// Combine shard results of `evenkeel sweep --shard I/N --save PATH`.
     Merge(robust::MergeArgs),
-    /// Propose gains and limits (SIMC, pole placement) with margins at
-    /// every corner of the uncertainty.
-    Design(robust::DesignArgs),
+    /// Propose gains and limits that pass: feasibility of the criteria at
+    /// every corner, an analytic start (SIMC, pole placement), verification
+    /// of the real controller over corners and a Latin-hypercube sample,
+    /// and a search while anything fails.
+    Design(design::DesignArgs),
     /// Run scenarios with the fixed-point (Q16.16) and the f64 controller
     /// side by side and judge the difference against `[compare]`
     /// tolerances (derived from the formats when absent).
@@ -105,7 +109,7 @@ fn main() -> ExitCode {
         Command::Check(args) => check(args),
         Command::Sweep(args) => robust::sweep(args),
         Command::Merge(args) => robust::merge(args),
-        Command::Design(args) => robust::design(args),
+        Command::Design(args) => design::run(args),
         Command::Compare(args) => compare::run(args),
     };
     match result {

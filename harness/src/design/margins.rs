@@ -395,6 +395,11 @@ pub struct Margins {
     pub dominant_time_s: f64,
     /// Closed-loop bandwidth (|T| first below −3 dB), rad/s.
     pub bandwidth_rad_s: f64,
+    /// Peak sensitivity Ms = max |1/(1 + L)| over the grid: the inverse of
+    /// the shortest distance from the Nyquist curve to −1.
+    pub sensitivity_peak: f64,
+    /// Peak complementary sensitivity Mt = max |L/(1 + L)|.
+    pub complementary_peak: f64,
 }
 
 impl Margins {
@@ -527,13 +532,16 @@ pub fn margins(lp: &SampledLoop) -> Margins {
             dominant = dominant.max(-1.0 / s.re);
         }
     }
-    // −3 dB bandwidth of T = L/(1 + L).
+    // −3 dB bandwidth of T = L/(1 + L); peaks of S and T.
     let mut bandwidth = f64::NAN;
+    let (mut ms, mut mt) = (0.0f64, 0.0f64);
     for (&x, v) in w.iter().zip(&l) {
-        let t = (*v / (C64::real(1.0) + *v)).abs();
-        if t < std::f64::consts::FRAC_1_SQRT_2 {
+        let one_plus = C64::real(1.0) + *v;
+        let t = (*v / one_plus).abs();
+        ms = ms.max(1.0 / one_plus.abs());
+        mt = mt.max(t);
+        if bandwidth.is_nan() && t < std::f64::consts::FRAC_1_SQRT_2 {
             bandwidth = x;
-            break;
         }
     }
     Margins {
@@ -550,7 +558,51 @@ pub fn margins(lp: &SampledLoop) -> Margins {
         min_damping,
         dominant_time_s: dominant,
         bandwidth_rad_s: bandwidth,
+        sensitivity_peak: ms,
+        complementary_peak: mt,
     }
+}
+
+/// One point of a loop's frequency response.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ResponsePoint {
+    /// Frequency, rad/s.
+    pub w_rad_s: f64,
+    /// `L(e^(jωTs))`, real part.
+    pub re: f64,
+    /// Imaginary part.
+    pub im: f64,
+    /// `|L|`.
+    pub magnitude: f64,
+    /// Phase of `L`, degrees, unwrapped along the grid (starting in
+    /// (−360°, 0°]).
+    pub phase_deg: f64,
+}
+
+/// The loop's frequency response on `n` log-spaced points from
+/// 10⁻³·π/Ts to just below the Nyquist frequency (for plots).
+#[must_use]
+pub fn frequency_response(lp: &SampledLoop, n: usize) -> Vec<ResponsePoint> {
+    let nyquist = PI / lp.period_s;
+    let lo = nyquist * 1e-3;
+    let n = n.max(2);
+    #[allow(clippy::cast_precision_loss)]
+    let w: Vec<f64> = (0..n)
+        .map(|i| lo * (nyquist * (1.0 - 1e-6) / lo).powf(i as f64 / (n - 1) as f64))
+        .collect();
+    let l: Vec<C64> = w.iter().map(|&x| lp.at(x)).collect();
+    let phase = unwrap(&l);
+    w.iter()
+        .zip(&l)
+        .zip(&phase)
+        .map(|((&w_rad_s, v), &p)| ResponsePoint {
+            w_rad_s,
+            re: v.re,
+            im: v.im,
+            magnitude: v.abs(),
+            phase_deg: p.to_degrees(),
+        })
+        .collect()
 }
 
 #[cfg(test)]

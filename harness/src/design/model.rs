@@ -4,6 +4,7 @@
 
 use super::margins::LinearPlant;
 use crate::plant::STANDARD_GRAVITY_M_S2;
+use crate::plant::Environment;
 use crate::scenario::{PlantModel, Scenario};
 
 /// One corner: parameter values, the gain factor and operating output it
@@ -120,44 +121,106 @@ pub fn linearise(s: &Scenario, y0: f64, gf: f64) -> LinearPlant {
     }
 }
 
+/// The command that holds output `y` steady in `s` under the environment
+/// `env` (disturbances and gain factor at one instant), in closed form:
+///
+/// - integrator `ẏ = k·g·u + d`: `u = −d/(k·g)`;
+/// - first-order lag `τẏ = k·g·u + d − y`: `u = (y − d)/(k·g)`;
+/// - vehicle: `c·g·u = C_rr·m·g₀·cos θ·sgn y + ½ρC_dA·y|y| + m·g₀·sin θ − F`;
+/// - rotor: `k·g·u = b·y + c·y|y| − d`.
+///
+/// `None` when the command gain is zero or the result is not finite.
+#[must_use]
+pub fn hold_command(s: &Scenario, y: f64, env: &Environment) -> Option<f64> {
+    let gf = env.gain_factor;
+    let u = match &s.plant {
+        PlantModel::Integrator { gain } => -env.load / (gain * gf),
+        PlantModel::FirstOrderLag { gain, .. } => (y - env.load) / (gain * gf),
+        PlantModel::Vehicle(p) => {
+            let theta = (env.grade_pct / 100.0).atan();
+            let g = STANDARD_GRAVITY_M_S2;
+            let rolling = if y.abs() > 0.0 {
+                p.crr * p.mass_kg * g * theta.cos() * y.signum()
+            } else {
+                0.0
+            };
+            let drag = 0.5 * p.air_density_kg_m3 * p.cda_m2 * y * y.abs();
+            (rolling + drag + p.mass_kg * g * theta.sin() - env.force_n) / (p.actuator_gain_n * gf)
+        }
+        PlantModel::Rotor(p) => {
+            (p.viscous_n_m_s * y + p.drag_n_m_s2 * y * y.abs() - env.load)
+                / (p.torque_gain_n_m * gf)
+        }
+    };
+    u.is_finite().then_some(u)
+}
+
+/// The plant's output rate at output `y` under a constant command `u`
+/// applied directly (no actuator lag, no dead time), in `env`: the
+/// right-hand side of the model's equation, exactly as the plant models
+/// compute it (the vehicle's rolling resistance with its `tanh` creep
+/// law).
+#[must_use]
+pub fn output_rate(s: &Scenario, y: f64, u: f64, env: &Environment) -> f64 {
+    let gf = env.gain_factor;
+    match &s.plant {
+        PlantModel::Integrator { gain } => gain * gf * u + env.load,
+        PlantModel::FirstOrderLag { gain, tau_s, .. } => (gain * gf * u + env.load - y) / tau_s,
+        PlantModel::Vehicle(p) => {
+            let theta = (env.grade_pct / 100.0).atan();
+            let g = STANDARD_GRAVITY_M_S2;
+            let force = p.actuator_gain_n * gf * u + env.force_n
+                - p.crr * p.mass_kg * g * theta.cos() * (y / p.creep_speed_m_s).tanh()
+                - 0.5 * p.air_density_kg_m3 * p.cda_m2 * y * y.abs()
+                - p.mass_kg * g * theta.sin();
+            force / p.mass_kg
+        }
+        PlantModel::Rotor(p) => {
+            (p.torque_gain_n_m * gf * u + env.load
+                - p.viscous_n_m_s * y
+                - p.drag_n_m_s2 * y * y.abs())
+                / p.inertia_kg_m2
+        }
+    }
+}
+
+/// `∂(output rate)/∂u` in `env`: what turns a command slew into the
+/// plant's second derivative (jerk, for a vehicle) and a command step into
+/// a rate step. `k·g` (integrator), `k·g/τ` (lag), `c·g/m` (vehicle),
+/// `k·g/J` (rotor).
+#[must_use]
+pub fn command_gain(s: &Scenario, env: &Environment) -> f64 {
+    let gf = env.gain_factor;
+    match &s.plant {
+        PlantModel::Integrator { gain } => gain * gf,
+        PlantModel::FirstOrderLag { gain, tau_s, .. } => gain * gf / tau_s,
+        PlantModel::Vehicle(p) => p.actuator_gain_n * gf / p.mass_kg,
+        PlantModel::Rotor(p) => p.torque_gain_n_m * gf / p.inertia_kg_m2,
+    }
+}
+
 /// Commands that hold output `y` steady in `s` with gain factor `gf`,
 /// over the extremes of the disturbance profiles.
 fn hold_commands(s: &Scenario, y: f64, gf: f64) -> Vec<f64> {
     let d = &s.setup.disturbances;
     let (load_lo, load_hi) = d.load.range();
-    let loads = ends(load_lo, load_hi);
-    match &s.plant {
-        PlantModel::Integrator { gain } => loads.iter().map(|l| -l / (gain * gf)).collect(),
-        PlantModel::FirstOrderLag { gain, .. } => {
-            loads.iter().map(|l| (y - l) / (gain * gf)).collect()
-        }
-        PlantModel::Vehicle(p) => {
-            let (g_lo, g_hi) = d.grade_pct.range();
-            let (f_lo, f_hi) = d.force_n.range();
-            let mut out = Vec::new();
-            for grade in ends(g_lo, g_hi) {
-                for force in ends(f_lo, f_hi) {
-                    let theta = (grade / 100.0).atan();
-                    let g = STANDARD_GRAVITY_M_S2;
-                    let rolling = if y.abs() > 0.0 {
-                        p.crr * p.mass_kg * g * theta.cos() * y.signum()
-                    } else {
-                        0.0
-                    };
-                    let drag = 0.5 * p.air_density_kg_m3 * p.cda_m2 * y * y.abs();
-                    let f = rolling + drag + p.mass_kg * g * theta.sin() - force;
-                    out.push(f / (p.actuator_gain_n * gf));
-                }
+    let (g_lo, g_hi) = d.grade_pct.range();
+    let (f_lo, f_hi) = d.force_n.range();
+    let mut out = Vec::new();
+    for load in ends(load_lo, load_hi) {
+        for grade_pct in ends(g_lo, g_hi) {
+            for force_n in ends(f_lo, f_hi) {
+                let env = Environment {
+                    grade_pct,
+                    force_n,
+                    load,
+                    gain_factor: gf,
+                };
+                out.extend(hold_command(s, y, &env));
             }
-            out
         }
-        PlantModel::Rotor(p) => loads
-            .iter()
-            .map(|l| {
-                (p.viscous_n_m_s * y + p.drag_n_m_s2 * y * y.abs() - l) / (p.torque_gain_n_m * gf)
-            })
-            .collect(),
     }
+    out
 }
 
 /// The command that holds output `y` steady in `s` under the
@@ -172,18 +235,7 @@ fn hold_commands(s: &Scenario, y: f64, gf: f64) -> Vec<f64> {
 /// ```
 #[must_use]
 pub fn equilibrium_command(s: &Scenario, y: f64, t_s: f64) -> Option<f64> {
-    let env = s.setup.disturbances.at(t_s);
-    let mut at_t = s.clone();
-    at_t.setup.disturbances = crate::sim::Disturbances {
-        grade_pct: crate::profile::Profile::constant(env.grade_pct),
-        force_n: crate::profile::Profile::constant(env.force_n),
-        load: crate::profile::Profile::constant(env.load),
-        gain_factor: crate::profile::Profile::constant(env.gain_factor),
-    };
-    hold_commands(&at_t, y, env.gain_factor)
-        .first()
-        .copied()
-        .filter(|u| u.is_finite())
+    hold_command(s, y, &s.setup.disturbances.at(t_s))
 }
 
 /// Every corner of the uncertainty box of `s`, times the extremes of the

@@ -379,6 +379,7 @@ impl Check<'_> {
             uncertainty: Vec::new(),
             compare: self.compare(raw.compare.as_ref())?,
             sweep: None,
+            design: super::design_table::parse(&self.src, raw.design.as_ref())?,
         };
         (scenario.uncertainty, scenario.sweep) = super::uncertainty::parse(
             &self.src,

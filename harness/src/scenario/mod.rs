@@ -26,6 +26,7 @@
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 
+mod design_table;
 mod error;
 mod faults;
 mod load;
@@ -37,6 +38,7 @@ use std::path::Path;
 use evenkeel::fixed::types::I16F16;
 use evenkeel::{Backend, Settings};
 
+pub use design_table::{DesignSpec, LimitChoice};
 pub use error::ScenarioError;
 
 use crate::criteria::Criterion;
@@ -145,6 +147,8 @@ pub struct Scenario {
     pub sweep: Option<SweepPlan>,
     /// Tolerances of the fixed-against-f64 comparison (`[compare]`).
     pub compare: crate::compare::CompareSpec,
+    /// What `evenkeel design` may change and must keep (`[design]`).
+    pub design: DesignSpec,
 }
 
 impl Scenario {

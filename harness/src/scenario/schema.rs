@@ -38,6 +38,8 @@ pub(crate) struct RawScenario {
     pub monitor: Option<super::faults::RawMonitor>,
     /// Tolerances of `evenkeel compare` (fixed against f64).
     pub compare: Option<RawCompare>,
+    /// What `evenkeel design` may change (`design_table.rs`).
+    pub design: Option<super::design_table::RawDesign>,
 }
 
 #[derive(Debug, Deserialize)]

@@ -38,6 +38,7 @@ pub use plot::plot_envelope;
 pub use report::{
     CriterionSummary, SweepSummary, json, junit, summarise, table, variant_scenario, variant_toml,
 };
+pub(crate) use run::noise_seed;
 pub use run::{CriterionRecord, Envelope, SweepResult, VariantResult, apply_variant, run};
 pub use space::{
     Distribution, MAX_VARIANTS, Method, NORMAL_TRUNCATION, Param, SweepPlan, Uncertain,

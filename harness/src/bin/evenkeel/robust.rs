@@ -1,12 +1,11 @@
-//! `evenkeel sweep`, `evenkeel merge` and `evenkeel design`: thin layers
-//! over `evenkeel_harness::sweep` and `evenkeel_harness::design`.
+//! `evenkeel sweep` and `evenkeel merge`: thin layers over
+//! `evenkeel_harness::sweep`.
 
 use std::io::IsTerminal;
 use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
-use evenkeel_harness::design::{self, Request};
 use evenkeel_harness::sweep::{self, Method, Shard, SweepPlan, SweepResult};
 use evenkeel_harness::{BackendKind, Scenario};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
@@ -94,37 +93,6 @@ impl ReportArgs {
     }
 }
 
-#[derive(Args)]
-pub struct DesignArgs {
-    /// Scenario file (TOML): plant, `[uncertainty]`, criteria.
-    scenario: PathBuf,
-    /// Tuning rule.
-    #[arg(long, value_enum, default_value_t = DesignMethod::Simc)]
-    method: DesignMethod,
-    /// Closed-loop time constant at the slowest corner, s (default: from
-    /// the rise and settling criteria).
-    #[arg(long, value_name = "S", conflicts_with = "bandwidth_rad_s")]
-    closed_loop_time_s: Option<f64>,
-    /// Closed-loop bandwidth target, rad/s (same as a time constant 1/ω).
-    #[arg(long, value_name = "RAD_S")]
-    bandwidth_rad_s: Option<f64>,
-    /// Damping ratio of the placed poles (pole placement).
-    #[arg(long, default_value_t = 1.0)]
-    damping: f64,
-    /// Peak acceleration allowed (default: the peak_accel criterion).
-    #[arg(long)]
-    accel_limit: Option<f64>,
-    /// Peak jerk allowed (default: the peak_jerk criterion).
-    #[arg(long)]
-    jerk_limit: Option<f64>,
-    /// Write the scenario with the proposed controller to PATH.
-    #[arg(long, value_name = "PATH")]
-    scenario_out: Option<PathBuf>,
-    /// Write the firmware `const` configuration (Rust) to PATH.
-    #[arg(long, value_name = "PATH")]
-    rust_out: Option<PathBuf>,
-}
-
 #[derive(Clone, Copy, ValueEnum)]
 enum MethodArg {
     Grid,
@@ -134,16 +102,21 @@ enum MethodArg {
 }
 
 #[derive(Clone, Copy, ValueEnum)]
-enum OneBackend {
+pub(crate) enum OneBackend {
     Fixed,
     F32,
     F64,
 }
 
-#[derive(Clone, Copy, ValueEnum)]
-enum DesignMethod {
-    Simc,
-    PolePlacement,
+impl OneBackend {
+    /// The backend chosen.
+    pub(crate) fn kind(self) -> BackendKind {
+        match self {
+            Self::Fixed => BackendKind::Fixed,
+            Self::F32 => BackendKind::F32,
+            Self::F64 => BackendKind::F64,
+        }
+    }
 }
 
 /// `evenkeel sweep`: `Ok(all variants passed)`.
@@ -176,11 +149,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
     if let Some(s) = args.seed {
         plan.seed = s;
     }
-    let backend = match args.backend {
-        OneBackend::Fixed => BackendKind::Fixed,
-        OneBackend::F32 => BackendKind::F32,
-        OneBackend::F64 => BackendKind::F64,
-    };
+    let backend = args.backend.kind();
     let total = plan
         .variants(scenario.uncertainty.len())
         .context("the design is too large")?;
@@ -281,41 +250,4 @@ fn report(scenario: &Scenario, result: &SweepResult, out: &ReportArgs) -> anyhow
         }
     }
     Ok(summary.all_passed())
-}
-
-/// `evenkeel design`: `Ok(true)` when every corner is stable and the
-/// fixed-point format holds the coefficients.
-pub fn design(args: &DesignArgs) -> anyhow::Result<bool> {
-    output::check_report_paths(
-        &[args.rust_out.as_deref(), args.scenario_out.as_deref()],
-        None,
-    )?;
-    let scenario = Scenario::from_path(&args.scenario)?;
-    let request = Request {
-        method: match args.method {
-            DesignMethod::Simc => design::Method::Simc,
-            DesignMethod::PolePlacement => design::Method::PolePlacement,
-        },
-        closed_loop_time_s: args
-            .closed_loop_time_s
-            .or_else(|| args.bandwidth_rad_s.map(|w| 1.0 / w)),
-        damping: args.damping,
-        accel_limit: args.accel_limit,
-        jerk_limit: args.jerk_limit,
-    };
-    let proposal = design::design(&scenario, &request)?;
-    print!("{}", design::report(&scenario, &proposal));
-    let snippet = design::rust_snippet(&scenario, &proposal);
-    if let Some(path) = &args.rust_out {
-        write(path, snippet.as_bytes())?;
-    } else {
-        println!("\n{snippet}");
-    }
-    if let Some(path) = &args.scenario_out {
-        let text = std::fs::read_to_string(&args.scenario)
-            .with_context(|| format!("reading {}", args.scenario.display()))?;
-        let body = design::scenario_toml(&text, &proposal).map_err(anyhow::Error::msg)?;
-        write(path, body.as_bytes())?;
-    }
-    Ok(proposal.fixed.holds() && proposal.corners.iter().all(|c| c.margins.stable()))
 }

@@ -1,0 +1,237 @@
+//! `evenkeel design`: a thin layer over `evenkeel_harness::design::tune`.
+
+use std::path::{Path, PathBuf};
+
+use anyhow::Context;
+use clap::{Args, ValueEnum};
+use evenkeel_harness::Scenario;
+use evenkeel_harness::design::{self, HEADER_MARK, Options, Request, Tuned};
+
+use super::output::{self, write};
+use super::robust::OneBackend;
+
+#[derive(Args)]
+pub struct DesignArgs {
+    /// Scenario file (TOML): plant, `[uncertainty]`, criteria, `[design]`.
+    scenario: PathBuf,
+    /// Analytic rule for the starting point.
+    #[arg(long, value_enum, default_value_t = DesignMethod::Simc)]
+    method: DesignMethod,
+    /// Closed-loop time constant at the slowest corner, s (default: from
+    /// the rise and settling criteria).
+    #[arg(long, value_name = "S", conflicts_with = "bandwidth_rad_s")]
+    closed_loop_time_s: Option<f64>,
+    /// Closed-loop bandwidth target, rad/s (same as a time constant 1/ω).
+    #[arg(long, value_name = "RAD_S")]
+    bandwidth_rad_s: Option<f64>,
+    /// Damping ratio of the placed poles (pole placement).
+    #[arg(long, default_value_t = 1.0)]
+    damping: f64,
+    /// Peak acceleration allowed (default: the peak_accel criterion).
+    #[arg(long)]
+    accel_limit: Option<f64>,
+    /// Peak jerk allowed (default: the peak_jerk criterion).
+    #[arg(long)]
+    jerk_limit: Option<f64>,
+    /// Numeric backend the verification runs the controller on.
+    #[arg(long, value_enum, default_value_t = OneBackend::Fixed)]
+    backend: OneBackend,
+    /// Latin-hypercube variants verified on top of the corners and centre.
+    #[arg(long, default_value_t = design::DEFAULT_COUNT)]
+    count: usize,
+    /// Seed of the sample (default: the `[sweep]` seed, else 0).
+    #[arg(long)]
+    seed: Option<u64>,
+    /// Candidates the search may evaluate at most.
+    #[arg(long, default_value_t = design::DEFAULT_BUDGET)]
+    budget: usize,
+    /// Verify the analytic proposal only; do not search.
+    #[arg(long)]
+    no_search: bool,
+    /// Write the design as JSON to PATH (`-`: standard output).
+    #[arg(long, value_name = "PATH")]
+    json: Option<PathBuf>,
+    /// Write JUnit XML (feasibility, one case per criterion and
+    /// constraint, fixed point) to PATH.
+    #[arg(long, value_name = "PATH")]
+    junit: Option<PathBuf>,
+    /// Frequency responses at every corner, Nyquist curves and the speed
+    /// trade-off, SVG or PNG by extension.
+    #[arg(long, value_name = "PATH")]
+    plot: Option<PathBuf>,
+    /// Write the scenario with the designed values put in (the file as
+    /// written otherwise) to PATH; refuses the input file itself.
+    #[arg(long, value_name = "PATH", conflicts_with = "in_place")]
+    scenario_out: Option<PathBuf>,
+    /// Write the designed values into SCENARIO itself (only when the
+    /// design passes).
+    #[arg(long)]
+    in_place: bool,
+    /// Write the firmware `const` configuration (Rust) to PATH.
+    #[arg(long, value_name = "PATH")]
+    rust_out: Option<PathBuf>,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum DesignMethod {
+    Simc,
+    PolePlacement,
+}
+
+/// `true` if `a` and `b` name the same file (both existing), or the same
+/// path.
+fn same_file(a: &Path, b: &Path) -> bool {
+    match (a.canonicalize(), b.canonicalize()) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => a == b,
+    }
+}
+
+/// Output paths must differ from each other and from the input (except
+/// `--in-place`, which names the input on purpose).
+fn distinct_outputs(args: &DesignArgs) -> anyhow::Result<()> {
+    let outs: Vec<(&str, &Path)> = [
+        ("--json", args.json.as_deref()),
+        ("--junit", args.junit.as_deref()),
+        ("--plot", args.plot.as_deref()),
+        ("--scenario-out", args.scenario_out.as_deref()),
+        ("--rust-out", args.rust_out.as_deref()),
+    ]
+    .into_iter()
+    .filter_map(|(flag, p)| p.map(|p| (flag, p)))
+    .filter(|(_, p)| p.as_os_str() != "-")
+    .collect();
+    for (i, (flag, p)) in outs.iter().enumerate() {
+        if same_file(p, &args.scenario) {
+            if *flag == "--scenario-out" {
+                anyhow::bail!(
+                    "--scenario-out {}: that is the input scenario; refusing to overwrite it (give --in-place to write the design into it)",
+                    p.display()
+                );
+            }
+            anyhow::bail!(
+                "{flag} {}: that is the input scenario; refusing to overwrite it",
+                p.display()
+            );
+        }
+        for (other, q) in &outs[..i] {
+            anyhow::ensure!(
+                !same_file(p, q),
+                "{flag} {} and {other} {} name the same file",
+                p.display(),
+                q.display()
+            );
+        }
+    }
+    Ok(())
+}
+
+/// `evenkeel design`: `Ok(true)` only when the design passes
+/// ([`Tuned::passed`]).
+pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
+    output::check_report_paths(
+        &[
+            args.json.as_deref(),
+            args.junit.as_deref(),
+            args.rust_out.as_deref(),
+            args.scenario_out.as_deref(),
+        ],
+        args.plot.as_deref(),
+    )?;
+    distinct_outputs(args)?;
+    anyhow::ensure!(args.count <= 100_000, "--count {}: at most 100000", args.count);
+    anyhow::ensure!(args.budget >= 1, "--budget must be at least 1");
+    let scenario = Scenario::from_path(&args.scenario)?;
+    let request = Request {
+        method: match args.method {
+            DesignMethod::Simc => design::Method::Simc,
+            DesignMethod::PolePlacement => design::Method::PolePlacement,
+        },
+        closed_loop_time_s: args
+            .closed_loop_time_s
+            .or_else(|| args.bandwidth_rad_s.map(|w| 1.0 / w)),
+        damping: args.damping,
+        accel_limit: args.accel_limit,
+        jerk_limit: args.jerk_limit,
+    };
+    let mut options = Options::for_scenario(&scenario);
+    options.backend = args.backend.kind();
+    options.count = args.count;
+    options.budget = args.budget;
+    options.search = !args.no_search;
+    if let Some(s) = args.seed {
+        options.seed = s;
+    }
+    let tuned = design::tune(&scenario, &request, &options)?;
+    let passed = tuned.passed();
+    let mut text = design::report(&scenario, &tuned);
+    let snippet = snippet(&scenario, &tuned);
+    if args.rust_out.is_none() && tuned.feasibility.feasible() {
+        text.push('\n');
+        text.push_str(&snippet);
+    }
+    if let Some(path) = &args.rust_out {
+        write(path, snippet.as_bytes())?;
+    }
+    let scenario_target = if args.in_place {
+        passed.then_some(args.scenario.as_path())
+    } else {
+        args.scenario_out.as_deref()
+    };
+    if let Some(path) = scenario_target {
+        let source = std::fs::read_to_string(&args.scenario)
+            .with_context(|| format!("reading {}", args.scenario.display()))?;
+        let body = design::scenario_toml(&source, &tuned.settings, &header(&tuned))
+            .map_err(|e| anyhow::anyhow!("{}: {e}", args.scenario.display()))?;
+        write(path, body.as_bytes())?;
+        text.push_str(&format!(
+            "\nwrote {}{}\n",
+            path.display(),
+            if passed {
+                ""
+            } else {
+                " (the best loop found, which FAILS: see above)"
+            }
+        ));
+    } else if args.in_place {
+        text.push_str(&format!(
+            "\n{} left unchanged: the design does not pass\n",
+            args.scenario.display()
+        ));
+    }
+    if let Some(path) = &args.plot {
+        let trade = design::trade_off(&scenario, &tuned.settings, options.backend, options.seed);
+        design::plot(&scenario, &tuned, &trade, path)?;
+    }
+    output::summary(
+        &text,
+        args.json.as_deref(),
+        || design::json(&scenario, &tuned),
+        args.junit.as_deref(),
+        || design::junit(&scenario, &tuned),
+    )?;
+    Ok(passed)
+}
+
+fn snippet(s: &Scenario, t: &Tuned) -> String {
+    let what = format!(
+        "{} start, {} on {} over {} variants",
+        t.start.method.name(),
+        if t.passed() { "verified" } else { "NOT verified: it FAILS" },
+        t.options.backend.name(),
+        t.verification.as_ref().map_or(0, |v| v.variants.len())
+    );
+    design::rust_snippet(s, &t.settings, &what)
+}
+
+/// The lines `design` puts on top of a scenario it writes.
+fn header(t: &Tuned) -> Vec<String> {
+    vec![
+        format!(
+            "{HEADER_MARK} [controller] values designed and verified by `evenkeel design` ({}): {}",
+            t.options.backend.name(),
+            design::verdict(t)
+        ),
+        format!("{HEADER_MARK} {}", evenkeel_harness::CAUTION),
+    ]
+}
