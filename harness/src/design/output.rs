@@ -98,7 +98,15 @@ pub fn report(s: &Scenario, t: &Tuned) -> String {
     }
     let _ = writeln!(out, "  verdict: {}", verdict(t));
     let c = &t.settings;
-    let _ = writeln!(out, "  proposal:");
+    let _ = writeln!(
+        out,
+        "  {}:",
+        if t.verification.is_some() {
+            "proposal"
+        } else {
+            "analytic start (not verified: the criteria are infeasible)"
+        }
+    );
     let _ = writeln!(
         out,
         "    period_s = {}   kp = {}   ki_per_s = {}   setpoint_weight = {}",

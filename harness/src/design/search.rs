@@ -1,5 +1,6 @@
 //! The search for a loop that passes: a deterministic pattern search
-//! (compass search with complete polling and step halving; Kolda, Lewis &
+//! (compass search with complete polling, diagonal moves of the two gains,
+//! a pattern move after each success and step halving; Kolda, Lewis &
 //! Torczon, "Optimization by direct search", SIAM Review 45(3), 2003)
 //! over the controller's tuning knobs, maximising the worst normalised
 //! margin over the criteria of a working set of variants and over the
@@ -433,47 +434,101 @@ pub fn pattern_search(
             return (best, iterations, Stop::Converged);
         }
         iterations += 1;
-        let mut polls: Vec<Vec<f64>> = Vec::new();
-        for (i, a) in space.axes.iter().enumerate() {
-            if steps[i] < a.floor {
-                continue;
+        let polls = poll_points(space, &x, &steps);
+        let Some((c, y)) = best_of(ev, space, &best, polls, which) else {
+            for s in &mut steps {
+                *s *= 0.5;
             }
-            for sign in [1.0, -1.0] {
-                let mut y = x.clone();
-                y[i] = (y[i] + sign * steps[i]).clamp(a.lo, a.hi);
-                if (y[i] - x[i]).abs() > 0.0 {
-                    polls.push(y);
+            continue;
+        };
+        // A successful move: extrapolate along it while that keeps paying
+        // (the pattern move of Hooke & Jeeves, J. ACM 8(2), 1961).
+        let mut from = x.clone();
+        best = c;
+        x = y;
+        for _ in 0..3 {
+            if best.score.worst >= target || ev.candidates >= budget {
+                break;
+            }
+            let ahead: Vec<f64> = x
+                .iter()
+                .zip(&from)
+                .zip(&space.axes)
+                .map(|((a, b), axis)| (a + (a - b)).clamp(axis.lo, axis.hi))
+                .collect();
+            match best_of(ev, space, &best, vec![ahead], which) {
+                Some((c, y)) => {
+                    from = std::mem::replace(&mut x, y);
+                    best = c;
                 }
-            }
-        }
-        // Distinct rounded settings only.
-        let mut settings: Vec<Settings> = Vec::new();
-        let mut coords: Vec<Vec<f64>> = Vec::new();
-        for y in polls {
-            let c = space.settings(&y);
-            if c != best.settings && !settings.contains(&c) {
-                settings.push(c);
-                coords.push(y);
-            }
-        }
-        let results = ev.evaluate(&settings, which);
-        let winner = results
-            .into_iter()
-            .zip(coords)
-            .filter(|(c, _)| c.score.beats(&best.score))
-            .reduce(|a, b| if b.0.score.beats(&a.0.score) { b } else { a });
-        match winner {
-            Some((c, y)) => {
-                best = c;
-                x = y;
-            }
-            None => {
-                for s in &mut steps {
-                    *s *= 0.5;
-                }
+                None => break,
             }
         }
     }
+}
+
+/// The poll around `x`: each coordinate up and down by its step, and the
+/// four diagonals of (`ln Kp`, `ln Ti`) — faster, slower, more and less
+/// proportional action at the same integral gain — which follow the ridges
+/// of a min-max objective that single coordinates cannot.
+fn poll_points(space: &Space, x: &[f64], steps: &[f64]) -> Vec<Vec<f64>> {
+    let mut polls: Vec<Vec<f64>> = Vec::new();
+    let mut push = |moves: &[(usize, f64)]| {
+        let mut y = x.to_vec();
+        for &(i, d) in moves {
+            let a = &space.axes[i];
+            y[i] = (y[i] + d).clamp(a.lo, a.hi);
+        }
+        if y.iter().zip(x).any(|(a, b)| (a - b).abs() > 0.0) {
+            polls.push(y);
+        }
+    };
+    for (i, a) in space.axes.iter().enumerate() {
+        if steps[i] < a.floor {
+            continue;
+        }
+        push(&[(i, steps[i])]);
+        push(&[(i, -steps[i])]);
+    }
+    let kp = space.axes.iter().position(|a| a.knob == Knob::LnKp);
+    let ti = space.axes.iter().position(|a| a.knob == Knob::LnTi);
+    if let (Some(k), Some(t)) = (kp, ti) {
+        let d = steps[k].min(steps[t]);
+        if d >= space.axes[k].floor {
+            for (sk, st) in [(1.0, -1.0), (-1.0, 1.0), (1.0, 1.0), (-1.0, -1.0)] {
+                push(&[(k, sk * d), (t, st * d)]);
+            }
+        }
+    }
+    polls
+}
+
+/// The best of `polls` that beats `best` (distinct rounded settings only),
+/// with its coordinates.
+fn best_of(
+    ev: &mut Evaluator<'_>,
+    space: &Space,
+    best: &Candidate,
+    polls: Vec<Vec<f64>>,
+    which: &[usize],
+) -> Option<(Candidate, Vec<f64>)> {
+    let mut settings: Vec<Settings> = Vec::new();
+    let mut coords: Vec<Vec<f64>> = Vec::new();
+    for y in polls {
+        let c = space.settings(&y);
+        if c != best.settings && !settings.contains(&c) {
+            settings.push(c);
+            coords.push(y);
+        }
+    }
+    if settings.is_empty() {
+        return None;
+    }
+    ev.evaluate(&settings, which)
+        .into_iter()
+        .zip(coords)
+        .filter(|(c, _)| c.score.beats(&best.score))
+        .reduce(|a, b| if b.0.score.beats(&a.0.score) { b } else { a })
 }
 
 /// Variant indices of the sample that bind `variants` worst, not yet in

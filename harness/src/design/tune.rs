@@ -145,7 +145,7 @@ pub fn tune(s: &Scenario, req: &Request, opts: &Options) -> Result<Tuned, Design
         let constraints = super::verify::constraints(&corners, &s.design);
         return Ok(Tuned {
             feasibility,
-            notices: notices(s, &start.settings),
+            notices: Vec::new(),
             settings: start.settings,
             corners,
             constraints,
