@@ -22,9 +22,7 @@ pub const HEADER_MARK: &str = "# evenkeel design:";
 pub fn designed_values(c: &Settings) -> Vec<(&'static str, Option<DesignedValue>)> {
     let f = |x: f64| Some(DesignedValue::Number(x));
     let (aw, tt) = match c.anti_windup {
-        AntiWindup::BackCalculation { tracking_time_s } => {
-            ("back_calculation", f(tracking_time_s))
-        }
+        AntiWindup::BackCalculation { tracking_time_s } => ("back_calculation", f(tracking_time_s)),
         AntiWindup::ConditionalIntegration => ("conditional_integration", None),
     };
     vec![
@@ -88,7 +86,9 @@ pub fn scenario_toml(text: &str, c: &Settings, header: &[String]) -> Result<Stri
         }
         lines.collect()
     };
-    let mut doc: DocumentMut = body.parse().map_err(|e: toml_edit::TomlError| e.to_string())?;
+    let mut doc: DocumentMut = body
+        .parse()
+        .map_err(|e: toml_edit::TomlError| e.to_string())?;
     let table = doc
         .get_mut("controller")
         .and_then(Item::as_table_like_mut)
@@ -129,6 +129,24 @@ pub fn scenario_toml(text: &str, c: &Settings, header: &[String]) -> Result<Stri
     }
     out.push_str(&doc.to_string());
     Ok(out)
+}
+
+/// The firmware `const` of what `design` hands over (what the CLI prints
+/// and `--rust-out` writes), saying whether it was verified.
+#[must_use]
+pub fn snippet(s: &Scenario, t: &super::Tuned) -> String {
+    let what = format!(
+        "from {}, {} on the {} backend over {} variants",
+        t.start_name(),
+        if t.passed() {
+            "verified"
+        } else {
+            "NOT verified: it FAILS"
+        },
+        t.options.backend.name(),
+        t.verification.as_ref().map_or(0, |v| v.variants.len())
+    );
+    rust_snippet(s, &t.settings, &what)
 }
 
 /// A Rust `const` configuration for firmware, checked by the compiler
@@ -188,10 +206,11 @@ mod tests {
 
     #[test]
     fn only_designed_values_change() {
-        let c = Settings::new(0.5, 0.001, 0.25, 0.0, 0.9)
-            .with_anti_windup(AntiWindup::BackCalculation {
+        let c = Settings::new(0.5, 0.001, 0.25, 0.0, 0.9).with_anti_windup(
+            AntiWindup::BackCalculation {
                 tracking_time_s: 4.0,
-            });
+            },
+        );
         let out = scenario_toml(TEXT, &c, &[format!("{HEADER_MARK} test")]).unwrap();
         // Unchanged values keep their spelling and comments.
         assert!(out.contains("kp = 1.0e-3     # per K\n"), "{out}");
@@ -201,25 +220,40 @@ mod tests {
         assert!(out.contains("output_max = 0.9\n"), "{out}");
         // Dropped and added keys.
         assert!(!out.contains("filter_time_s"), "{out}");
-        assert!(out.contains("anti_windup = \"back_calculation\"\n"), "{out}");
+        assert!(
+            out.contains("anti_windup = \"back_calculation\"\n"),
+            "{out}"
+        );
         assert!(out.contains("tracking_time_s = 4.0\n"), "{out}");
         assert!(!out.contains("setpoint_weight"), "{out}");
         // Everything after [controller] byte for byte, key order kept.
         let tail = &TEXT[TEXT.find("\n[uncertainty]").unwrap()..];
         assert!(out.ends_with(tail), "{out}");
-        assert!(out.starts_with("# evenkeel design: test\n# my heater\n"), "{out}");
+        assert!(
+            out.starts_with("# evenkeel design: test\n# my heater\n"),
+            "{out}"
+        );
         // A second design replaces the header, not stacks it.
         let again = scenario_toml(&out, &c, &[format!("{HEADER_MARK} again")]).unwrap();
-        assert!(again.starts_with("# evenkeel design: again\n# my heater\n"), "{again}");
+        assert!(
+            again.starts_with("# evenkeel design: again\n# my heater\n"),
+            "{again}"
+        );
     }
 
     #[test]
     fn snippet_states_every_setting() {
         let s = Scenario::demo().unwrap();
         let text = rust_snippet(&s, &s.controller, "simc");
-        assert!(text.contains("Settings::new(0.01, 1.03, 0.325, -1.0, 1.0)"), "{text}");
+        assert!(
+            text.contains("Settings::new(0.01, 1.03, 0.325, -1.0, 1.0)"),
+            "{text}"
+        );
         assert!(text.contains(".with_setpoint_weight(0.68)"), "{text}");
-        assert!(text.contains("evenkeel::config!(I16F16, SETTINGS)"), "{text}");
+        assert!(
+            text.contains("evenkeel::config!(I16F16, SETTINGS)"),
+            "{text}"
+        );
         assert!(text.contains(CAUTION));
     }
 }

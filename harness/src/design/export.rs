@@ -180,6 +180,11 @@ pub fn json(s: &Scenario, t: &Tuned) -> Value {
         "passed": t.passed(),
         "verdict": verdict(t),
         "method": t.start.method.name(),
+        "started_from": match t.started_from {
+            super::StartPoint::Analytic => "analytic",
+            super::StartPoint::AsWritten => "as_written",
+        },
+        "analytic": settings(&t.start.settings),
         "backend": t.options.backend.name(),
         "notices": t.notices,
         "feasibility": {
@@ -189,7 +194,7 @@ pub fn json(s: &Scenario, t: &Tuned) -> Value {
             "findings": findings,
         },
         "proposal": settings(&t.settings),
-        "start": settings(&t.start.settings),
+
         "derivation": t.start.derivation,
         "search": {
             "searched": log.searched,
@@ -233,7 +238,10 @@ pub fn junit(s: &Scenario, t: &Tuned) -> String {
         "feasibility".into(),
         (!infeasible.is_empty()).then(|| {
             (
-                format!("{} criterion(s) cannot be met by any controller", infeasible.len()),
+                format!(
+                    "{} criterion(s) cannot be met by any controller",
+                    infeasible.len()
+                ),
                 infeasible.join("\n"),
             )
         }),

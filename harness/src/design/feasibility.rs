@@ -210,13 +210,19 @@ fn criterion_max(s: &Scenario, metric: MetricKey) -> Option<f64> {
 /// within `[u_lo, u_hi]` at `env`, by bisection (the hold command of the
 /// lag, the vehicle and the rotor grows with `y` for `y ≥ 0`). `None` for
 /// an integrator (its hold command does not depend on the output).
-fn reachable(s: &Scenario, from: f64, to: f64, u_lim: f64, up: bool, env: &Environment) -> Option<f64> {
+fn reachable(
+    s: &Scenario,
+    from: f64,
+    to: f64,
+    u_lim: f64,
+    up: bool,
+    env: &Environment,
+) -> Option<f64> {
     if matches!(s.plant, PlantModel::Integrator { .. }) {
         return None;
     }
-    let beyond = |y: f64| {
-        hold_command(s, y, env).is_none_or(|u| if up { u > u_lim } else { u < u_lim })
-    };
+    let beyond =
+        |y: f64| hold_command(s, y, env).is_none_or(|u| if up { u > u_lim } else { u < u_lim });
     let (mut ok, mut bad) = (from, to);
     if beyond(ok) {
         return Some(from);
@@ -280,10 +286,7 @@ fn keep_worst(slot: &mut Option<Worst>, shortfall: f64, finding: Finding) {
 /// Time grid of the analysis: every controller period, or at most 20,000
 /// points over the run.
 fn grid(s: &Scenario) -> Vec<f64> {
-    let dt = s
-        .controller
-        .period_s
-        .max(s.setup.duration_s / 20_000.0);
+    let dt = s.controller.period_s.max(s.setup.duration_s / 20_000.0);
     #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
     let n = (s.setup.duration_s / dt).floor() as usize;
     #[allow(clippy::cast_precision_loss)]
@@ -344,7 +347,11 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
                 } else if span > 0.0 {
                     let room = -excess / span;
                     if room < 0.05 && headroom.as_ref().is_none_or(|h| room < h.0) {
-                        let side = if u_hi - u < u - u_lo { "output_max" } else { "output_min" };
+                        let side = if u_hi - u < u - u_lo {
+                            "output_max"
+                        } else {
+                            "output_min"
+                        };
                         headroom = Some((
                             room,
                             Finding {
@@ -375,7 +382,11 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
             let lim = if up { u_hi } else { u_lo };
             let env = v.setup.disturbances.at(t);
             let start_y = v.setup.reference.range();
-            let from = if up { start_y.0.min(r) } else { start_y.1.max(r) };
+            let from = if up {
+                start_y.0.min(r)
+            } else {
+                start_y.1.max(r)
+            };
             let y_reach = reachable(v, from, r, lim, up, &env);
             let side = if up { "output_max" } else { "output_min" };
             let physical = actuator_max.map(|(a_lo, a_hi)| if up { a_hi } else { a_lo });
@@ -407,7 +418,10 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
                 parts.join(", or ")
             };
             let held = y_reach.map_or_else(
-                || "the output drifts away (an integrating plant cannot be held with less)".to_owned(),
+                || {
+                    "the output drifts away (an integrating plant cannot be held with less)"
+                        .to_owned()
+                },
                 |y| format!("the most the loop can hold there is {} {unit}", n(y)),
             );
             let what = format!(
@@ -430,7 +444,10 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
             {
                 // Worst time inside the end window.
                 let mut e_end = 0.0f64;
-                for &x in times.iter().filter(|&&x| x >= steady_from.max(t0) && x < t1) {
+                for &x in times
+                    .iter()
+                    .filter(|&&x| x >= steady_from.max(t0) && x < t1)
+                {
                     let env = v.setup.disturbances.at(x);
                     if let Some(uu) = hold_command(v, r, &env)
                         && ((up && uu > u_hi) || (!up && uu < u_lo))
@@ -664,7 +681,10 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
                             n(limit),
                             n(t_settle - limit),
                             if theta > 0.0 {
-                                format!(", and it reacts only after the dead time of {} s", n(theta))
+                                format!(
+                                    ", and it reacts only after the dead time of {} s",
+                                    n(theta)
+                                )
                             } else {
                                 String::new()
                             }
@@ -673,7 +693,11 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
                             "raise settling_time_s to ≥ {}, or make the step at most {} {unit}, or relax the limit that bounds the motion ({})",
                             n(t_settle),
                             n(d_ok.max(0.0)),
-                            if j_max.is_finite() { format!("{v_why}; {j_why}") } else { v_why.clone() }
+                            if j_max.is_finite() {
+                                format!("{v_why}; {j_why}")
+                            } else {
+                                v_why.clone()
+                            }
                         )),
                     },
                 );
@@ -781,7 +805,11 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
             }
         }
     } else {
-        for key in [MetricKey::RiseTime, MetricKey::SettlingTime, MetricKey::Overshoot] {
+        for key in [
+            MetricKey::RiseTime,
+            MetricKey::SettlingTime,
+            MetricKey::Overshoot,
+        ] {
             if s.criteria.iter().any(|c| c.metric == key) {
                 out.findings.push(Finding {
                     severity: Severity::Infeasible,
@@ -823,7 +851,11 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
                     dy = dy.clamp(-a, a);
                 }
                 let r = v.setup.reference.at(t + dt);
-                y = if up { (y + dy * dt).min(r) } else { (y + dy * dt).max(r) };
+                y = if up {
+                    (y + dy * dt).min(r)
+                } else {
+                    (y + dy * dt).max(r)
+                };
                 lag = lag.max((r - y).abs());
                 t += dt;
             }
@@ -842,7 +874,11 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
                         n(p.start_s),
                         n(rate.abs()),
                         c.label,
-                        if accel_lim.is_some() { " within the peak_accel limit" } else { "" },
+                        if accel_lim.is_some() {
+                            " within the peak_accel limit"
+                        } else {
+                            ""
+                        },
                         n(lag)
                     ),
                     remedy: None,
@@ -907,9 +943,9 @@ mod tests {
     #[test]
     fn travel_time_and_distance_worked_by_hand() {
         let table = [
-            (0.5, 0.5),  // exactly the ramp-up
+            (0.5, 0.5),    // exactly the ramp-up
             (0.125, 0.25), // inside the ramp-up: √(2·0.125/4)
-            (2.5, 1.5),  // 0.5 s ramp-up + 2/2 s at full rate
+            (2.5, 1.5),    // 0.5 s ramp-up + 2/2 s at full rate
         ];
         for (d, t) in table {
             assert!((travel_time(d, 2.0, 4.0) - t).abs() < 1e-12, "{d}");
@@ -924,9 +960,20 @@ mod tests {
         use crate::profile::Segment;
         let p = Profile::new(
             0.0,
-            vec![Segment::hold(2.0), Segment::ramp(4.0, 5.0, 18.0), Segment::step(1.0, 3.0)],
+            vec![
+                Segment::hold(2.0),
+                Segment::ramp(4.0, 5.0, 18.0),
+                Segment::step(1.0, 3.0),
+            ],
         );
         let h = holds(&p);
-        assert_eq!(h, vec![(0.0, 2.0, 0.0), (7.0, 25.0, 4.0), (25.0, f64::INFINITY, 1.0)]);
+        assert_eq!(
+            h,
+            vec![
+                (0.0, 2.0, 0.0),
+                (7.0, 25.0, 4.0),
+                (25.0, f64::INFINITY, 1.0)
+            ]
+        );
     }
 }

@@ -712,10 +712,7 @@ mod tests {
         let found = roots(&p);
         assert_eq!(found.len(), p.len() - 1);
         for z in &found {
-            let scale = p
-                .iter()
-                .rev()
-                .fold(0.0, |acc, c| acc * z.abs() + c.abs());
+            let scale = p.iter().rev().fold(0.0, |acc, c| acc * z.abs() + c.abs());
             let value = peval(&p, *z).abs();
             let residual = if value == 0.0 { 0.0 } else { value / scale };
             assert!(residual < 1e-12, "{z:?}: {residual}");

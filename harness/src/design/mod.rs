@@ -33,6 +33,10 @@ mod verify;
 use evenkeel::fixed::types::I16F16;
 use evenkeel::{Config, ConfigError, Settings};
 
+pub use analytic::design;
+pub use edit::{DesignedValue, HEADER_MARK, designed_values, rust_snippet, scenario_toml, snippet};
+pub use export::{json, junit};
+pub use feasibility::{Feasibility, Finding, Severity, feasibility};
 pub use margins::{
     LinearPlant, LoopCoefficients, Margins, ResponsePoint, SampledLoop, frequency_response, margins,
 };
@@ -40,16 +44,12 @@ pub use model::{
     Corner, command_gain, corners, equilibrium_command, hold_command, linearise, output_rate,
     reference_rate,
 };
-pub use edit::{DesignedValue, HEADER_MARK, designed_values, rust_snippet, scenario_toml};
-pub use export::{json, junit};
 pub use output::{report, verdict};
 pub use plot::plot;
-pub use analytic::design;
-pub use feasibility::{Feasibility, Finding, Severity, feasibility};
 pub use search::{Score, Stop};
 pub use tune::{
-    DEFAULT_BUDGET, DEFAULT_COUNT, Options, SearchLog, TRADE_FACTORS, TradeOff, TradePoint, Tuned,
-    trade_off, tune,
+    DEFAULT_BUDGET, DEFAULT_COUNT, Options, SearchLog, StartPoint, TRADE_FACTORS, TradeOff,
+    TradePoint, Tuned, trade_off, tune,
 };
 pub use tuning::{Fopdt, Pi, half_rule, pole_placement, simc};
 pub use verify::{
@@ -208,7 +208,6 @@ impl Proposal {
         })
     }
 }
-
 
 /// The fixed-point (Q16.16) check of `settings`: accepted, and what it
 /// stores against what was wanted.

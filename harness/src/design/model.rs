@@ -3,8 +3,8 @@
 //! points.
 
 use super::margins::LinearPlant;
-use crate::plant::STANDARD_GRAVITY_M_S2;
 use crate::plant::Environment;
+use crate::plant::STANDARD_GRAVITY_M_S2;
 use crate::scenario::{PlantModel, Scenario};
 
 /// One corner: parameter values, the gain factor and operating output it

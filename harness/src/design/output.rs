@@ -19,7 +19,11 @@ fn n(x: f64) -> String {
 /// A margin with its sign: `+0.238`, `−0.120`.
 fn m(x: f64) -> String {
     if x.is_infinite() {
-        return if x > 0.0 { "+∞".into() } else { "−∞".into() };
+        return if x > 0.0 {
+            "+∞".into()
+        } else {
+            "−∞".into()
+        };
     }
     format!("{x:+.3}").replace('-', "−")
 }
@@ -29,7 +33,10 @@ fn m(x: f64) -> String {
 pub fn verdict(t: &Tuned) -> String {
     if !t.feasibility.feasible() {
         let k = t.feasibility.infeasible().count();
-        return format!("FAIL: infeasible ({k} finding{}): no controller can meet the criteria as written; nothing was tuned", if k == 1 { "" } else { "s" });
+        return format!(
+            "FAIL: infeasible ({k} finding{}): no controller can meet the criteria as written; nothing was tuned",
+            if k == 1 { "" } else { "s" }
+        );
     }
     let Some(v) = &t.verification else {
         return "FAIL: not verified".into();
@@ -67,7 +74,7 @@ pub fn report(s: &Scenario, t: &Tuned) -> String {
     let opts = &t.options;
     let _ = writeln!(
         out,
-        "design for {} ({}): start {}, verified on the {} backend",
+        "design for {} ({}): analytic rule {}, verified on the {} backend",
         s.name,
         s.source,
         t.start.method.name(),
@@ -84,7 +91,11 @@ pub fn report(s: &Scenario, t: &Tuned) -> String {
         if f.corners == 1 { "" } else { "s" },
         f.holds,
         if f.holds == 1 { "" } else { "s" },
-        if f.feasible() { "feasible" } else { "INFEASIBLE" }
+        if f.feasible() {
+            "feasible"
+        } else {
+            "INFEASIBLE"
+        }
     );
     for finding in &f.findings {
         let tag = match finding.severity {
@@ -153,8 +164,8 @@ pub fn report(s: &Scenario, t: &Tuned) -> String {
         if log.searched {
             let _ = writeln!(
                 out,
-                "  search: the {} start had worst margin {}; pattern search over {} knobs, {} round{}, {} iterations, {} candidates, {} closed-loop runs, working set {} variants; stopped: {}",
-                t.start.method.name(),
+                "  search: {} had worst margin {}; pattern search over {} knobs, {} round{}, {} iterations, {} candidates, {} closed-loop runs, working set {} variants; stopped: {}",
+                t.start_name(),
                 m(log.start_worst),
                 log.knobs,
                 log.rounds,
@@ -168,8 +179,8 @@ pub fn report(s: &Scenario, t: &Tuned) -> String {
         } else {
             let _ = writeln!(
                 out,
-                "  search: not needed: the {} start has worst margin {} (target {}); {} closed-loop runs",
-                t.start.method.name(),
+                "  search: not needed: {} has worst margin {} (target {}); {} closed-loop runs",
+                t.start_name(),
                 m(log.start_worst),
                 m(s.design.target_margin),
                 log.runs
@@ -219,7 +230,16 @@ pub fn report(s: &Scenario, t: &Tuned) -> String {
             k.corner
         );
     }
-    let _ = writeln!(out, "  derivation of the {} start:", t.start.method.name());
+    let _ = writeln!(
+        out,
+        "  derivation of the {} proposal{}:",
+        t.start.method.name(),
+        if t.started_from == super::StartPoint::AsWritten {
+            " (not the start: the [controller] as written scored better)"
+        } else {
+            ""
+        }
+    );
     for line in &t.start.derivation {
         let _ = writeln!(out, "    - {line}");
     }

@@ -9,9 +9,7 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::{
-    LoopCoefficients, ResponsePoint, SampledLoop, TradeOff, Tuned, frequency_response,
-};
+use super::{LoopCoefficients, ResponsePoint, SampledLoop, TradeOff, Tuned, frequency_response};
 use crate::plot::{Figure, PlotError, draw_error, draw_page, write_figure};
 use crate::scenario::Scenario;
 
@@ -102,7 +100,12 @@ fn bode<DB: DrawingBackend>(
         }
     };
     let all = curves.iter().flat_map(|c| c.2.iter());
-    let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
+    let (mut x0, mut x1, mut y0, mut y1) = (
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+    );
     for p in all {
         let x = p.w_rad_s.log10();
         x0 = x0.min(x);
@@ -132,7 +135,11 @@ fn bode<DB: DrawingBackend>(
     chart
         .configure_mesh()
         .x_desc("frequency (rad/s)")
-        .y_desc(if magnitude { "|L| (dB)" } else { "phase of L (deg)" })
+        .y_desc(if magnitude {
+            "|L| (dB)"
+        } else {
+            "phase of L (deg)"
+        })
         .x_label_formatter(&|x: &f64| format!("{:.3}", 10f64.powf(*x)))
         .label_style((FONT, 14))
         .axis_desc_style((FONT, 16))
@@ -157,16 +164,19 @@ fn bode<DB: DrawingBackend>(
             .collect();
         let colour = if i == worst { RED } else { GREY };
         let series = chart
-            .draw_series(LineSeries::new(line, colour.stroke_width(if i == worst { 2 } else { 1 })))
+            .draw_series(LineSeries::new(
+                line,
+                colour.stroke_width(if i == worst { 2 } else { 1 }),
+            ))
             .map_err(draw_error)?;
         if i == worst {
             series
                 .label(format!("highest Ms: {label}"))
                 .legend(move |(x, y)| PathElement::new([(x, y), (x + 20, y)], RED.stroke_width(2)));
         } else if i == 0 || (worst == 0 && i == 1) {
-            series
-                .label("other corners")
-                .legend(move |(x, y)| PathElement::new([(x, y), (x + 20, y)], GREY.stroke_width(1)));
+            series.label("other corners").legend(move |(x, y)| {
+                PathElement::new([(x, y), (x + 20, y)], GREY.stroke_width(1))
+            });
         }
     }
     chart
@@ -228,7 +238,10 @@ fn nyquist<DB: DrawingBackend>(
                 piece.push((p.re, p.im));
             } else if !piece.is_empty() {
                 chart
-                    .draw_series(LineSeries::new(std::mem::take(&mut piece), colour.stroke_width(1)))
+                    .draw_series(LineSeries::new(
+                        std::mem::take(&mut piece),
+                        colour.stroke_width(1),
+                    ))
                     .map_err(draw_error)?;
             }
         }
@@ -289,7 +302,7 @@ fn trade_panel<DB: DrawingBackend>(
             .map_err(draw_error)?;
     }
     chart
-        .draw_series(LineSeries::new(pts.clone(), BLUE.stroke_width(2)))
+        .draw_series(LineSeries::new(pts.clone(), BLUE.mix(0.5).stroke_width(1)))
         .map_err(draw_error)?
         .label(format!("heavy: {}", trade.heavy))
         .legend(|(x, y)| PathElement::new([(x, y), (x + 20, y)], BLUE.stroke_width(2)));
@@ -300,7 +313,11 @@ fn trade_panel<DB: DrawingBackend>(
         .legend(|(x, y)| PathElement::new([(x, y), (x + 20, y)], WHITE));
     for (p, &(x, y)) in trade.points.iter().zip(&pts) {
         let proposal = (p.factor - 1.0).abs() < 1e-12;
-        let style = if proposal { RED.filled() } else { BLUE.filled() };
+        let style = if proposal {
+            RED.filled()
+        } else {
+            BLUE.filled()
+        };
         chart
             .draw_series([Circle::new((x, y), if proposal { 7 } else { 3 }, style)])
             .map_err(draw_error)?;
@@ -311,8 +328,24 @@ fn trade_panel<DB: DrawingBackend>(
             short(&p.heavy_criterion),
             short(&p.light_criterion)
         );
+        // Labels on the right half point left, so they stay on the panel.
+        let anchor = if x > 0.5 * (x0 + x1) {
+            plotters::style::text_anchor::Pos::new(
+                plotters::style::text_anchor::HPos::Right,
+                plotters::style::text_anchor::VPos::Center,
+            )
+        } else {
+            plotters::style::text_anchor::Pos::new(
+                plotters::style::text_anchor::HPos::Left,
+                plotters::style::text_anchor::VPos::Center,
+            )
+        };
         chart
-            .draw_series([Text::new(text, (x, y), (FONT, 11).into_font())])
+            .draw_series([Text::new(
+                text,
+                (x, y),
+                TextStyle::from((FONT, 11).into_font()).pos(anchor),
+            )])
             .map_err(draw_error)?;
     }
     chart
@@ -327,5 +360,5 @@ fn trade_panel<DB: DrawingBackend>(
 
 /// A criterion name without its unit suffix, for point labels.
 fn short(name: &str) -> &str {
-    name.trim_end_matches("_s").trim_end_matches("_per_s")
+    name.trim_end_matches("_per_s").trim_end_matches("_s")
 }

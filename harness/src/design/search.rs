@@ -179,10 +179,7 @@ impl Space {
                 floor: 0.002 * span,
             });
         }
-        Self {
-            base: *start,
-            axes,
-        }
+        Self { base: *start, axes }
     }
 
     /// Coordinates of `settings`.
@@ -331,7 +328,7 @@ impl Evaluator<'_> {
             .par_iter()
             .map(|&(i, w)| (i, run_variant(&bases[i], &self.points[w], w, self.backend)))
             .collect();
-        list.iter()
+        list.par_iter()
             .enumerate()
             .map(|(i, c)| {
                 if !valid[i] {
@@ -374,7 +371,8 @@ pub fn score(s: &Scenario, variants: &[VariantCheck], cons: &[ConstraintMargin])
         .collect();
     let worst = margins.iter().copied().fold(f64::INFINITY, f64::min);
     #[allow(clippy::cast_precision_loss)]
-    let mean = margins.iter().map(|m| m.clamp(-2.0, 0.5)).sum::<f64>() / margins.len().max(1) as f64;
+    let mean =
+        margins.iter().map(|m| m.clamp(-2.0, 0.5)).sum::<f64>() / margins.len().max(1) as f64;
     if worst.is_nan() {
         return Score::INVALID;
     }
@@ -426,11 +424,7 @@ pub fn pattern_search(
         if ev.candidates >= budget {
             return (best, iterations, Stop::Budget);
         }
-        if steps
-            .iter()
-            .zip(&space.axes)
-            .all(|(s, a)| *s < a.floor)
-        {
+        if steps.iter().zip(&space.axes).all(|(s, a)| *s < a.floor) {
             return (best, iterations, Stop::Converged);
         }
         iterations += 1;
@@ -552,10 +546,19 @@ mod tests {
 
     #[test]
     fn scores_compare_on_the_worst_margin_then_the_mean() {
-        let a = Score { worst: 0.1, mean: 0.0 };
-        let b = Score { worst: 0.0, mean: 0.4 };
+        let a = Score {
+            worst: 0.1,
+            mean: 0.0,
+        };
+        let b = Score {
+            worst: 0.0,
+            mean: 0.4,
+        };
         assert!(a.beats(&b) && !b.beats(&a));
-        let c = Score { worst: 0.1, mean: 0.2 };
+        let c = Score {
+            worst: 0.1,
+            mean: 0.2,
+        };
         assert!(c.beats(&a) && !a.beats(&c));
         assert!(!a.beats(&a));
         assert!(a.beats(&Score::INVALID));

@@ -79,13 +79,26 @@ pub struct SearchLog {
     pub final_worst: f64,
 }
 
+/// Where the search started.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StartPoint {
+    /// The analytic rule (SIMC or pole placement).
+    Analytic,
+    /// The `[controller]` as written in the scenario: it scored better
+    /// over the sample than the analytic rule (e.g. an earlier design).
+    AsWritten,
+}
+
 /// The outcome of `design`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Tuned {
     /// Feasibility of the criteria at every corner.
     pub feasibility: Feasibility,
-    /// The analytic starting point (with its derivation).
+    /// The analytic proposal (with its derivation).
     pub start: Proposal,
+    /// Which start the search took: the analytic proposal, or the
+    /// `[controller]` as written when that scored better.
+    pub started_from: StartPoint,
     /// Said before anything else: limits narrowed, anti-windup switched.
     pub notices: Vec<String>,
     /// The loop handed over.
@@ -107,6 +120,16 @@ pub struct Tuned {
 }
 
 impl Tuned {
+    /// The start the search took, in words: `the simc proposal`, `the
+    /// [controller] as written`.
+    #[must_use]
+    pub fn start_name(&self) -> String {
+        match self.started_from {
+            StartPoint::Analytic => format!("the {} proposal", self.start.method.name()),
+            StartPoint::AsWritten => "the [controller] as written".into(),
+        }
+    }
+
     /// `true` only when the criteria are feasible, every sampled variant
     /// meets every criterion, every constraint holds and Q16.16 holds the
     /// coefficients.
@@ -153,6 +176,7 @@ pub fn tune(s: &Scenario, req: &Request, opts: &Options) -> Result<Tuned, Design
             verification: None,
             start_verification: None,
             start,
+            started_from: StartPoint::Analytic,
             search: log,
             options: *opts,
         });
@@ -167,16 +191,26 @@ pub fn tune(s: &Scenario, req: &Request, opts: &Options) -> Result<Tuned, Design
         candidates: 0,
         runs: 0,
     };
-    let first = ev
+    let mut first = ev
         .evaluate(&[start.settings], &all)
         .pop()
         .ok_or_else(|| DesignError::Request("no candidate evaluated".into()))?;
+    // The [controller] as written (an earlier design, a hand tune) is the
+    // start when it does better: a passing loop is not re-tuned away.
+    let mut started_from = StartPoint::Analytic;
+    if s.controller != start.settings
+        && let Some(written) = ev.evaluate(&[s.controller], &all).pop()
+        && written.score.beats(&first.score)
+    {
+        first = written;
+        started_from = StartPoint::AsWritten;
+    }
     log.start_worst = first.score.worst;
     let start_margins = criterion_margins(&s.criteria, &first.variants);
     let mut best_full = first.clone();
     if opts.search && first.score.worst < target {
         log.searched = true;
-        let space = Space::around(s, &start.settings);
+        let space = Space::around(s, &first.settings);
         log.knobs = space.dims();
         let mut which: Vec<usize> = points
             .iter()
@@ -233,6 +267,7 @@ pub fn tune(s: &Scenario, req: &Request, opts: &Options) -> Result<Tuned, Design
         verification: Some(verification),
         start_verification: Some(start_margins),
         start,
+        started_from,
         search: log,
         options: *opts,
     })
@@ -334,7 +369,11 @@ pub fn trade_off(s: &Scenario, settings: &Settings, backend: BackendKind, seed: 
             .enumerate()
             .map(|(j, u)| {
                 let (lo, hi) = u.dist.support();
-                if dims > 0 && (i >> j) & 1 == 1 { hi } else { lo }
+                if dims > 0 && (i >> j) & 1 == 1 {
+                    hi
+                } else {
+                    lo
+                }
             })
             .collect()
     };

@@ -69,7 +69,11 @@ pub fn sample(s: &Scenario, count: usize, seed: u64) -> Vec<SamplePoint> {
         .into_iter()
         .enumerate()
     {
-        let origin = if i + 1 == n_corners { Origin::Centre } else { Origin::Corner };
+        let origin = if i + 1 == n_corners {
+            Origin::Centre
+        } else {
+            Origin::Corner
+        };
         out.push(SamplePoint {
             values,
             origin,
@@ -200,7 +204,10 @@ pub struct CriterionMargin {
 
 /// Per-criterion worst margins of `variants` (criteria in scenario order).
 #[must_use]
-pub fn criterion_margins(criteria: &[Criterion], variants: &[VariantCheck]) -> Vec<CriterionMargin> {
+pub fn criterion_margins(
+    criteria: &[Criterion],
+    variants: &[VariantCheck],
+) -> Vec<CriterionMargin> {
     criteria
         .iter()
         .enumerate()
@@ -261,7 +268,11 @@ pub fn constraints(corners: &[CornerReport], spec: &DesignSpec) -> Vec<Constrain
         let mut worst = None::<(f64, f64, String)>;
         for c in corners {
             let x = pick(c);
-            let m = if x.is_nan() { -1.0 } else { crit.margin(Some(x)).min(1.0) };
+            let m = if x.is_nan() {
+                -1.0
+            } else {
+                crit.margin(Some(x)).min(1.0)
+            };
             if worst.as_ref().is_none_or(|w| m < w.1) {
                 worst = Some((x, m, c.corner.label()));
             }
@@ -277,13 +288,30 @@ pub fn constraints(corners: &[CornerReport], spec: &DesignSpec) -> Vec<Constrain
         });
     };
     add("gain_margin", Bound::Min, spec.gain_margin_min, &|c| {
-        if c.margins.stable() { c.margins.gain_margin } else { 0.0 }
+        if c.margins.stable() {
+            c.margins.gain_margin
+        } else {
+            0.0
+        }
     });
-    add("phase_margin_deg", Bound::Min, spec.phase_margin_min_deg, &|c| {
-        if c.margins.stable() { c.margins.phase_margin_deg } else { -180.0 }
-    });
+    add(
+        "phase_margin_deg",
+        Bound::Min,
+        spec.phase_margin_min_deg,
+        &|c| {
+            if c.margins.stable() {
+                c.margins.phase_margin_deg
+            } else {
+                -180.0
+            }
+        },
+    );
     add("ms", Bound::Max, spec.ms_max, &|c| {
-        if c.margins.stable() { c.margins.sensitivity_peak } else { f64::INFINITY }
+        if c.margins.stable() {
+            c.margins.sensitivity_peak
+        } else {
+            f64::INFINITY
+        }
     });
     // Stability: every closed-loop pole inside the unit circle (margin 1
     // when stable, −1 when not, so it never binds a stable loop).
@@ -298,11 +326,12 @@ pub fn constraints(corners: &[CornerReport], spec: &DesignSpec) -> Vec<Constrain
                 .iter()
                 .map(|c| c.margins.spectral_radius)
                 .fold(if corners.is_empty() { f64::NAN } else { 0.0 }, f64::max),
-            corner: unstable.map_or_else(
-                || "every corner".to_owned(),
-                |c| c.corner.label(),
-            ),
-            margin: if unstable.is_none() && !corners.is_empty() { 1.0 } else { -1.0 },
+            corner: unstable.map_or_else(|| "every corner".to_owned(), |c| c.corner.label()),
+            margin: if unstable.is_none() && !corners.is_empty() {
+                1.0
+            } else {
+                -1.0
+            },
         },
     );
     out

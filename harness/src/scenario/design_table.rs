@@ -73,7 +73,10 @@ pub(crate) struct RawDesign {
 }
 
 /// Validates `[design]`; `None` gives the defaults.
-pub(crate) fn parse(src: &Source<'_>, raw: Option<&RawDesign>) -> Result<DesignSpec, ScenarioError> {
+pub(crate) fn parse(
+    src: &Source<'_>,
+    raw: Option<&RawDesign>,
+) -> Result<DesignSpec, ScenarioError> {
     let mut spec = DesignSpec::default();
     let Some(raw) = raw else {
         return Ok(spec);
@@ -104,7 +107,13 @@ pub(crate) fn parse(src: &Source<'_>, raw: Option<&RawDesign>) -> Result<DesignS
             ))
         }
     };
-    spec.ms_max = num(&raw.ms_max, "ms_max", "finite and > 1", |x| x > 1.0, spec.ms_max)?;
+    spec.ms_max = num(
+        &raw.ms_max,
+        "ms_max",
+        "finite and > 1",
+        |x| x > 1.0,
+        spec.ms_max,
+    )?;
     spec.gain_margin_min = num(
         &raw.gain_margin_min,
         "gain_margin_min",

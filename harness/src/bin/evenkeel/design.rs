@@ -139,7 +139,11 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
         args.plot.as_deref(),
     )?;
     distinct_outputs(args)?;
-    anyhow::ensure!(args.count <= 100_000, "--count {}: at most 100000", args.count);
+    anyhow::ensure!(
+        args.count <= 100_000,
+        "--count {}: at most 100000",
+        args.count
+    );
     anyhow::ensure!(args.budget >= 1, "--budget must be at least 1");
     let scenario = Scenario::from_path(&args.scenario)?;
     let request = Request {
@@ -165,15 +169,21 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
     let tuned = design::tune(&scenario, &request, &options)?;
     let passed = tuned.passed();
     let mut text = design::report(&scenario, &tuned);
-    let snippet = snippet(&scenario, &tuned);
+    let snippet = design::snippet(&scenario, &tuned);
     if args.rust_out.is_none() && tuned.feasibility.feasible() {
         text.push('\n');
         text.push_str(&snippet);
     }
-    if let Some(path) = &args.rust_out {
+    if let Some(path) = &args.rust_out
+        && tuned.feasibility.feasible()
+    {
         write(path, snippet.as_bytes())?;
     }
-    let scenario_target = if args.in_place {
+    // Nothing is written when nothing was tuned (infeasible); the input
+    // itself only when the design passes.
+    let scenario_target = if !tuned.feasibility.feasible() {
+        None
+    } else if args.in_place {
         passed.then_some(args.scenario.as_path())
     } else {
         args.scenario_out.as_deref()
@@ -193,10 +203,22 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
                 " (the best loop found, which FAILS: see above)"
             }
         ));
-    } else if args.in_place {
+    } else if args.in_place || args.scenario_out.is_some() {
         text.push_str(&format!(
-            "\n{} left unchanged: the design does not pass\n",
-            args.scenario.display()
+            "\n{} not written: the design does not pass{}\n",
+            if args.in_place {
+                args.scenario.display()
+            } else {
+                args.scenario_out
+                    .as_deref()
+                    .unwrap_or(Path::new("-"))
+                    .display()
+            },
+            if tuned.feasibility.feasible() {
+                ""
+            } else {
+                " (infeasible: nothing was tuned)"
+            }
         ));
     }
     if let Some(path) = &args.plot {
@@ -211,17 +233,6 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
         || design::junit(&scenario, &tuned),
     )?;
     Ok(passed)
-}
-
-fn snippet(s: &Scenario, t: &Tuned) -> String {
-    let what = format!(
-        "{} start, {} on {} over {} variants",
-        t.start.method.name(),
-        if t.passed() { "verified" } else { "NOT verified: it FAILS" },
-        t.options.backend.name(),
-        t.verification.as_ref().map_or(0, |v| v.variants.len())
-    );
-    design::rust_snippet(s, &t.settings, &what)
 }
 
 /// The lines `design` puts on top of a scenario it writes.
