@@ -237,11 +237,14 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
 
 /// The lines `design` puts on top of a scenario it writes.
 fn header(t: &Tuned) -> Vec<String> {
+    let v = t.verification.as_ref();
     vec![
         format!(
-            "{HEADER_MARK} [controller] values designed and verified by `evenkeel design` ({}): {}",
+            "{HEADER_MARK} [controller] designed by `evenkeel design`, verified on {} over {} variants: {} (worst margin {:+.3})",
             t.options.backend.name(),
-            design::verdict(t)
+            v.map_or(0, |v| v.variants.len()),
+            if t.passed() { "PASS" } else { "FAIL" },
+            t.search.final_worst
         ),
         format!("{HEADER_MARK} {}", evenkeel_harness::CAUTION),
     ]
