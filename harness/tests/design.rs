@@ -297,7 +297,7 @@ fn json_and_junit_report_every_criterion_constraint_and_corner() {
         let ms = c["ms"].as_f64().unwrap();
         let mt = c["mt"].as_f64().unwrap();
         // |T| tends to 1 at low frequency (integral action).
-        assert!(ms >= 1.0 && ms <= 2.0 && mt >= 0.99, "{c}");
+        assert!((1.0..=2.0).contains(&ms) && mt >= 0.99, "{c}");
     }
     assert_eq!(json["sample"]["variants"], 8 + 1 + 64);
     let xml = std::fs::read_to_string(dir.path().join("d.xml")).unwrap();

@@ -615,7 +615,7 @@ pub fn feasibility(s: &Scenario) -> Feasibility {
                     v_auth = v_auth.max(if up { rate } else { -rate });
                 }
             }
-            if !(v_auth > 0.0) {
+            if v_auth.is_nan() || v_auth <= 0.0 {
                 continue; // the hold check reports an unreachable target
             }
             let (v_max, v_why) = match accel_lim {
@@ -953,6 +953,101 @@ mod tests {
         }
         assert_eq!(travel_time(3.0, 2.0, f64::INFINITY), 1.5);
         assert_eq!(travel_time(0.0, 2.0, 4.0), 0.0);
+    }
+
+    /// A lag k/(τs + 1) with k = 10 asked to hold 12 with u ≤ 1: the hold
+    /// command is 12/10 = 1.2, 0.2 above the limit; the most it can hold
+    /// is k·1 = 10, an error of 2 (worked by hand).
+    #[test]
+    fn an_unreachable_setpoint_is_named_with_its_shortfall() {
+        let text = r#"
+[scenario]
+name = "lag"
+duration_s = 50.0
+[controller]
+period_s = 0.1
+kp = 0.1
+ki_per_s = 0.1
+output_min = 0.0
+output_max = 1.0
+[plant]
+model = "first_order_lag"
+gain = 10.0
+tau_s = 2.0
+dead_time_s = 0.0
+[reference]
+segments = [{ to = 12.0, hold_s = 50.0 }]
+[criteria]
+steady_state_error = { max = 0.5 }
+"#;
+        let s = Scenario::from_toml(text, "lag.toml").unwrap();
+        let f = feasibility(&s);
+        assert!(!f.feasible());
+        let sse = f
+            .infeasible()
+            .find(|x| x.criterion == Some(MetricKey::SteadyStateError))
+            .unwrap();
+        assert_eq!(sse.corner.as_deref(), Some("nominal"));
+        let needed = sse.needed.unwrap();
+        assert!((needed - 2.0).abs() < 1e-9, "{needed}");
+        assert!(
+            sse.message.contains("needs a command of 1.200"),
+            "{}",
+            sse.message
+        );
+        assert!(sse.message.contains("by 0.2000"), "{}", sse.message);
+        let remedy = sse.remedy.as_deref().unwrap();
+        assert!(remedy.contains("raise output_max to ≥ 1.200"), "{remedy}");
+        assert!(
+            remedy.contains("lower that setpoint to ≤ 10.00"),
+            "{remedy}"
+        );
+        // With output_max = 1.5 it is feasible.
+        let wide = Scenario::from_toml(
+            &text.replace("output_max = 1.0", "output_max = 1.5"),
+            "lag.toml",
+        )
+        .unwrap();
+        assert!(feasibility(&wide).feasible());
+    }
+
+    /// An integrator k·u with k = 2, u ≤ 1 steps by 10 with a settling
+    /// limit of 4 s: at full authority the output moves at 2 per s, so
+    /// 98 % of the step takes 9.8/2 = 4.9 s > 4 s (worked by hand).
+    #[test]
+    fn a_step_too_large_for_the_authority_cannot_settle_in_time() {
+        let text = r#"
+[scenario]
+name = "integrator"
+duration_s = 30.0
+[controller]
+period_s = 0.01
+kp = 1.0
+ki_per_s = 0.1
+output_min = -1.0
+output_max = 1.0
+[plant]
+model = "integrator"
+gain = 2.0
+[reference]
+segments = [{ to = 10.0, hold_s = 30.0 }]
+[criteria]
+settling_time_s = { max = 4.0 }
+"#;
+        let s = Scenario::from_toml(text, "i.toml").unwrap();
+        let f = feasibility(&s);
+        let settle = f
+            .infeasible()
+            .find(|x| x.criterion == Some(MetricKey::SettlingTime))
+            .unwrap();
+        assert!((settle.needed.unwrap() - 4.9).abs() < 1e-9, "{settle:?}");
+        assert!(
+            settle
+                .remedy
+                .as_deref()
+                .unwrap()
+                .contains("raise settling_time_s to ≥ 4.900")
+        );
     }
 
     #[test]

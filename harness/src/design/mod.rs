@@ -1,19 +1,45 @@
 //! Gain and limit design: from a scenario's plant with its uncertainty
-//! ranges, a closed-loop target and comfort limits, a complete controller
-//! proposal, with the margins of the sampled loop at every corner.
+//! ranges and criteria, a controller that passes at every corner, or the
+//! reason none can.
 //!
-//! - `tuning`: SIMC with the half rule, pole placement
-//! - `model`: linear models at the corners, hold commands
-//! - `margins`: ZOH discretisation, loop gain on the unit circle, margins
-//! - `output`: readable report, scenario file, firmware `const` snippet
+//! [`tune`] is the whole of `evenkeel design`:
+//!
+//! 1. [`feasibility`]: can any controller meet the criteria at every
+//!    corner (hold commands against the limits, rise and settling bounds)?
+//! 2. [`design`]: the analytic start (SIMC or pole placement over the
+//!    linearised corners, comfort limits from the acceleration and jerk
+//!    criteria), with its derivation;
+//! 3. [`Verification`]: the real controller in the closed loop over the
+//!    corners, the centre and a Latin-hypercube sample ([`sample`]), judged
+//!    by the scenario's criteria as normalised margins;
+//! 4. the search (`search`): a deterministic pattern search while
+//!    anything fails, with stability, gain margin, phase margin and Ms at
+//!    every linearised corner as constraints ([`constraints`]);
+//! 5. reports: [`report`], [`json`], [`junit`], [`plot`], the user's
+//!    scenario with the designed values ([`scenario_toml`]) and the
+//!    firmware `const` ([`snippet`]).
+//!
+//! Modules: `analytic`, `tuning` (SIMC, half rule, pole placement),
+//! `model` (linear models at the corners, hold commands, rates),
+//! `margins` (ZOH discretisation, loop gain on the unit circle, margins,
+//! Ms, Mt, poles), `feasibility`, `verify`, `search`, `tune`, `output`,
+//! `export`, `edit`, `plot`.
 //!
 //! ```
 //! use evenkeel_harness::Scenario;
-//! use evenkeel_harness::design::{design, Request};
-//! let tug = Scenario::demo()?;
-//! let p = design(&tug, &Request::default())?;
-//! assert!(p.corners.iter().all(|c| c.margins.stable()));
-//! assert!(p.fixed.holds());
+//! use evenkeel_harness::design::{Options, Request, tune};
+//! let pump = Scenario::from_path("../shared/scenarios/irrigation_pump.toml")?;
+//! let mut options = Options::for_scenario(&pump);
+//! options.count = 8; // Latin-hypercube variants on top of corners and centre
+//! let tuned = tune(&pump, &Request::default(), &options)?;
+//! assert!(tuned.feasibility.feasible());
+//! let v = tuned.verification.as_ref().unwrap();
+//! assert_eq!(v.variants.len(), 8 + 1 + 8);
+//! for c in &v.criteria {
+//!     println!("{}: worst margin {:+.3}", c.criterion.metric, c.worst_margin);
+//! }
+//! assert!(tuned.passed()); // every variant, every criterion, Ms ≤ 2, GM ≥ 2, PM ≥ 30°
+//! assert!(tuned.corners.iter().all(|c| c.margins.sensitivity_peak <= 2.0));
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 

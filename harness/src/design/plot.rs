@@ -116,13 +116,13 @@ fn bode<DB: DrawingBackend>(
             y1 = y1.max(y);
         }
     }
-    if !(x0 < x1) {
+    if x0.is_nan() || x1.is_nan() || x0 >= x1 {
         (x0, x1) = (0.0, 1.0);
     }
     if magnitude {
-        (y0, y1) = (y0.max(-80.0).min(-5.0), y1.min(80.0).max(5.0));
+        (y0, y1) = (y0.clamp(-80.0, -5.0), y1.clamp(5.0, 80.0));
     } else {
-        (y0, y1) = (y0.max(-720.0).min(-200.0), y1.min(0.0).max(-60.0));
+        (y0, y1) = (y0.clamp(-720.0, -200.0), y1.clamp(-60.0, 0.0));
     }
     let mut chart = ChartBuilder::on(area)
         .margin_left(12)

@@ -221,7 +221,7 @@ pub fn criterion_margins(
             };
             for v in variants {
                 let m = v.margins.get(k).copied().unwrap_or(f64::NEG_INFINITY);
-                if !(m >= 0.0) {
+                if m.is_nan() || m < 0.0 {
                     out.failing += 1;
                 }
                 if m < out.worst_margin || out.worst_margin == f64::INFINITY {
