@@ -13,7 +13,8 @@
 //! - [`compare`]: fixed point against `f64`, back to back, with tolerances from the formats
 //! - [`fault`]: fault injection (sensor, actuator, payload) and its checks
 //! - [`sweep`]: uncertain parameters, parallel sweeps, shards, envelopes
-//! - [`design`]: gain and limit design (SIMC, pole placement), margins at every corner
+//! - [`design`]: gains and limits that pass at every corner, or why none can
+//! - [`fit`]: the plant and its uncertainty box from logged tests
 //!
 //! In a project's own tests, check a loop in a few lines:
 //!
@@ -36,6 +37,7 @@ pub mod compare;
 pub mod criteria;
 pub mod design;
 pub mod fault;
+pub mod fit;
 pub mod metrics;
 pub mod outcome;
 pub mod plant;
