@@ -28,11 +28,13 @@ pub fn solve(a: &[Vec<f64>], b: &[f64]) -> Option<Vec<f64>> {
             return None;
         }
         m.swap(col, pivot);
-        for row in col + 1..n {
-            let f = m[row][col] / m[col][col];
+        let (top, rest) = m.split_at_mut(col + 1);
+        let pivot_row = &top[col];
+        for row in rest.iter_mut() {
+            let f = row[col] / pivot_row[col];
             if f != 0.0 {
-                for k in col..=n {
-                    m[row][k] -= f * m[col][k];
+                for (x, p) in row[col..].iter_mut().zip(&pivot_row[col..]) {
+                    *x -= f * p;
                 }
             }
         }

@@ -301,10 +301,30 @@ pub fn new_scenario(
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
             (a.min(x), b.max(x))
         });
+    // The actuator range is not in the logs: a normalised range when the
+    // inputs fit one, else the logged range widened by half.
+    let (u_lo, u_hi) = if u_lo >= 0.0 && u_hi <= 1.0 {
+        (0.0, 1.0)
+    } else if u_lo >= -1.0 && u_hi <= 1.0 {
+        (-1.0, 1.0)
+    } else {
+        let w = 0.5 * (u_hi - u_lo);
+        (u_lo - w, u_hi + w)
+    };
     let noise = {
         let mut r: Vec<f64> = o.logs.iter().map(|l| l.residual_rms).collect();
         r.sort_by(f64::total_cmp);
         r.get(r.len() / 2).copied().unwrap_or(0.0)
+    };
+    let load = {
+        let mut v: Vec<f64> = o
+            .logs
+            .iter()
+            .filter_map(|l| l.estimates.iter().find(|e| e.target == Target::Load))
+            .map(|e| e.value)
+            .collect();
+        v.sort_by(f64::total_cmp);
+        v.get(v.len() / 2).copied()
     };
     let mut plant = format!("model = \"{}\"\n", o.request.model.name());
     let mut actuator = String::new();
@@ -327,9 +347,17 @@ pub fn new_scenario(
             None => {}
         }
     }
-    let y0 = first.output[0];
+    let y0 = o
+        .logs
+        .first()
+        .and_then(|l| {
+            l.estimates
+                .iter()
+                .find(|e| e.target == Target::InitialOutput)
+        })
+        .map_or(first.output[0], |e| e.value);
     let mut text = format!(
-        "# Scenario made by `evenkeel fit` from {} log(s); plant and [uncertainty] fitted.\n# The [controller] is the analytic rule's start for the nominal plant, NOT verified:\n# run `evenkeel design` on this file. The [criteria] are placeholders: put your requirements in.\n# {CAUTION}\n\n[scenario]\nname = \"{name}\"\ndescription = \"fitted from logs\"\nduration_s = {:?}\noutput_unit = \"{unit}\"\ncommand_unit = \"1\"\n\n[controller]\nperiod_s = {:?}\nkp = 1.0\nki_per_s = 0.1\noutput_min = {:?}\noutput_max = {:?}\n\n[plant]\n{plant}initial_output = {:?}\n\n{actuator}[sensor]\nnoise_std = {:?}   # the fits' residual RMS (median over the logs)\n\n[reference]\ninitial = {:?}\nsegments = [\n  {{ hold_s = {:?} }},\n  {{ to = {:?}, hold_s = {:?} }},\n]\n\n[criteria]\nsteady_state_error = {{ max = {:?}, source = \"placeholder: 2 % of the logged range; put your requirement here\" }}\n",
+        "# Scenario made by `evenkeel fit` from {} log(s); plant and [uncertainty] fitted.\n# The [controller] is the analytic rule's start for the nominal plant, NOT verified:\n# run `evenkeel design` on this file. The [criteria] are placeholders: put your requirements in.\n# {CAUTION}\n\n[scenario]\nname = \"{name}\"\ndescription = \"fitted from logs\"\nduration_s = {:?}\noutput_unit = \"{unit}\"\ncommand_unit = \"1\"\n\n[controller]\nperiod_s = {:?}\nkp = 1.0\nki_per_s = 0.1\noutput_min = {:?}   # placeholder: your actuator's range\noutput_max = {:?}\n\n[plant]\n{plant}initial_output = {:?}\n\n{actuator}[sensor]\nnoise_std = {:?}   # the fits' residual RMS (median over the logs)\n\n[reference]\ninitial = {:?}\nsegments = [\n  {{ hold_s = {:?} }},\n  {{ to = {:?}, hold_s = {:?} }},\n]\n\n[criteria]\nsteady_state_error = {{ max = {:?}, source = \"placeholder: 2 % of the logged range; put your requirement here\" }}\n",
         logs.len(),
         round4(duration.max(10.0 * dt)),
         dt,
@@ -357,6 +385,12 @@ pub fn new_scenario(
             _ => None,
         })
         .collect();
+    if let Some(d) = load {
+        text.push_str(&format!(
+            "\n[disturbance.load]   # the fitted offset (median over the logs), held constant\ninitial = {:?}\n",
+            round4(d)
+        ));
+    }
     if !boxed.is_empty() {
         text.push_str("\n[uncertainty]\n");
         text.extend(boxed);
