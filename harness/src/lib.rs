@@ -15,6 +15,7 @@
 //! - [`sweep`]: uncertain parameters, parallel sweeps, shards, envelopes
 //! - [`design`]: gains and limits that pass at every corner, or why none can
 //! - [`fit`]: the plant and its uncertainty box from logged tests
+//! - [`map`]: the robustness map over two uncertain parameters
 //!
 //! In a project's own tests, check a loop in a few lines:
 //!
@@ -38,6 +39,7 @@ pub mod criteria;
 pub mod design;
 pub mod fault;
 pub mod fit;
+pub mod map;
 pub mod metrics;
 pub mod outcome;
 pub mod plant;

@@ -51,7 +51,10 @@ fn the_documented_shard_recipe_merges_into_the_unsharded_report() {
     assert_eq!(whole.status.code(), out.status.code());
     let merged = std::fs::read(dir.path().join("out/merged.json")).unwrap();
     let one = std::fs::read(dir.path().join("whole.json")).unwrap();
-    assert_eq!(merged, one, "the merged report differs from the unsharded one");
+    assert_eq!(
+        merged, one,
+        "the merged report differs from the unsharded one"
+    );
     for i in 1..=3 {
         assert!(dir.path().join(format!("out/shard-{i}.json")).exists());
     }

@@ -22,9 +22,19 @@ pub struct SweepArgs {
     /// Variants for random and latin-hypercube sampling.
     #[arg(long)]
     count: Option<usize>,
-    /// Values per parameter for grid sampling.
+    /// Values per parameter for grid sampling (and for --map, default 21).
     #[arg(long)]
     levels: Option<usize>,
+    /// Also draw the robustness map over two uncertain parameters
+    /// (`X,Y`, keys of `[uncertainty]`; the others at their centre): the
+    /// worst criterion margin as colour, the pass boundary, the binding
+    /// criterion per region. Its points count in the exit status.
+    #[arg(long, value_name = "X,Y")]
+    map: Option<String>,
+    /// Where the map goes (SVG or PNG by extension); without it the map is
+    /// summarised in the table only.
+    #[arg(long, value_name = "PATH", requires = "map")]
+    map_plot: Option<PathBuf>,
     /// Seed of the draws and of every variant's sensor noise.
     #[arg(long)]
     seed: Option<u64>,
@@ -150,6 +160,18 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
         plan.seed = s;
     }
     let backend = args.backend.kind();
+    let map = match &args.map {
+        Some(spec) => {
+            let (x, y) = spec.split_once(',').with_context(|| {
+                format!("--map {spec}: expected two parameters X,Y, e.g. mass_kg,actuator_gain_n")
+            })?;
+            Some((x.trim().to_owned(), y.trim().to_owned()))
+        }
+        None => None,
+    };
+    if let Some(p) = &args.map_plot {
+        output::check_report_paths(&[], Some(p))?;
+    }
     let total = plan
         .variants(scenario.uncertainty.len())
         .context("the design is too large")?;
@@ -180,7 +202,32 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
     if let Some(path) = &args.save {
         write(path, serde_json::to_string(&result)?.as_bytes())?;
     }
-    report(&scenario, &result, &args.out)
+    let map_passed = match &map {
+        Some((x, y)) => {
+            let m = evenkeel_harness::map::robustness_map(
+                &scenario,
+                x,
+                y,
+                args.levels.unwrap_or(21),
+                backend,
+            )?;
+            let total = m.xs.len() * m.ys.len();
+            eprintln!(
+                "map over {} and {} ({} x {} points, the other parameters at their centre): {} of {total} pass",
+                m.x,
+                m.y,
+                m.xs.len(),
+                m.ys.len(),
+                m.passing()
+            );
+            if let Some(p) = &args.map_plot {
+                evenkeel_harness::map::plot(&scenario, &m, p)?;
+            }
+            m.passing() == total
+        }
+        None => true,
+    };
+    Ok(report(&scenario, &result, &args.out)? && map_passed)
 }
 
 /// `evenkeel merge`: `Ok(all variants passed)`.
