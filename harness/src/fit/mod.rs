@@ -45,7 +45,7 @@ pub use model::{
     Estimate, FitRequest, LogFit, MAX_NORMALISED_ERROR, MAX_RELATIVE_HALF_WIDTH, ModelKind, Target,
     fit_log,
 };
-pub use output::{json, new_scenario, plot, report, scenario_edit};
+pub use output::{html, json, new_scenario, plot, plot_svg, report, scenario_edit};
 pub use stats::{CONFIDENCE, Whiteness, chi_square_95, covariance, t_quantile_975, whiteness};
 
 /// One plant value across the logs: the nominal and the box written to

@@ -13,10 +13,10 @@ use toml_edit::{DocumentMut, InlineTable, Item, Table, Value as TomlValue};
 
 use super::{FitOutcome, Log, Target};
 use crate::plot::{
-    Figure, PlotError, draw_grid, draw_labelled_line, draw_legend_box, draw_page, reduce, span,
-    time_panel, write_figure,
+    Figure, PlotError, draw_grid, draw_labelled_line, draw_legend_box, draw_page, reduce,
+    render_svg, span, time_panel, write_figure,
 };
-use crate::report::{CAUTION, format_number};
+use crate::report::{CAUTION, HtmlPage, format_number};
 use crate::scenario::Scenario;
 use crate::sweep::Param;
 
@@ -411,6 +411,14 @@ pub fn plot(o: &FitOutcome, logs: &[Log], unit: &str, path: &Path) -> Result<(),
     write_figure(&FitFigure { o, logs, unit }, path)
 }
 
+/// The fit plot as an SVG document (for the HTML report).
+///
+/// # Errors
+/// [`PlotError::Draw`] for a drawing failure.
+pub fn plot_svg(o: &FitOutcome, logs: &[Log], unit: &str) -> Result<String, PlotError> {
+    render_svg(&FitFigure { o, logs, unit })
+}
+
 struct FitFigure<'a> {
     o: &'a FitOutcome,
     logs: &'a [Log],
@@ -457,4 +465,65 @@ impl Figure for FitFigure<'_> {
         }
         Ok(())
     }
+}
+
+/// The HTML report of a fit: verdict, one table of estimates per log, the
+/// spread across logs, the plot (`svg`, if drawn) and the text report.
+#[must_use]
+pub fn html(o: &FitOutcome, unit: &str, svg: Option<&str>) -> String {
+    let mut p = HtmlPage::new(
+        &format!("evenkeel fit: {}", o.request.model.name()),
+        Some(o.passed()),
+    );
+    for l in &o.logs {
+        p.heading(2, &format!("log {}", l.name));
+        p.verdict(
+            l.problems.is_empty(),
+            &format!(
+                "{} samples, residual RMS {} {unit} ({:.1} % of the output's spread), residuals {}",
+                l.samples,
+                n(l.residual_rms),
+                100.0 * l.normalised_error,
+                if l.whiteness.white() {
+                    "white"
+                } else {
+                    "not white"
+                }
+            ),
+        );
+        let rows: Vec<Vec<String>> = l
+            .estimates
+            .iter()
+            .map(|e| {
+                vec![
+                    e.target.key().to_owned(),
+                    n(e.value),
+                    n(e.interval.0),
+                    n(e.interval.1),
+                    n(e.std),
+                ]
+            })
+            .collect();
+        p.table(
+            &["value", "estimate", "95 % low", "95 % high", "std"],
+            &rows,
+        );
+        for w in l.warnings.iter().chain(&l.problems) {
+            p.paragraph(w);
+        }
+    }
+    p.heading(2, "Across the logs");
+    let rows: Vec<Vec<String>> = o
+        .spread
+        .iter()
+        .map(|s| vec![s.target.key().to_owned(), n(s.nominal), n(s.min), n(s.max)])
+        .collect();
+    p.table(&["value", "nominal", "[uncertainty] min", "max"], &rows);
+    if let Some(svg) = svg {
+        p.heading(2, "Measured against fitted");
+        p.svg(svg, "per log: measured and fitted output, residuals");
+    }
+    p.heading(2, "Full report");
+    p.preformatted(&report(o, unit));
+    p.finish()
 }

@@ -59,6 +59,10 @@ pub struct DesignArgs {
     /// trade-off, SVG or PNG by extension.
     #[arg(long, value_name = "PATH")]
     plot: Option<PathBuf>,
+    /// One self-contained HTML report (verdict, tables, the design plot
+    /// inline, the caution) to PATH.
+    #[arg(long, value_name = "PATH")]
+    html: Option<PathBuf>,
     /// Write the scenario with the designed values put in (the file as
     /// written otherwise) to PATH; refuses the input file itself.
     #[arg(long, value_name = "PATH", conflicts_with = "in_place")]
@@ -94,6 +98,7 @@ fn distinct_outputs(args: &DesignArgs) -> anyhow::Result<()> {
         ("--json", args.json.as_deref()),
         ("--junit", args.junit.as_deref()),
         ("--plot", args.plot.as_deref()),
+        ("--html", args.html.as_deref()),
         ("--scenario-out", args.scenario_out.as_deref()),
         ("--rust-out", args.rust_out.as_deref()),
     ]
@@ -135,6 +140,7 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
             args.junit.as_deref(),
             args.rust_out.as_deref(),
             args.scenario_out.as_deref(),
+            args.html.as_deref(),
         ],
         args.plot.as_deref(),
     )?;
@@ -221,9 +227,14 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
             }
         ));
     }
-    if let Some(path) = &args.plot {
-        let trade = design::trade_off(&scenario, &tuned.settings, options.backend, options.seed);
-        design::plot(&scenario, &tuned, &trade, path)?;
+    let trade = (args.plot.is_some() || args.html.is_some())
+        .then(|| design::trade_off(&scenario, &tuned.settings, options.backend, options.seed));
+    if let (Some(path), Some(trade)) = (&args.plot, &trade) {
+        design::plot(&scenario, &tuned, trade, path)?;
+    }
+    if let (Some(path), Some(trade)) = (&args.html, &trade) {
+        let svg = design::plot_svg(&scenario, &tuned, trade)?;
+        write(path, design::html(&scenario, &tuned, Some(&svg)).as_bytes())?;
     }
     output::summary(
         &text,

@@ -60,6 +60,10 @@ pub struct FitArgs {
     /// Measured against fitted and the residuals per log, SVG or PNG.
     #[arg(long, value_name = "PATH")]
     plot: Option<PathBuf>,
+    /// One self-contained HTML report (tables, the plot inline, the
+    /// caution) to PATH.
+    #[arg(long, value_name = "PATH")]
+    html: Option<PathBuf>,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -80,7 +84,11 @@ fn same_file(a: &Path, b: &Path) -> bool {
 /// `evenkeel fit`: `Ok(true)` when every log's fit can be handed over.
 pub fn run(args: &FitArgs) -> anyhow::Result<bool> {
     output::check_report_paths(
-        &[args.json.as_deref(), args.scenario_out.as_deref()],
+        &[
+            args.json.as_deref(),
+            args.scenario_out.as_deref(),
+            args.html.as_deref(),
+        ],
         args.plot.as_deref(),
     )?;
     let inputs: Vec<&Path> = args
@@ -92,6 +100,7 @@ pub fn run(args: &FitArgs) -> anyhow::Result<bool> {
     for (flag, out) in [
         ("--json", args.json.as_deref()),
         ("--plot", args.plot.as_deref()),
+        ("--html", args.html.as_deref()),
         ("--scenario-out", args.scenario_out.as_deref()),
     ] {
         if let Some(out) = out.filter(|p| p.as_os_str() != "-")
@@ -187,6 +196,10 @@ pub fn run(args: &FitArgs) -> anyhow::Result<bool> {
     }
     if let Some(path) = &args.plot {
         fit::plot(&outcome, &logs, &unit, path)?;
+    }
+    if let Some(path) = &args.html {
+        let svg = fit::plot_svg(&outcome, &logs, &unit)?;
+        write(path, fit::html(&outcome, &unit, Some(&svg)).as_bytes())?;
     }
     output::summary(
         &text,
