@@ -16,6 +16,7 @@
 //! - [`design`]: gains and limits that pass at every corner, or why none can
 //! - [`fit`]: the plant and its uncertainty box from logged tests
 //! - [`map`]: the robustness map over two uncertain parameters
+//! - [`replay`]: a device log against the host controller, bit for bit
 //!
 //! In a project's own tests, check a loop in a few lines:
 //!
@@ -45,6 +46,7 @@ pub mod outcome;
 pub mod plant;
 pub mod plot;
 pub mod profile;
+pub mod replay;
 pub mod report;
 pub mod scenario;
 pub mod sim;

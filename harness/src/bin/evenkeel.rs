@@ -22,6 +22,8 @@ mod design;
 mod fit;
 #[path = "evenkeel/output.rs"]
 mod output;
+#[path = "evenkeel/replay.rs"]
+mod replay;
 #[path = "evenkeel/robust.rs"]
 mod robust;
 
@@ -51,6 +53,9 @@ enum Command {
     /// parameters with confidence intervals per log, the nominal plant
     /// and the `[uncertainty]` box across the logs.
     Fit(fit::FitArgs),
+    /// Feed a log recorded on the device through the host controller and
+    /// compare every command and status bit.
+    Replay(replay::ReplayArgs),
     /// Run scenarios with the fixed-point (Q16.16) and the f64 controller
     /// side by side and judge the difference against `[compare]`
     /// tolerances (derived from the formats when absent).
@@ -117,6 +122,7 @@ fn main() -> ExitCode {
         Command::Merge(args) => robust::merge(args),
         Command::Design(args) => design::run(args),
         Command::Fit(args) => fit::run(args),
+        Command::Replay(args) => replay::run(args),
         Command::Compare(args) => compare::run(args),
     };
     match result {
