@@ -31,7 +31,9 @@ fn main() {
     let mut configs = String::new();
     let mut gains = String::new();
     let mut names = String::new();
-    for scenario in file.scenarios() {
+    let mut layouts = String::new();
+    let mut visits = String::new();
+    for (index, scenario) in file.scenarios().enumerate() {
         let s = scenario.unwrap_or_else(|e| panic!("{}: {}", path.display(), e.describe()));
         let b = s.settings;
         let f = |bits: u64| format!("f64::from_bits({bits:#018x})");
@@ -50,12 +52,11 @@ fn main() {
         } else {
             "AntiWindup::ConditionalIntegration".to_owned()
         };
-        writeln!(
-            configs,
-            "    evenkeel::config!(I16F16, Settings {{ period_s: {}, kp: {}, ki_per_s: {}, \
+        let settings = format!(
+            "Settings {{ period_s: {}, kp: {}, ki_per_s: {}, \
              setpoint_weight: {}, output_min: {}, output_max: {}, slew_per_s: {}, \
              filter_time_s: {}, deadband: {}, anti_windup: {anti_windup}, \
-             measurement_min: {}, measurement_max: {} }}),",
+             measurement_min: {}, measurement_max: {} }}",
             f(b.period_s),
             f(b.kp),
             f(b.ki_per_s),
@@ -67,6 +68,29 @@ fn main() {
             opt(HAS_DEADBAND, b.deadband),
             f(b.measurement_min),
             f(b.measurement_max),
+        );
+        writeln!(configs, "    evenkeel::config!(I16F16, {settings}),").expect("write to String");
+        // A scenario that re-tunes changes its gains' shifts (the schedule's
+        // segments have their own): its layout fixes the features and the
+        // other formats and leaves those of Kp and Ki·Ts to run time.
+        let shape = if s.gain_count() > 0 {
+            format!(
+                "match Shape::of(&{settings}) {{ Ok(s) => Ok(s.with_run_time_gain_formats()), Err(e) => Err(e) }}"
+            )
+        } else {
+            format!("Shape::of(&{settings})")
+        };
+        writeln!(
+            layouts,
+            "    evenkeel::layout!(pub Scenario{index}: {shape});\n\
+             /// Scenario {index} in its compile-time layout.\n\
+             pub const LAYOUT_CONFIG_{index}: Config<I16F16, Scenario{index}> = \
+             evenkeel::config!(I16F16, Scenario{index}, {settings});"
+        )
+        .expect("write to String");
+        writeln!(
+            visits,
+            "        {index} => visitor.visit(LAYOUT_CONFIG_{index}),"
         )
         .expect("write to String");
         gains.push_str("    &[");
@@ -92,7 +116,19 @@ fn main() {
          /// Each scenario's initial configuration, evaluated at compile time.\n\
          pub static CONFIGS: [Config<I16F16>; {n}] = [\n{configs}];\n\n\
          /// Each scenario's retune gains (Kp, Ki·Ts).\n\
-         pub static GAINS: [&[(FixedCoef, FixedCoef)]; {n}] = [\n{gains}];\n"
+         pub static GAINS: [&[(FixedCoef, FixedCoef)]; {n}] = [\n{gains}];\n\n\
+         /// Each scenario's compile-time layout and its configuration.\n\
+         pub mod layouts {{\n\
+         use super::*;\n{layouts}}}\n\n\
+         /// Hand scenario `index`'s compile-time configuration to `visitor`;\n\
+         /// `false` if there is no such scenario.\n\
+         pub fn visit_layout(index: usize, visitor: &mut impl ConfigVisitor) -> bool {{\n\
+         use layouts::*;\n\
+         match index {{\n{visits}\
+         _ => return false,\n\
+         }}\n\
+         true\n\
+         }}\n"
     );
     let dest = PathBuf::from(env::var_os("OUT_DIR").expect("set by cargo")).join("tables.rs");
     fs::write(dest, out).expect("write tables.rs");

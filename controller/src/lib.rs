@@ -19,6 +19,10 @@ mod backend;
 mod config;
 mod controller;
 mod error;
+#[allow(clippy::float_arithmetic)] // shape computation from settings, run once
+mod layout;
+#[cfg(feature = "defmt")]
+pub mod log;
 #[cfg(feature = "monitor")]
 #[allow(clippy::float_arithmetic)] // on-target diagnostics in f32, beside the step
 pub mod monitor;
@@ -35,8 +39,9 @@ pub use config::{Config, SLEW_REL_TOLERANCE};
 pub use controller::{Controller, Input, Output};
 pub use error::{ConfigError, Setting};
 pub use fixed;
+pub use layout::{Features, Layout, Runtime, Shape};
 pub use q::FixedCoef;
-pub use schedule::{Breakpoint, Schedule};
+pub use schedule::{Breakpoint, Schedule, ScheduleError};
 pub use settings::{AntiWindup, PerSample, Settings};
 pub use status::Status;
 
@@ -55,4 +60,9 @@ fn defmt_formats_every_public_type() {
     loggable::<Status>();
     loggable::<FixedCoef>();
     loggable::<Breakpoint>();
+    loggable::<Shape>();
+    loggable::<Features>();
+    loggable::<ScheduleError>();
+    loggable::<Output<f64>>();
+    loggable::<Input<fixed::types::I16F16>>();
 }

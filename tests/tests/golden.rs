@@ -40,14 +40,19 @@ fn committed_file_matches_generator() {
 struct Collect {
     mismatches: Vec<String>,
     scenarios: Vec<(String, u32)>,
+    compile_time: Vec<(String, u32)>,
 }
 
 impl Report for Collect {
     fn mismatch(&mut self, m: &Mismatch<'_>) {
         self.mismatches.push(format!("{m:?}"));
     }
-    fn scenario(&mut self, name: &str, steps: u32, _mismatches: u32) {
-        self.scenarios.push((name.to_owned(), steps));
+    fn scenario(&mut self, name: &str, layout: &'static str, steps: u32, _mismatches: u32) {
+        if layout == replay::RUN_TIME {
+            self.scenarios.push((name.to_owned(), steps));
+        } else {
+            self.compile_time.push((name.to_owned(), steps));
+        }
     }
 }
 
@@ -61,7 +66,9 @@ fn committed_file_replays_bit_exactly() {
         &report.mismatches[..report.mismatches.len().min(20)]
     );
     let recordings = vectors::scenarios().expect("valid");
-    assert_eq!(summary.scenarios as usize, recordings.len());
+    // Every scenario twice: run-time configuration and compile-time layout.
+    assert_eq!(summary.scenarios as usize, 2 * recordings.len());
+    assert_eq!(report.scenarios, report.compile_time);
     for (rec, (name, steps)) in recordings.iter().zip(&report.scenarios) {
         assert_eq!((&rec.name, rec.steps.len()), (name, *steps as usize));
     }

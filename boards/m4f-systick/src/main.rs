@@ -24,6 +24,7 @@ use cortex_m::peripheral::syst::SystClkSource;
 use cortex_m_rt::{entry, exception};
 use defmt_rtt as _;
 use evenkeel::fixed::types::I16F16;
+use evenkeel::log::Q16;
 use evenkeel::{AntiWindup, Config, Controller, Input, Settings};
 
 /// Core clock of your part in Hz (SysTick counts core cycles).
@@ -80,7 +81,7 @@ impl<S: Sensor, A: Actuator> Loop<S, A> {
             defmt::info!(
                 "t={}s r={} {}",
                 self.steps / CONTROL_RATE_HZ,
-                self.setpoint,
+                Q16(self.setpoint),
                 out
             );
         }

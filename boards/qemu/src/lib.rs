@@ -50,18 +50,24 @@ impl Report for Console {
         if self.printed < PRINTED_PER_SCENARIO {
             let _ = writeln!(
                 self,
-                "  MISMATCH {} step {}: command want {:#010x} got {:#010x}, status want {:#06x} got {:#06x}",
-                m.scenario, m.step, m.want_command, m.got_command, m.want_status, m.got_status
+                "  MISMATCH {} ({}) step {}: command want {:#010x} got {:#010x}, status want {:#06x} got {:#06x}",
+                m.scenario,
+                m.layout,
+                m.step,
+                m.want_command,
+                m.got_command,
+                m.want_status,
+                m.got_status
             );
         }
         self.printed = self.printed.saturating_add(1);
     }
 
-    fn scenario(&mut self, name: &str, steps: u32, mismatches: u32) {
+    fn scenario(&mut self, name: &str, layout: &'static str, steps: u32, mismatches: u32) {
         let verdict = if mismatches == 0 { "ok" } else { "FAIL" };
         let _ = writeln!(
             self,
-            "  {verdict} {name} ({steps} steps, {mismatches} mismatches)"
+            "  {verdict} {name}, {layout} ({steps} steps, {mismatches} mismatches)"
         );
         self.printed = 0;
     }
@@ -130,6 +136,10 @@ pub fn run(board: &Board) -> ! {
         print_cost(&mut console, "fixed full", full);
         let minimal = cost::minimal(cost::FIXED_MINIMAL, &mut clock, board.rate);
         print_cost(&mut console, "fixed minimal", minimal);
+        let full = cost::full(cost::FIXED_FULL_LAYOUT, &mut clock, board.rate);
+        print_cost(&mut console, "fixed-layout full", full);
+        let minimal = cost::minimal(cost::FIXED_MINIMAL_LAYOUT, &mut clock, board.rate);
+        print_cost(&mut console, "fixed-layout minimal", minimal);
         #[cfg(feature = "f32")]
         {
             let full = cost::full(cost::F32_FULL, &mut clock, board.rate);

@@ -21,7 +21,14 @@ pub type Fixed = evenkeel::fixed::types::I16F16;
 /// Compile-time tables generated from the vector file by `build.rs`.
 pub mod tables {
     use evenkeel::fixed::types::I16F16;
-    use evenkeel::{AntiWindup, Config, FixedCoef, Settings};
+    use evenkeel::{AntiWindup, Config, FixedCoef, Layout, Settings, Shape};
+
+    /// Something that takes a configuration of any compile-time layout (each
+    /// scenario's layout is its own type).
+    pub trait ConfigVisitor {
+        /// Take one configuration.
+        fn visit<L: Layout>(&mut self, config: Config<I16F16, L>);
+    }
 
     /// A gain from its stored form (mantissa · 2^-shift); for constant
     /// evaluation only (an unrepresentable gain stops the build).

@@ -2,17 +2,19 @@
 //! output bit for bit.
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Controller, FixedCoef, Input, Output};
+use evenkeel::{Config, Controller, FixedCoef, Input, Layout, Output};
 
-use crate::format::{File, FormatError, Op, Step};
+use crate::format::{File, FormatError, Op, Scenario, Step};
 use crate::probe;
-use crate::tables::{CONFIGS, GAINS, NAMES, VECTORS};
+use crate::tables::{self, CONFIGS, GAINS, NAMES, VECTORS};
 
 /// One output that differs from the vector.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Mismatch<'a> {
     /// Scenario name.
     pub scenario: &'a str,
+    /// Which configuration ran it: [`RUN_TIME`] or [`COMPILE_TIME`].
+    pub layout: &'static str,
     /// Step index within the scenario, from 0.
     pub step: u16,
     /// Expected command, Q16.16 bits.
@@ -25,21 +27,27 @@ pub struct Mismatch<'a> {
     pub got_status: u16,
 }
 
+/// Name of the pass with the run-time configuration (`Config<I16F16>`).
+pub const RUN_TIME: &str = "run-time config";
+/// Name of the pass with the compile-time layout (`Config<I16F16, L>`).
+pub const COMPILE_TIME: &str = "compile-time layout";
+
 /// Where the replay sends what it finds (semihosting text on a board, a
 /// collecting sink in the host test).
 pub trait Report {
     /// A step whose output differs.
     fn mismatch(&mut self, mismatch: &Mismatch<'_>);
-    /// A scenario finished.
-    fn scenario(&mut self, name: &str, steps: u32, mismatches: u32);
+    /// A scenario finished with one configuration.
+    fn scenario(&mut self, name: &str, layout: &'static str, steps: u32, mismatches: u32);
 }
 
-/// Totals of a replay.
+/// Totals of a replay (both passes: every scenario runs once with its
+/// run-time configuration and once with its compile-time layout).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 pub struct Summary {
-    /// Scenarios replayed.
+    /// Scenario runs (twice the scenarios in the file).
     pub scenarios: u32,
-    /// Steps replayed.
+    /// Steps replayed, over both passes.
     pub steps: u32,
     /// Steps whose command or status differ.
     pub mismatches: u32,
@@ -53,7 +61,8 @@ pub enum ReplayError {
     /// The file and the compile-time tables disagree (scenario count or
     /// name).
     Tables,
-    /// A retune refers to a gain the scenario does not have.
+    /// A retune refers to a gain the scenario does not have, or the
+    /// controller refused it.
     GainIndex,
 }
 
@@ -64,7 +73,7 @@ impl ReplayError {
         match self {
             Self::Format(e) => e.describe(),
             Self::Tables => "vector file and compiled tables disagree",
-            Self::GainIndex => "retune gain index out of range",
+            Self::GainIndex => "retune gain index out of range, or gain refused",
         }
     }
 }
@@ -75,7 +84,9 @@ impl From<FormatError> for ReplayError {
     }
 }
 
-/// Replay the embedded vector file, reporting each mismatch as it is found.
+/// Replay the embedded vector file, reporting each mismatch as it is found:
+/// every scenario with its run-time configuration, then with its
+/// compile-time layout.
 ///
 /// # Errors
 /// A [`ReplayError`] if the file cannot be read to the end; mismatches are
@@ -87,23 +98,65 @@ pub fn run(report: &mut impl Report) -> Result<Summary, ReplayError> {
     }
     let mut summary = Summary::default();
     let tables = NAMES.iter().zip(CONFIGS.iter()).zip(GAINS.iter());
-    for (scenario, ((&name, &config), &gains)) in file.scenarios().zip(tables) {
+    for (index, (scenario, ((&name, &config), &gains))) in file.scenarios().zip(tables).enumerate()
+    {
         let scenario = scenario?;
         if scenario.name != name.as_bytes() {
             return Err(ReplayError::Tables);
         }
+        let mut pass = Pass {
+            scenario,
+            name,
+            gains,
+            report: &mut *report,
+            summary: &mut summary,
+            result: Ok(()),
+        };
+        pass.visit(config, RUN_TIME);
+        if !tables::visit_layout(index, &mut pass) {
+            return Err(ReplayError::Tables);
+        }
+        pass.result?;
+    }
+    Ok(summary)
+}
+
+/// One scenario, replayed with whatever configuration it is handed.
+struct Pass<'a, 'r, R: Report> {
+    scenario: Scenario<'a>,
+    name: &'a str,
+    gains: &'a [(FixedCoef, FixedCoef)],
+    report: &'r mut R,
+    summary: &'r mut Summary,
+    result: Result<(), ReplayError>,
+}
+
+impl<R: Report> Pass<'_, '_, R> {
+    fn visit<L: Layout>(&mut self, config: Config<I16F16, L>, layout: &'static str) {
+        if self.result.is_err() {
+            return;
+        }
+        self.result = self.replay(config, layout);
+    }
+
+    fn replay<L: Layout>(
+        &mut self,
+        config: Config<I16F16, L>,
+        layout: &'static str,
+    ) -> Result<(), ReplayError> {
         let mut pi = probe::new(config);
         let mut steps: u32 = 0;
         let mut mismatches: u32 = 0;
-        for (index, step) in (0..=u16::MAX).zip(scenario.steps()) {
+        for (index, step) in (0..=u16::MAX).zip(self.scenario.steps()) {
             let step = step?;
-            let out = apply(&mut pi, gains, &step)?;
+            let out = apply(&mut pi, self.gains, &step)?;
             let got_command = out.command.to_bits();
             let got_status = out.status.bits();
             if got_command != step.command || got_status != step.status {
                 mismatches = mismatches.saturating_add(1);
-                report.mismatch(&Mismatch {
-                    scenario: name,
+                self.report.mismatch(&Mismatch {
+                    scenario: self.name,
+                    layout,
                     step: index,
                     want_command: step.command,
                     got_command,
@@ -113,12 +166,19 @@ pub fn run(report: &mut impl Report) -> Result<Summary, ReplayError> {
             }
             steps = steps.saturating_add(1);
         }
-        report.scenario(name, steps, mismatches);
-        summary.scenarios = summary.scenarios.saturating_add(1);
-        summary.steps = summary.steps.saturating_add(steps);
-        summary.mismatches = summary.mismatches.saturating_add(mismatches);
+        self.report.scenario(self.name, layout, steps, mismatches);
+        let s = &mut *self.summary;
+        s.scenarios = s.scenarios.saturating_add(1);
+        s.steps = s.steps.saturating_add(steps);
+        s.mismatches = s.mismatches.saturating_add(mismatches);
+        Ok(())
     }
-    Ok(summary)
+}
+
+impl<R: Report> tables::ConfigVisitor for Pass<'_, '_, R> {
+    fn visit<L: Layout>(&mut self, config: Config<I16F16, L>) {
+        Pass::visit(self, config, COMPILE_TIME);
+    }
 }
 
 /// Perform one recorded step (the vector generator does exactly the same).
@@ -128,8 +188,8 @@ pub fn run(report: &mut impl Report) -> Result<Summary, ReplayError> {
 ///
 /// # Errors
 /// [`ReplayError::GainIndex`] for a retune to a gain not in `gains`.
-pub fn apply(
-    pi: &mut Controller<I16F16>,
+pub fn apply<L: Layout>(
+    pi: &mut Controller<I16F16, L>,
     gains: &[(FixedCoef, FixedCoef)],
     step: &Step,
 ) -> Result<Output<I16F16>, ReplayError> {
@@ -140,7 +200,7 @@ pub fn apply(
         input = input.with_applied(q(applied));
     }
     let plain = step.feed_forward == 0 && step.applied.is_none();
-    let run = |pi: &mut Controller<I16F16>| {
+    let run = |pi: &mut Controller<I16F16, L>| {
         if plain {
             probe::step(pi, r, y)
         } else {
@@ -161,7 +221,9 @@ pub fn apply(
         Op::Retune { index } => {
             let index = usize::try_from(index).map_err(|_| ReplayError::GainIndex)?;
             let &(kp, ki_ts) = gains.get(index).ok_or(ReplayError::GainIndex)?;
-            probe::retune(pi, kp, ki_ts);
+            if !probe::retune(pi, kp, ki_ts) {
+                return Err(ReplayError::GainIndex);
+            }
             run(pi)
         }
     })
