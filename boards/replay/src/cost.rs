@@ -170,6 +170,9 @@ pub fn full<B: Workload, L: Layout>(
             .with_feed_forward(B::int(1))
             .with_applied(applied);
         let out = timer.time(|| probe::step_with(&mut pi, &input));
+        // The status is part of the result: keep the optimiser from
+        // dropping its computation from the probe (outside the timing).
+        core::hint::black_box(out.status);
         // A downstream limit at 8 that the controller hears about next step.
         applied = if out.command > B::int(8) {
             B::int(8)
@@ -194,6 +197,7 @@ pub fn minimal<B: Workload, L: Layout>(
     for k in 0..STEPS {
         let r = setpoint::<B>(k);
         let out = timer.time(|| probe::step(&mut pi, r, y));
+        core::hint::black_box(out.status);
         y = y.add(out.command.sub(y).scale(B::EIGHTH));
     }
     timer.cost
