@@ -1,4 +1,21 @@
 #![doc = include_str!("../README.md")]
+//!
+//! # Sharing the controller with a timer interrupt
+//!
+//! `Controller::new` is a `const fn`, so a controller (here inside a whole
+//! control loop) can be a `static` built by the compiler: no `Option`, no
+//! run-time initialisation. The interrupt handler and `main` reach it
+//! through a critical-section `Mutex<RefCell<_>>` and `try_borrow_mut`,
+//! which cannot panic (`borrow_mut` would link a panic path). This is the
+//! complete firmware `boards/m4f-systick/src/main.rs`; `boards/run` builds
+//! it for a Cortex-M4F with a panic handler that names an undefined
+//! function, so it links only if no panic path survives, and checks that no
+//! decimal formatting is linked. (Shown, not run, here: it needs a
+//! Cortex-M target.)
+//!
+//! ```ignore
+#![doc = include_str!("../../boards/m4f-systick/src/main.rs")]
+//! ```
 #![no_std]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
