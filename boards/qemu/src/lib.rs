@@ -15,7 +15,7 @@ use cortex_m_semihosting::debug::{self, EXIT_FAILURE, EXIT_SUCCESS};
 use cortex_m_semihosting::hio::{self, HostStream};
 use evenkeel_replay::cost::{self, Clock, Cost, Rate};
 use evenkeel_replay::replay::{self, Mismatch, Report};
-use evenkeel_replay::tables::VECTORS;
+use evenkeel_replay::tables::{golden, schedule};
 
 /// What differs between the boards.
 #[derive(Clone, Copy, Debug)]
@@ -114,21 +114,32 @@ pub fn run(board: &Board) -> ! {
         printed: 0,
     };
     let _ = writeln!(console, "evenkeel boards: {}", board.name);
-    let _ = writeln!(console, "vectors: {} bytes", VECTORS.len());
-    let passed = match replay::run(&mut console) {
-        Ok(s) => {
-            let _ = writeln!(
-                console,
-                "replay: {} scenarios, {} steps, {} mismatches",
-                s.scenarios, s.steps, s.mismatches
-            );
-            s.mismatches == 0 && s.steps > 0
-        }
-        Err(e) => {
-            let _ = writeln!(console, "replay: ERROR {}", e.describe());
-            false
-        }
-    };
+    let _ = writeln!(
+        console,
+        "vectors: golden {} bytes, schedule {} bytes",
+        golden::VECTORS.len(),
+        schedule::VECTORS.len()
+    );
+    let mut passed = true;
+    for (what, result) in [
+        ("replay", replay::run(&mut console)),
+        ("schedule replay", replay::run_schedules(&mut console)),
+    ] {
+        passed &= match result {
+            Ok(s) => {
+                let _ = writeln!(
+                    console,
+                    "{what}: {} scenario runs, {} steps, {} mismatches",
+                    s.scenarios, s.steps, s.mismatches
+                );
+                s.mismatches == 0 && s.steps > 0
+            }
+            Err(e) => {
+                let _ = writeln!(console, "{what}: ERROR {}", e.describe());
+                false
+            }
+        };
+    }
 
     let timing = cortex_m::Peripherals::take().map(|p| SysTickClock::start(p.SYST));
     if let Some(mut clock) = timing {

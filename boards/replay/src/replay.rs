@@ -2,11 +2,11 @@
 //! output bit for bit.
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Config, Controller, FixedCoef, Input, Layout, Output};
+use evenkeel::{Config, Controller, FixedCoef, Input, Layout, Output, Schedule};
 
 use crate::format::{File, FormatError, Op, Scenario, Step};
 use crate::probe;
-use crate::tables::{self, CONFIGS, GAINS, NAMES, VECTORS};
+use crate::tables::{ConfigVisitor, SCHEDULE_ROWS, golden, schedule};
 
 /// One output that differs from the vector.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -84,41 +84,63 @@ impl From<FormatError> for ReplayError {
     }
 }
 
-/// Replay the embedded vector file, reporting each mismatch as it is found:
-/// every scenario with its run-time configuration, then with its
-/// compile-time layout.
+/// The replay of one generated tables module (each has its own layout
+/// types, so the loop is written once here and expanded per module).
+macro_rules! replay_file {
+    ($tables:ident, $report:expr) => {{
+        let report = $report;
+        let file = File::open($tables::VECTORS)?;
+        if usize::from(file.scenario_count) != $tables::CONFIGS.len() {
+            return Err(ReplayError::Tables);
+        }
+        let mut summary = Summary::default();
+        let tables = $tables::NAMES
+            .iter()
+            .zip($tables::CONFIGS.iter())
+            .zip($tables::GAINS.iter().zip($tables::SCHEDULES.iter()));
+        for (index, (scenario, ((&name, &config), (&gains, &table)))) in
+            file.scenarios().zip(tables).enumerate()
+        {
+            let scenario = scenario?;
+            if scenario.name != name.as_bytes() {
+                return Err(ReplayError::Tables);
+            }
+            let mut pass = Pass {
+                scenario,
+                name,
+                gains,
+                report: &mut *report,
+                summary: &mut summary,
+                result: Ok(()),
+            };
+            pass.replay_with(config, table, RUN_TIME);
+            if !$tables::visit_layout(index, &mut pass) {
+                return Err(ReplayError::Tables);
+            }
+            pass.result?;
+        }
+        Ok(summary)
+    }};
+}
+
+/// Replay the embedded golden vectors (`golden.ekv`), reporting each
+/// mismatch as it is found: every scenario with its run-time configuration,
+/// then with its compile-time layout.
 ///
 /// # Errors
 /// A [`ReplayError`] if the file cannot be read to the end; mismatches are
 /// not errors (see [`Summary::mismatches`]).
 pub fn run(report: &mut impl Report) -> Result<Summary, ReplayError> {
-    let file = File::open(VECTORS)?;
-    if usize::from(file.scenario_count) != CONFIGS.len() {
-        return Err(ReplayError::Tables);
-    }
-    let mut summary = Summary::default();
-    let tables = NAMES.iter().zip(CONFIGS.iter()).zip(GAINS.iter());
-    for (index, (scenario, ((&name, &config), &gains))) in file.scenarios().zip(tables).enumerate()
-    {
-        let scenario = scenario?;
-        if scenario.name != name.as_bytes() {
-            return Err(ReplayError::Tables);
-        }
-        let mut pass = Pass {
-            scenario,
-            name,
-            gains,
-            report: &mut *report,
-            summary: &mut summary,
-            result: Ok(()),
-        };
-        pass.visit(config, RUN_TIME);
-        if !tables::visit_layout(index, &mut pass) {
-            return Err(ReplayError::Tables);
-        }
-        pass.result?;
-    }
-    Ok(summary)
+    replay_file!(golden, report)
+}
+
+/// Replay the embedded schedule set (`schedule.ekv`): every step applies
+/// the scenario's compile-time schedule with `Controller::schedule`.
+///
+/// # Errors
+/// As [`run`].
+pub fn run_schedules(report: &mut impl Report) -> Result<Summary, ReplayError> {
+    replay_file!(schedule, report)
 }
 
 /// One scenario, replayed with whatever configuration it is handed.
@@ -132,16 +154,22 @@ struct Pass<'a, 'r, R: Report> {
 }
 
 impl<R: Report> Pass<'_, '_, R> {
-    fn visit<L: Layout>(&mut self, config: Config<I16F16, L>, layout: &'static str) {
+    fn replay_with<L: Layout>(
+        &mut self,
+        config: Config<I16F16, L>,
+        table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
+        layout: &'static str,
+    ) {
         if self.result.is_err() {
             return;
         }
-        self.result = self.replay(config, layout);
+        self.result = self.replay(config, table, layout);
     }
 
     fn replay<L: Layout>(
         &mut self,
         config: Config<I16F16, L>,
+        table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
         layout: &'static str,
     ) -> Result<(), ReplayError> {
         let mut pi = probe::new(config);
@@ -149,7 +177,7 @@ impl<R: Report> Pass<'_, '_, R> {
         let mut mismatches: u32 = 0;
         for (index, step) in (0..=u16::MAX).zip(self.scenario.steps()) {
             let step = step?;
-            let out = apply(&mut pi, self.gains, &step)?;
+            let out = apply(&mut pi, self.gains, table, &step)?;
             let got_command = out.command.to_bits();
             let got_status = out.status.bits();
             if got_command != step.command || got_status != step.status {
@@ -175,9 +203,13 @@ impl<R: Report> Pass<'_, '_, R> {
     }
 }
 
-impl<R: Report> tables::ConfigVisitor for Pass<'_, '_, R> {
-    fn visit<L: Layout>(&mut self, config: Config<I16F16, L>) {
-        Pass::visit(self, config, COMPILE_TIME);
+impl<R: Report> ConfigVisitor for Pass<'_, '_, R> {
+    fn visit<L: Layout>(
+        &mut self,
+        config: Config<I16F16, L>,
+        table: Option<&'static Schedule<I16F16, SCHEDULE_ROWS, L>>,
+    ) {
+        self.replay_with(config, table, COMPILE_TIME);
     }
 }
 
@@ -191,6 +223,7 @@ impl<R: Report> tables::ConfigVisitor for Pass<'_, '_, R> {
 pub fn apply<L: Layout>(
     pi: &mut Controller<I16F16, L>,
     gains: &[(FixedCoef, FixedCoef)],
+    table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
     step: &Step,
 ) -> Result<Output<I16F16>, ReplayError> {
     let q = I16F16::from_bits;
@@ -224,6 +257,11 @@ pub fn apply<L: Layout>(
             if !probe::retune(pi, kp, ki_ts) {
                 return Err(ReplayError::GainIndex);
             }
+            run(pi)
+        }
+        Op::Schedule { at } => {
+            let table = table.ok_or(ReplayError::Tables)?;
+            probe::schedule(pi, table, q(at));
             run(pi)
         }
     })
