@@ -135,12 +135,21 @@ pub struct Controller<B: Backend, L: Layout = Runtime> {
     config: Config<B, L>,
     integral: B::Accum,
     filtered: B::Accum,
-    filter_primed: bool,
+    /// [`PRIMED`] once a step ran since `new`/`reset`; [`ENGAGE`] while an
+    /// engage waits for the next step (one byte: one load and one store per
+    /// step).
+    state: u8,
     last_command: B,
     last_setpoint: B,
     last_filtered: B,
-    engage_at: Option<B>,
+    /// The actuator value of a pending engage (read only under [`ENGAGE`]).
+    engage_at: B,
 }
+
+/// A step ran since `new` or `reset` (filter and retune history valid).
+const PRIMED: u8 = 1 << 0;
+/// `engage` was called: the next step takes over from `engage_at`.
+const ENGAGE: u8 = 1 << 1;
 
 impl<B: Backend, L: Layout> Controller<B, L> {
     /// A controller at rest: integrator zero, last command zero clamped into
@@ -160,11 +169,11 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         Self {
             integral: B::ACCUM_ZERO,
             filtered: B::ACCUM_ZERO,
-            filter_primed: false,
+            state: 0,
             last_command: config.rest,
             last_setpoint: B::ZERO,
             last_filtered: B::ZERO,
-            engage_at: None,
+            engage_at: B::ZERO,
             config,
         }
     }
@@ -239,7 +248,8 @@ impl<B: Backend, L: Layout> Controller<B, L> {
     /// ```
     pub fn engage(&mut self, actuator: B) {
         if actuator.is_finite() {
-            self.engage_at = Some(actuator);
+            self.engage_at = actuator;
+            self.state |= ENGAGE;
         }
     }
 
@@ -285,7 +295,7 @@ impl<B: Backend, L: Layout> Controller<B, L> {
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
     pub fn retune(&mut self, config: Config<B, L>) {
-        if self.filter_primed {
+        if self.state & PRIMED != 0 {
             let old = proportional_part(&self.config, self.last_setpoint, self.last_filtered);
             let new = proportional_part(&config, self.last_setpoint, self.last_filtered);
             let moved = B::deplete(B::accumulate(self.integral, old), new);
@@ -331,6 +341,12 @@ impl<B: Backend, L: Layout> Controller<B, L> {
     pub fn step_with(&mut self, input: &Input<B>) -> Output<B> {
         let c = &self.config;
         let on = layout::features::<L>(c.features);
+        let state = self.state;
+        // Only before the first step (after `new` or `reset`) can the
+        // integrator lie outside its range: `new` starts it at zero, and
+        // every later assignment clamps (`retune`, `engage`, the update
+        // below).
+        let first = state & PRIMED == 0;
         let applied_ok = match input.applied {
             Some(a) => a.is_finite(),
             None => true,
@@ -353,7 +369,7 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         status.set_if(r != input.setpoint, Status::SETPOINT_RANGE);
         let ff = clamp(input.feed_forward, c.feed_forward_min, c.feed_forward_max);
 
-        let y_f = if on.contains(Features::FILTER) && self.filter_primed {
+        let y_f = if on.contains(Features::FILTER) && !first {
             // `last_filtered` is always `narrow(filtered)`: both are set
             // together below and nowhere else (`new` sets both to zero).
             let previous = self.last_filtered;
@@ -369,13 +385,15 @@ impl<B: Backend, L: Layout> Controller<B, L> {
             }
             y
         };
-        self.filter_primed = true;
+        // Primed; a pending engage is taken by this step.
+        self.state = PRIMED;
 
         let (p, e, in_deadband) = proportional(c, on, r, y_f);
         status.set_if(in_deadband, Status::DEADBAND);
 
         let mut v = p.add(B::narrow(self.integral)).add(ff);
-        if let Some(actuator) = self.engage_at.take() {
+        if state & ENGAGE != 0 {
+            let actuator = self.engage_at;
             // Bumpless engage: the command continues from the actuator's
             // value, and I is chosen so that P + I + ff equals it (exactly
             // unless that I lies outside the integrator range).
@@ -423,18 +441,24 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         let integral = if on.contains(Features::BACK_CALCULATION) {
             let ratio = coef::<B, L>(c.tracking_ratio, Slot::TrackingRatio);
             let i = B::integrate(self.integral, e, ki_ts);
-            B::integrate(i, u.sub(v).add(downstream), ratio)
+            Some(B::integrate(i, u.sub(v).add(downstream), ratio))
         } else {
             let held_high = u < v || downstream < B::ZERO;
             let held_low = u > v || downstream > B::ZERO;
             if (held_high && e > B::ZERO) || (held_low && e < B::ZERO) {
                 status |= Status::INTEGRATOR_HELD;
-                self.integral
+                // Unchanged, so already in range except on the first step.
+                if first {
+                    self.integral = clamp(self.integral, c.integral_min, c.integral_max);
+                }
+                None
             } else {
-                B::integrate(self.integral, e, ki_ts)
+                Some(B::integrate(self.integral, e, ki_ts))
             }
         };
-        self.integral = clamp(integral, c.integral_min, c.integral_max);
+        if let Some(integral) = integral {
+            self.integral = clamp(integral, c.integral_min, c.integral_max);
+        }
         self.last_command = u;
         self.last_setpoint = r;
         self.last_filtered = y_f;
