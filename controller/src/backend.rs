@@ -70,6 +70,17 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// assert_eq!(<I16F16 as Backend>::ACCUM_ZERO, I32F32::ZERO);
     /// ```
     const ACCUM_ZERO: Self::Accum;
+    /// `true` if `x + y` and `x − y` never land beyond the exact result
+    /// (fixed point: exact, or saturated towards it); `false` for float
+    /// backends, whose sums round to nearest. The slew limiter then uses
+    /// [`Backend::raise_by`] and [`Backend::lower_by`] for its bounds.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert!(<I16F16 as Backend>::EXACT_SUMS && !<f32 as Backend>::EXACT_SUMS);
+    /// ```
+    const EXACT_SUMS: bool;
     /// Short name for reports: `"fixed"`, `"f32"`, `"f64"`.
     ///
     /// ```
@@ -353,6 +364,7 @@ impl Backend for I16F16 {
     const ZERO: Self = I16F16::ZERO;
     const ONE: Self = I16F16::ONE;
     const ACCUM_ZERO: I32F32 = I32F32::ZERO;
+    const EXACT_SUMS: bool = true;
     const NAME: &'static str = "fixed";
 
     fn configure<L: Layout>(settings: &Settings) -> Result<Config<Self, L>, ConfigError> {
@@ -456,6 +468,7 @@ macro_rules! float_backend {
             const ZERO: Self = 0.0;
             const ONE: Self = 1.0;
             const ACCUM_ZERO: $t = 0.0;
+            const EXACT_SUMS: bool = false;
             const NAME: &'static str = $name;
 
             fn configure<L: Layout>(settings: &Settings) -> Result<Config<Self, L>, ConfigError> {

@@ -414,14 +414,34 @@ impl<B: Backend, L: Layout> Controller<B, L> {
             status |= Status::CLAMP_LOW;
         }
         if on.contains(Features::SLEW) {
-            let up = self.last_command.raise_by(c.slew_step);
-            let down = self.last_command.lower_by(c.slew_step);
-            if u > up {
-                u = up;
-                status |= Status::SLEW;
-            } else if u < down {
-                u = down;
-                status |= Status::SLEW;
+            let last = self.last_command;
+            // `last ± step` as computed; the exact bound (float rounding
+            // of that sum may overshoot the step) is needed only when the
+            // command reaches it, so it stays off the common path. Fixed
+            // point: both are the same saturating sum.
+            let up = last.add(c.slew_step);
+            let down = last.sub(c.slew_step);
+            if B::EXACT_SUMS {
+                // Fixed point: `last ± step` never passes the step.
+                if u > up {
+                    u = up;
+                    status |= Status::SLEW;
+                } else if u < down {
+                    u = down;
+                    status |= Status::SLEW;
+                }
+            } else if u >= up {
+                let up = last.raise_by(c.slew_step);
+                if u > up {
+                    u = up;
+                    status |= Status::SLEW;
+                }
+            } else if u <= down {
+                let down = last.lower_by(c.slew_step);
+                if u < down {
+                    u = down;
+                    status |= Status::SLEW;
+                }
             }
             // No second clamp: `last_command` is always within the output
             // limits (every assignment clamps or is clamped) and the step is
