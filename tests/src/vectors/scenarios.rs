@@ -137,7 +137,7 @@ fn schedule_plain() -> Result<Recording, ConfigError> {
     };
     for k in 0..400 {
         // Scheduling value −10 … 123, a new value every second sample.
-        let at = I16F16::from_num(k as i32 / 3 - 10);
+        let at = I16F16::from_num(k / 3 - 10);
         let r = if k % 100 < 50 { 6.0 } else { -3.0 };
         let extra = Extra {
             event: Event::ScheduleOp(at),
