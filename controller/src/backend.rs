@@ -245,6 +245,18 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// assert_eq!(Backend::sub(1.5_f64, 2.0), -0.5);
     /// ```
     fn sub(self, other: Self) -> Self;
+    /// `self − other` for operands whose exact difference is a signal (the
+    /// caller proves it, e.g. the deadband: `e − clamp(e, −w, w)` with
+    /// w ≥ 0): no saturation check. Fixed point: exact there, wrapping
+    /// outside (never a panic); float backends: `self − other`.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// let (e, w) = (I16F16::from_num(3), I16F16::from_num(1));
+    /// assert_eq!(Backend::sub_exact(e, w), Backend::sub(e, w));
+    /// ```
+    fn sub_exact(self, other: Self) -> Self;
     /// `self · c`, rounded to a signal.
     ///
     /// Fixed point: nearest, ties toward +∞, saturating.
@@ -419,6 +431,10 @@ impl Backend for I16F16 {
     fn sub(self, other: Self) -> Self {
         self.saturating_sub(other)
     }
+    #[inline(always)]
+    fn sub_exact(self, other: Self) -> Self {
+        self.wrapping_sub(other)
+    }
     #[inline]
     fn scale(self, c: FixedCoef) -> Self {
         c.scale(self)
@@ -518,6 +534,10 @@ macro_rules! float_backend {
             }
             #[inline]
             fn sub(self, other: Self) -> Self {
+                self - other
+            }
+            #[inline(always)]
+            fn sub_exact(self, other: Self) -> Self {
                 self - other
             }
             #[inline]

@@ -518,22 +518,22 @@ fn proportional<B: Backend, L: Layout>(
     y_f: B,
 ) -> (B, B, bool) {
     let e = r.sub(y_f);
-    let (e_db, in_deadband) = if on.contains(Features::DEADBAND) {
+    // Deadband of half-width w ≥ 0 (validated): the part of e inside the
+    // band is clamp(e, −w, w) and the shrunk error e_db = e − clamp(e, −w, w)
+    // (e − w above the band, e + w below, zero inside). Both subtractions
+    // are exact (−w ≥ −MAX; e − w ≥ 0 when e > w; e + w ≥ MIN when e < −w),
+    // so they need no saturation.
+    let (e_db, inside, in_deadband) = if on.contains(Features::DEADBAND) {
         let w = c.deadband;
-        let e_db = if e > w {
-            e.sub(w)
-        } else if e < B::ZERO.sub(w) {
-            e.add(w)
-        } else {
-            B::ZERO
-        };
-        (e_db, e_db == B::ZERO)
+        let inside = clamp(e, B::ZERO.sub_exact(w), w);
+        let e_db = e.sub_exact(inside);
+        (e_db, inside, e_db == B::ZERO)
     } else {
-        (e, false)
+        (e, B::ZERO, false)
     };
     let weighted = if on.contains(Features::SETPOINT_WEIGHT) {
         let b = coef::<B, L>(c.setpoint_weight, Slot::SetpointWeight);
-        r.scale(b).sub(y_f).sub(e.sub(e_db))
+        r.scale(b).sub(y_f).sub(inside)
     } else {
         e_db
     };
