@@ -82,61 +82,50 @@ fn coef(c: FixedCoef) -> f32 {
     fixed_to_f32(c.mantissa(), c.shift())
 }
 
+/// The set bits of `bits` (below `count`) by name, joined by `|`, or `-`
+/// when none is set; `name` writes one bit's name (a literal, interned).
+fn flags(f: defmt::Formatter<'_>, bits: u16, count: u16, name: impl Fn(defmt::Formatter<'_>, u16)) {
+    if bits == 0 {
+        defmt::write!(f, "-");
+        return;
+    }
+    let mut first = true;
+    for bit in (0..count).filter(|b| bits & (1 << b) != 0) {
+        if !first {
+            defmt::write!(f, "|");
+        }
+        first = false;
+        name(f, bit);
+    }
+}
+
 impl defmt::Format for Status {
     fn format(&self, f: defmt::Formatter<'_>) {
-        if self.bits() == 0 {
-            defmt::write!(f, "-");
-            return;
-        }
-        let mut first = true;
-        for bit in 0..11u16 {
-            if self.bits() & (1 << bit) == 0 {
-                continue;
-            }
-            if !first {
-                defmt::write!(f, "|");
-            }
-            first = false;
-            match bit {
-                0 => defmt::write!(f, "clamp_high"),
-                1 => defmt::write!(f, "clamp_low"),
-                2 => defmt::write!(f, "slew"),
-                3 => defmt::write!(f, "downstream"),
-                4 => defmt::write!(f, "integrator_held"),
-                5 => defmt::write!(f, "deadband"),
-                6 => defmt::write!(f, "tracking"),
-                7 => defmt::write!(f, "engaged"),
-                8 => defmt::write!(f, "non_finite"),
-                9 => defmt::write!(f, "measurement_range"),
-                _ => defmt::write!(f, "setpoint_range"),
-            }
-        }
+        flags(f, self.bits(), 11, |f, bit| match bit {
+            0 => defmt::write!(f, "clamp_high"),
+            1 => defmt::write!(f, "clamp_low"),
+            2 => defmt::write!(f, "slew"),
+            3 => defmt::write!(f, "downstream"),
+            4 => defmt::write!(f, "integrator_held"),
+            5 => defmt::write!(f, "deadband"),
+            6 => defmt::write!(f, "tracking"),
+            7 => defmt::write!(f, "engaged"),
+            8 => defmt::write!(f, "non_finite"),
+            9 => defmt::write!(f, "measurement_range"),
+            _ => defmt::write!(f, "setpoint_range"),
+        });
     }
 }
 
 impl defmt::Format for Features {
     fn format(&self, f: defmt::Formatter<'_>) {
-        if self.bits() == 0 {
-            defmt::write!(f, "-");
-            return;
-        }
-        let mut first = true;
-        for bit in 0..5u8 {
-            if self.bits() & (1 << bit) == 0 {
-                continue;
-            }
-            if !first {
-                defmt::write!(f, "|");
-            }
-            first = false;
-            match bit {
-                0 => defmt::write!(f, "filter"),
-                1 => defmt::write!(f, "deadband"),
-                2 => defmt::write!(f, "setpoint_weight"),
-                3 => defmt::write!(f, "slew"),
-                _ => defmt::write!(f, "back_calculation"),
-            }
-        }
+        flags(f, u16::from(self.bits()), 5, |f, bit| match bit {
+            0 => defmt::write!(f, "filter"),
+            1 => defmt::write!(f, "deadband"),
+            2 => defmt::write!(f, "setpoint_weight"),
+            3 => defmt::write!(f, "slew"),
+            _ => defmt::write!(f, "back_calculation"),
+        });
     }
 }
 

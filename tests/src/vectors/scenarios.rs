@@ -112,24 +112,7 @@ fn scheduled(name: &str, base: Settings, rows: &[Breakpoint]) -> Result<Recorder
 
 fn schedule_plain() -> Result<Recording, ConfigError> {
     let base = Settings::new(0.01, 1.0, 2.0, -10.0, 10.0);
-    let rows = [
-        Breakpoint {
-            at: 0.0,
-            kp: 1.0,
-            ki_per_s: 2.0,
-        },
-        Breakpoint {
-            at: 50.0,
-            kp: 3.0,
-            ki_per_s: 1.0,
-        },
-        Breakpoint {
-            at: 100.0,
-            kp: 0.5,
-            ki_per_s: 6.0,
-        },
-    ];
-    let mut rec = scheduled("schedule_plain", base, &rows)?;
+    let mut rec = scheduled("schedule_plain", base, &GAIN_SCHEDULE_ROWS)?;
     let mut plant = Lag {
         y: 0.0,
         a: 0.04,
@@ -354,30 +337,33 @@ fn feed_forward_full() -> Result<Recording, ConfigError> {
     Ok(rec.finish())
 }
 
+/// The rows of the golden `gain_schedule` scenario, also scheduled every
+/// step by `schedule_plain`.
+const GAIN_SCHEDULE_ROWS: [Breakpoint; 3] = [
+    Breakpoint {
+        at: 0.0,
+        kp: 1.0,
+        ki_per_s: 2.0,
+    },
+    Breakpoint {
+        at: 50.0,
+        kp: 3.0,
+        ki_per_s: 1.0,
+    },
+    Breakpoint {
+        at: 100.0,
+        kp: 0.5,
+        ki_per_s: 6.0,
+    },
+];
+
 fn gain_schedule() -> Result<Recording, ConfigError> {
     let base = Settings::new(0.01, 1.0, 2.0, -10.0, 10.0)
         .with_slew_per_s(100.0)
         .with_anti_windup(AntiWindup::BackCalculation {
             tracking_time_s: 0.1,
         });
-    let rows = [
-        Breakpoint {
-            at: 0.0,
-            kp: 1.0,
-            ki_per_s: 2.0,
-        },
-        Breakpoint {
-            at: 50.0,
-            kp: 3.0,
-            ki_per_s: 1.0,
-        },
-        Breakpoint {
-            at: 100.0,
-            kp: 0.5,
-            ki_per_s: 6.0,
-        },
-    ];
-    let table = Schedule::new(&base, &rows)?;
+    let table = Schedule::new(&base, &GAIN_SCHEDULE_ROWS)?;
     let mut rec = Recorder::new("gain_schedule", base, Some(table))?;
     let mut plant = Lag {
         y: 0.0,
