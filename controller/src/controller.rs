@@ -363,10 +363,15 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         }
         let mut status = Status::NONE;
 
-        let y = clamp(input.measurement, c.measurement_min, c.measurement_max);
-        status.set_if(y != input.measurement, Status::MEASUREMENT_RANGE);
-        let r = clamp(input.setpoint, c.measurement_min, c.measurement_max);
-        status.set_if(r != input.setpoint, Status::SETPOINT_RANGE);
+        let (lo, hi) = (c.measurement_min, c.measurement_max);
+        let (mut y, mut r) = (input.measurement, input.setpoint);
+        // Both inside the range (the usual case): nothing to clamp or flag.
+        if !(y >= lo && y <= hi && r >= lo && r <= hi) {
+            y = clamp(y, lo, hi);
+            status.set_if(y != input.measurement, Status::MEASUREMENT_RANGE);
+            r = clamp(r, lo, hi);
+            status.set_if(r != input.setpoint, Status::SETPOINT_RANGE);
+        }
         let ff = clamp(input.feed_forward, c.feed_forward_min, c.feed_forward_max);
 
         let y_f = if on.contains(Features::FILTER) && !first {
