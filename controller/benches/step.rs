@@ -85,7 +85,44 @@ fn bench_backend<B: Backend>(c: &mut Criterion) {
     });
 }
 
+evenkeel::layout!(FullLayout = FULL);
+evenkeel::layout!(MinimalLayout = MINIMAL);
+
+/// The fixed-point step with its structure fixed at compile time (the same
+/// settings and inputs as `step/fixed/…`, the same bits).
+fn bench_layout(c: &mut Criterion) {
+    let full_inputs = inputs::<I16F16>();
+    let minimal_inputs: Vec<Input<I16F16>> = full_inputs
+        .iter()
+        .map(|i| Input::new(i.setpoint, i.measurement))
+        .collect();
+    let mut full = Controller::new(evenkeel::config!(I16F16, FullLayout, FULL));
+    let mut minimal = Controller::new(evenkeel::config!(I16F16, MinimalLayout, MINIMAL));
+    let mut k = 0usize;
+    c.bench_function("step/fixed-layout/minimal", |b| {
+        b.iter(|| {
+            k = (k + 1) & 255;
+            let input = minimal_inputs
+                .get(k)
+                .copied()
+                .unwrap_or(Input::new(I16F16::ZERO, I16F16::ZERO));
+            black_box(minimal.step_with(black_box(&input)))
+        })
+    });
+    c.bench_function("step/fixed-layout/full", |b| {
+        b.iter(|| {
+            k = (k + 1) & 255;
+            let input = full_inputs
+                .get(k)
+                .copied()
+                .unwrap_or(Input::new(I16F16::ZERO, I16F16::ZERO));
+            black_box(full.step_with(black_box(&input)))
+        })
+    });
+}
+
 fn benches(c: &mut Criterion) {
+    bench_layout(c);
     bench_backend::<I16F16>(c);
     bench_backend::<f32>(c);
     bench_backend::<f64>(c);

@@ -16,7 +16,8 @@ use core::fmt::Debug;
 use fixed::types::{I16F16, I32F32};
 
 use crate::config::Config;
-use crate::error::ConfigError;
+use crate::error::{ConfigError, Setting};
+use crate::layout::Layout;
 use crate::q::{self, FixedCoef};
 use crate::settings::Settings;
 
@@ -52,6 +53,34 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// assert_eq!(<f32 as Backend>::ZERO, 0.0);
     /// ```
     const ZERO: Self;
+    /// The signal one (1.0).
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert_eq!(<I16F16 as Backend>::ONE.to_bits(), 1 << 16);
+    /// assert_eq!(<f64 as Backend>::ONE, 1.0);
+    /// ```
+    const ONE: Self;
+    /// Zero accumulator.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::{I16F16, I32F32};
+    /// assert_eq!(<I16F16 as Backend>::ACCUM_ZERO, I32F32::ZERO);
+    /// ```
+    const ACCUM_ZERO: Self::Accum;
+    /// `true` if `x + y` and `x − y` never land beyond the exact result
+    /// (fixed point: exact, or saturated towards it); `false` for float
+    /// backends, whose sums round to nearest. The slew limiter then uses
+    /// [`Backend::raise_by`] and [`Backend::lower_by`] for its bounds.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// assert!(<I16F16 as Backend>::EXACT_SUMS && !<f32 as Backend>::EXACT_SUMS);
+    /// ```
+    const EXACT_SUMS: bool;
     /// Short name for reports: `"fixed"`, `"f32"`, `"f64"`.
     ///
     /// ```
@@ -61,11 +90,12 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// ```
     const NAME: &'static str;
 
-    /// Validate `settings` and store them in this backend's formats.
+    /// Validate `settings` and store them in this backend's formats, for
+    /// layout `L`.
     ///
     /// ```
-    /// use evenkeel::{Backend, Settings};
-    /// let c = f32::configure(&Settings::new(0.1, 1.0, 1.0, 0.0, 1.0))?;
+    /// use evenkeel::{Backend, Runtime, Settings};
+    /// let c = f32::configure::<Runtime>(&Settings::new(0.1, 1.0, 1.0, 0.0, 1.0))?;
     /// assert_eq!(c.output_limits(), (0.0, 1.0));
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
@@ -73,7 +103,61 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// # Errors
     /// A [`ConfigError`] naming the first setting that is invalid or does not
     /// fit this backend.
-    fn configure(settings: &Settings) -> Result<Config<Self>, ConfigError>;
+    fn configure<L: Layout>(settings: &Settings) -> Result<Config<Self, L>, ConfigError>;
+
+    /// Check a gain given in this backend's coefficient format the way
+    /// configuration checks the gains it computes: finite, non-negative,
+    /// within the format's range; fixed point also needs a shift of at least
+    /// `min_shift` and, when `layout_shift` is given, exactly that shift.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, ConfigError, FixedCoef, Setting};
+    /// use fixed::types::I16F16;
+    /// let ki_ts = FixedCoef::from_f64(0.5, 0).ok_or("does not fit")?; // shift 30
+    /// assert_eq!(I16F16::check_gain(ki_ts, 16, None, Setting::Ki), Ok(()));
+    /// assert_eq!(I16F16::check_gain(ki_ts, 16, Some(28), Setting::Ki), Err(ConfigError::Layout(Setting::Ki)));
+    /// assert_eq!(f32::check_gain(f32::NAN, 0, None, Setting::Kp), Err(ConfigError::NotFinite(Setting::Kp)));
+    /// # Ok::<(), &str>(())
+    /// ```
+    ///
+    /// # Errors
+    /// [`ConfigError::NotFinite`], [`ConfigError::Negative`],
+    /// [`ConfigError::OutOfFormat`] or [`ConfigError::Layout`] for `which`.
+    fn check_gain(
+        c: Self::Coef,
+        min_shift: u32,
+        layout_shift: Option<u32>,
+        which: Setting,
+    ) -> Result<(), ConfigError>;
+
+    /// `true` for a zero coefficient.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, FixedCoef};
+    /// use fixed::types::I16F16;
+    /// assert!(I16F16::coef_is_zero(FixedCoef::ZERO) && !f32::coef_is_zero(0.5));
+    /// ```
+    fn coef_is_zero(c: Self::Coef) -> bool;
+
+    /// The coefficient as a compile-time layout reads it: for fixed point
+    /// the same mantissa with its binary point at `shift` (a constant there,
+    /// so every product shifts by an immediate). Configuration stores each
+    /// coefficient of a layout at the layout's shift, so the value is
+    /// unchanged. Float backends: `c` itself (the default).
+    ///
+    /// ```
+    /// use evenkeel::{Backend, FixedCoef};
+    /// use fixed::types::I16F16;
+    /// let c = FixedCoef::with_shift(0.75, 20).ok_or("does not fit")?;
+    /// assert_eq!(I16F16::coef_at_shift(c, 20), c);
+    /// assert_eq!(f64::coef_at_shift(0.75, 20), 0.75);
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[inline(always)]
+    fn coef_at_shift(c: Self::Coef, shift: u32) -> Self::Coef {
+        let _ = shift;
+        c
+    }
 
     /// Two coefficients with a common scale (needed to interpolate between
     /// them); `min_shift` as for [`FixedCoef::from_f64`]. `None` if either
@@ -88,6 +172,18 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// # Ok::<(), &str>(())
     /// ```
     fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(Self::Coef, Self::Coef)>;
+
+    /// Two coefficients in a compile-time layout's format: fixed point at
+    /// exactly `shift`, float backends as [`Backend::coef_pair`].
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// let (a, _) = I16F16::coef_pair_at(0.5, 3.0, 20).ok_or("does not fit")?;
+    /// assert_eq!(a.shift(), 20);
+    /// # Ok::<(), &str>(())
+    /// ```
+    fn coef_pair_at(a: f64, b: f64, shift: u32) -> Option<(Self::Coef, Self::Coef)>;
 
     /// Nearest signal to `x` (host-side conversion; saturates, NaN stays NaN
     /// for float backends and becomes 0 for fixed).
@@ -149,6 +245,18 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// assert_eq!(Backend::sub(1.5_f64, 2.0), -0.5);
     /// ```
     fn sub(self, other: Self) -> Self;
+    /// `self − other` for operands whose exact difference is a signal (the
+    /// caller proves it, e.g. the deadband: `e − clamp(e, −w, w)` with
+    /// w ≥ 0): no saturation check. Fixed point: exact there, wrapping
+    /// outside (never a panic); float backends: `self − other`.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// let (e, w) = (I16F16::from_num(3), I16F16::from_num(1));
+    /// assert_eq!(Backend::sub_exact(e, w), Backend::sub(e, w));
+    /// ```
+    fn sub_exact(self, other: Self) -> Self;
     /// `self · c`, rounded to a signal.
     ///
     /// Fixed point: nearest, ties toward +∞, saturating.
@@ -173,6 +281,47 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// # Ok::<(), &str>(())
     /// ```
     fn scale_into(acc: Self::Accum, x: Self, c: Self::Coef) -> Self::Accum;
+    /// `acc + x · c` like [`Backend::scale_into`], for an accumulator inside
+    /// the range the controller keeps its state in and a coefficient from a
+    /// validated configuration. Fixed point: |acc| < 2⁶² Q32.32 LSB and a
+    /// shift of at least 16 make |acc + x·c| < 2⁶³, so the sum needs no
+    /// overflow check; outside that range the result is unspecified (it
+    /// never panics). The default is [`Backend::scale_into`].
+    ///
+    /// ```
+    /// use evenkeel::{Backend, FixedCoef};
+    /// use fixed::types::{I16F16, I32F32};
+    /// let k = FixedCoef::from_f64(1e-4, 16).ok_or("does not fit")?;
+    /// let acc = I32F32::from_num(2.5);
+    /// let x = I16F16::from_num(-3);
+    /// assert_eq!(I16F16::integrate(acc, x, k), I16F16::scale_into(acc, x, k));
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[inline(always)]
+    fn integrate(acc: Self::Accum, x: Self, c: Self::Coef) -> Self::Accum {
+        Self::scale_into(acc, x, c)
+    }
+    /// The largest value not above `self + step`, for `step ≥ 0`: the
+    /// slew limiter's upper bound, which must never be further from `self`
+    /// than the stored step (float rounding of `self + step` alone can be,
+    /// by up to half a unit in the last place).
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// // 1e6 + 0.04 rounds to 1e6 + 0.0625 in f32; the bound stays at or below it.
+    /// let up = Backend::raise_by(1.0e6_f32, 0.04);
+    /// assert!(f64::from(up) - 1.0e6 <= 0.04);
+    /// assert_eq!(Backend::raise_by(1.0_f64, 0.25), 1.25);
+    /// ```
+    fn raise_by(self, step: Self) -> Self;
+    /// The smallest value not below `self − step`, for `step ≥ 0`.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// let down = Backend::lower_by(-1.0e6_f32, 0.04);
+    /// assert!(f64::from(down) + 1.0e6 >= -0.04);
+    /// ```
+    fn lower_by(self, step: Self) -> Self;
     /// `acc + x`.
     ///
     /// ```
@@ -225,24 +374,41 @@ impl Backend for I16F16 {
     type Coef = FixedCoef;
     type Accum = I32F32;
     const ZERO: Self = I16F16::ZERO;
+    const ONE: Self = I16F16::ONE;
+    const ACCUM_ZERO: I32F32 = I32F32::ZERO;
+    const EXACT_SUMS: bool = true;
     const NAME: &'static str = "fixed";
 
-    fn configure(settings: &Settings) -> Result<Config<Self>, ConfigError> {
-        Config::<I16F16>::new(settings)
+    fn configure<L: Layout>(settings: &Settings) -> Result<Config<Self, L>, ConfigError> {
+        Config::<I16F16, L>::new(settings)
+    }
+    fn check_gain(
+        c: FixedCoef,
+        min_shift: u32,
+        layout_shift: Option<u32>,
+        which: Setting,
+    ) -> Result<(), ConfigError> {
+        if c.mantissa() < 0 {
+            return Err(ConfigError::Negative(which));
+        }
+        match layout_shift {
+            Some(s) if c.shift() != s => Err(ConfigError::Layout(which)),
+            _ if c.shift() < min_shift => Err(ConfigError::OutOfFormat(which)),
+            _ => Ok(()),
+        }
+    }
+    fn coef_is_zero(c: FixedCoef) -> bool {
+        c.mantissa() == 0
+    }
+    #[inline(always)]
+    fn coef_at_shift(c: FixedCoef, shift: u32) -> FixedCoef {
+        c.at_shift(shift)
     }
     fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(FixedCoef, FixedCoef)> {
-        // Zero fits any shift: let the other value choose.
-        let natural =
-            |x: f64| FixedCoef::from_f64(x, min_shift).map(|c| (x != 0.0).then_some(c.shift()));
-        let shift = match (natural(a)?, natural(b)?) {
-            (Some(sa), Some(sb)) => sa.min(sb),
-            (Some(s), None) | (None, Some(s)) => s,
-            (None, None) => min_shift,
-        };
-        Some((
-            FixedCoef::with_shift(a, shift)?,
-            FixedCoef::with_shift(b, shift)?,
-        ))
+        q::coef_pair(a, b, min_shift)
+    }
+    fn coef_pair_at(a: f64, b: f64, shift: u32) -> Option<(FixedCoef, FixedCoef)> {
+        q::coef_pair_at(a, b, shift)
     }
     fn from_f64(x: f64) -> Self {
         I16F16::saturating_from_num(if x.is_nan() { 0.0 } else { x })
@@ -265,6 +431,10 @@ impl Backend for I16F16 {
     fn sub(self, other: Self) -> Self {
         self.saturating_sub(other)
     }
+    #[inline(always)]
+    fn sub_exact(self, other: Self) -> Self {
+        self.wrapping_sub(other)
+    }
     #[inline]
     fn scale(self, c: FixedCoef) -> Self {
         c.scale(self)
@@ -272,6 +442,18 @@ impl Backend for I16F16 {
     #[inline]
     fn scale_into(acc: I32F32, x: Self, c: FixedCoef) -> I32F32 {
         c.scale_into(acc, x)
+    }
+    #[inline(always)]
+    fn integrate(acc: I32F32, x: Self, c: FixedCoef) -> I32F32 {
+        c.integrate(acc, x)
+    }
+    #[inline(always)]
+    fn raise_by(self, step: Self) -> Self {
+        self.saturating_add(step)
+    }
+    #[inline(always)]
+    fn lower_by(self, step: Self) -> Self {
+        self.saturating_sub(step)
     }
     #[inline]
     fn accumulate(acc: I32F32, x: Self) -> I32F32 {
@@ -295,18 +477,43 @@ impl Backend for I16F16 {
 }
 
 macro_rules! float_backend {
-    ($t:ty, $name:literal) => {
+    ($t:ty, $name:literal, $limit:expr) => {
         impl Backend for $t {
             type Coef = $t;
             type Accum = $t;
             const ZERO: Self = 0.0;
+            const ONE: Self = 1.0;
+            const ACCUM_ZERO: $t = 0.0;
+            const EXACT_SUMS: bool = false;
             const NAME: &'static str = $name;
 
-            fn configure(settings: &Settings) -> Result<Config<Self>, ConfigError> {
-                Config::<$t>::new(settings)
+            fn configure<L: Layout>(settings: &Settings) -> Result<Config<Self, L>, ConfigError> {
+                Config::<$t, L>::new(settings)
+            }
+            fn check_gain(
+                c: $t,
+                _min_shift: u32,
+                _layout_shift: Option<u32>,
+                which: Setting,
+            ) -> Result<(), ConfigError> {
+                if !c.is_finite() {
+                    Err(ConfigError::NotFinite(which))
+                } else if c < 0.0 {
+                    Err(ConfigError::Negative(which))
+                } else if f64::from(c) > $limit {
+                    Err(ConfigError::OutOfFormat(which))
+                } else {
+                    Ok(())
+                }
+            }
+            fn coef_is_zero(c: $t) -> bool {
+                c == 0.0
             }
             fn coef_pair(a: f64, b: f64, _min_shift: u32) -> Option<($t, $t)> {
                 (a.is_finite() && b.is_finite()).then_some((a as $t, b as $t))
+            }
+            fn coef_pair_at(a: f64, b: f64, _shift: u32) -> Option<($t, $t)> {
+                Self::coef_pair(a, b, 0)
             }
             fn from_f64(x: f64) -> Self {
                 x as $t
@@ -329,6 +536,10 @@ macro_rules! float_backend {
             fn sub(self, other: Self) -> Self {
                 self - other
             }
+            #[inline(always)]
+            fn sub_exact(self, other: Self) -> Self {
+                self - other
+            }
             #[inline]
             fn scale(self, c: $t) -> Self {
                 self * c
@@ -336,6 +547,20 @@ macro_rules! float_backend {
             #[inline]
             fn scale_into(acc: $t, x: Self, c: $t) -> $t {
                 acc + x * c
+            }
+            #[inline]
+            fn raise_by(self, step: Self) -> Self {
+                // s + t = self + step exactly (TwoSum, Knuth; common
+                // practice): t < 0 means s rounded above the exact sum.
+                let s = self + step;
+                let t = two_sum_error!(self, step, s);
+                if t < 0.0 { s.next_down() } else { s }
+            }
+            #[inline]
+            fn lower_by(self, step: Self) -> Self {
+                let s = self - step;
+                let t = two_sum_error!(self, -step, s);
+                if t > 0.0 { s.next_up() } else { s }
             }
             #[inline]
             fn accumulate(acc: $t, x: Self) -> $t {
@@ -360,5 +585,16 @@ macro_rules! float_backend {
     };
 }
 
-float_backend!(f32, "f32");
-float_backend!(f64, "f64");
+/// The rounding error t of `s = fl(a + b)`, so that s + t = a + b exactly
+/// (TwoSum, six operations, no branch; exact in round-to-nearest without
+/// overflow, which configuration bounds rule out).
+macro_rules! two_sum_error {
+    ($a:expr, $b:expr, $s:expr) => {{
+        let (a, b, s) = ($a, $b, $s);
+        let bb = s - a;
+        (a - (s - bb)) + (b - bb)
+    }};
+}
+
+float_backend!(f32, "f32", 1.0e12);
+float_backend!(f64, "f64", 1.0e150);

@@ -1,9 +1,12 @@
 //! A validated configuration stored in one backend's number formats.
 
+use core::marker::PhantomData;
+
 use fixed::types::{I16F16, I32F32};
 
 use crate::backend::Backend;
 use crate::error::{ConfigError, Setting};
+use crate::layout::{Features, Layout, Runtime, Shape, Slot};
 use crate::q::{self, COEF_REL_TOLERANCE, FixedCoef};
 use crate::settings::{PerSample, Settings};
 
@@ -23,6 +26,11 @@ pub const SLEW_REL_TOLERANCE: f64 = 0.01;
 /// formats. Built once from [`Settings`]; `Copy`, so a firmware can keep
 /// several (e.g. per operating mode) in flash.
 ///
+/// `L` says where the structure is decided: [`Runtime`] (the default) lets
+/// each configuration choose its features and fixed-point formats; a
+/// compile-time [`Layout`] fixes them, and every configuration of that
+/// layout must have them ([`ConfigError::Layout`] otherwise).
+///
 /// A `const` configuration is checked by the compiler: see [`crate::config!`].
 ///
 /// ```
@@ -36,15 +44,17 @@ pub const SLEW_REL_TOLERANCE: f64 = 0.01;
 /// # Ok::<(), evenkeel::ConfigError>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Config<B: Backend> {
+pub struct Config<B: Backend, L: Layout = Runtime> {
+    /// Optional parts that are on; the coefficient or signal of a part that
+    /// is off is zero and never read.
+    pub(crate) features: Features,
     pub(crate) kp: B::Coef,
-    pub(crate) setpoint_weight: Option<B::Coef>,
+    pub(crate) setpoint_weight: B::Coef,
     pub(crate) ki_ts: B::Coef,
-    pub(crate) tracking_ratio: Option<B::Coef>,
-    pub(crate) filter_alpha: Option<B::Coef>,
-    pub(crate) slew_step: Option<B>,
-    pub(crate) deadband: Option<B>,
+    pub(crate) tracking_ratio: B::Coef,
+    pub(crate) filter_alpha: B::Coef,
+    pub(crate) slew_step: B,
+    pub(crate) deadband: B,
     pub(crate) output_min: B,
     pub(crate) output_max: B,
     pub(crate) feed_forward_min: B,
@@ -53,9 +63,13 @@ pub struct Config<B: Backend> {
     pub(crate) integral_max: B::Accum,
     pub(crate) measurement_min: B,
     pub(crate) measurement_max: B,
+    /// Zero clamped into the output limits: the command of a controller at
+    /// rest.
+    pub(crate) rest: B,
+    pub(crate) layout: PhantomData<L>,
 }
 
-impl<B: Backend> Config<B> {
+impl<B: Backend, L: Layout> Config<B, L> {
     /// Validate `settings` and store them in `B`'s formats.
     ///
     /// ```
@@ -72,10 +86,35 @@ impl<B: Backend> Config<B> {
     /// # Errors
     /// The first invalid setting, or one that does not fit `B`.
     pub fn try_new(settings: &Settings) -> Result<Self, ConfigError> {
-        B::configure(settings)
+        B::configure::<L>(settings)
     }
 
-    /// Command limits `(min, max)`.
+    /// The optional parts this configuration has.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Features, Settings};
+    /// let c = Config::<f64>::try_new(&Settings::new(0.1, 1.0, 1.0, 0.0, 1.0).with_deadband(0.1))?;
+    /// assert_eq!(c.features(), Features::DEADBAND);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
+    pub fn features(&self) -> Features {
+        self.features
+    }
+
+    /// Command limits `(min, max)` as stored: each written limit rounded
+    /// inward to the backend's grid (fixed point: the Q16.16 value at or
+    /// inside it; `f32`: the nearest `f32` at or inside it), so no command
+    /// ever leaves the range the settings give.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Settings};
+    /// use fixed::types::I16F16;
+    /// let c = Config::<I16F16>::try_new(&Settings::new(0.1, 1.0, 0.0, -0.8, 0.8))?;
+    /// let (lo, hi) = c.output_limits();
+    /// assert!(lo.to_num::<f64>() >= -0.8 && hi.to_num::<f64>() <= 0.8);
+    /// assert_eq!((lo.to_bits(), hi.to_bits()), (-52_428, 52_428)); // 0.8 · 2¹⁶ = 52 428.8
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
     ///
     /// ```
     /// let c = evenkeel::Config::<f64>::try_new(&evenkeel::Settings::new(0.1, 1.0, 0.0, -2.0, 3.0))?;
@@ -102,7 +141,9 @@ impl<B: Backend> Config<B> {
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
     pub fn slew_step(&self) -> Option<B> {
-        self.slew_step
+        self.features
+            .contains(Features::SLEW)
+            .then_some(self.slew_step)
     }
 
     /// Stored Kp.
@@ -150,7 +191,9 @@ impl<B: Backend> Config<B> {
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
     pub fn tracking_ratio(&self) -> Option<B::Coef> {
-        self.tracking_ratio
+        self.features
+            .contains(Features::BACK_CALCULATION)
+            .then_some(self.tracking_ratio)
     }
 
     /// Stored filter coefficient α.
@@ -166,7 +209,9 @@ impl<B: Backend> Config<B> {
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
     pub fn filter_alpha(&self) -> Option<B::Coef> {
-        self.filter_alpha
+        self.features
+            .contains(Features::FILTER)
+            .then_some(self.filter_alpha)
     }
 
     /// Stored setpoint weight (`None` when it is exactly 1).
@@ -180,7 +225,9 @@ impl<B: Backend> Config<B> {
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
     pub fn setpoint_weight(&self) -> Option<B::Coef> {
-        self.setpoint_weight
+        self.features
+            .contains(Features::SETPOINT_WEIGHT)
+            .then_some(self.setpoint_weight)
     }
 
     /// Stored deadband half-width.
@@ -196,7 +243,9 @@ impl<B: Backend> Config<B> {
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
     pub fn deadband(&self) -> Option<B> {
-        self.deadband
+        self.features
+            .contains(Features::DEADBAND)
+            .then_some(self.deadband)
     }
 
     /// Plausible measurement range `(min, max)`.
@@ -214,20 +263,47 @@ impl<B: Backend> Config<B> {
     }
 
     /// The same configuration with new proportional and per-sample integral
-    /// coefficients (used by gain schedules).
+    /// coefficients, checked like [`Config::try_new`] checks the gains it
+    /// computes: each must be finite and non-negative, not both zero, within
+    /// the backend's range (fixed point: Ki·Ts with a shift of at least 16,
+    /// i.e. below 2¹⁵; `f32` ≤ 1e12, `f64` ≤ 1e150), and, under a
+    /// compile-time layout, in the layout's format (the same shift).
     ///
     /// `ki_ts` is per sample (Ki·Ts), not per second.
     ///
     /// ```
-    /// use evenkeel::{Config, Settings};
+    /// use evenkeel::{Config, ConfigError, Setting, Settings};
     /// let c = Config::<f64>::try_new(&Settings::new(0.1, 1.0, 2.0, -1.0, 1.0))?;
-    /// let g = c.with_gains(3.0, 0.5);
+    /// let g = c.with_gains(3.0, 0.5)?;
     /// assert_eq!((g.kp(), g.ki_ts()), (3.0, 0.5));
     /// assert_eq!(g.output_limits(), c.output_limits()); // everything else kept
+    /// assert_eq!(c.with_gains(f64::NAN, 0.5), Err(ConfigError::NotFinite(Setting::Kp)));
+    /// assert_eq!(c.with_gains(1.0, -0.5), Err(ConfigError::Negative(Setting::Ki)));
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
+    ///
+    /// # Errors
+    /// The first gain that is not valid, or [`ConfigError::NoAction`].
+    pub fn with_gains(self, kp: B::Coef, ki_ts: B::Coef) -> Result<Self, ConfigError> {
+        let shape = L::SHAPE;
+        B::check_gain(kp, 0, shape.and_then(|s| s.shift(Slot::Kp)), Setting::Kp)?;
+        B::check_gain(
+            ki_ts,
+            16,
+            shape.and_then(|s| s.shift(Slot::KiTs)),
+            Setting::Ki,
+        )?;
+        if B::coef_is_zero(kp) && B::coef_is_zero(ki_ts) {
+            return Err(ConfigError::NoAction);
+        }
+        Ok(self.with_gains_unchecked(kp, ki_ts))
+    }
+
+    /// [`Config::with_gains`] for gains known to be valid (interpolated
+    /// between two validated schedule rows of the same format).
+    #[inline]
     #[must_use]
-    pub fn with_gains(mut self, kp: B::Coef, ki_ts: B::Coef) -> Self {
+    pub(crate) fn with_gains_unchecked(mut self, kp: B::Coef, ki_ts: B::Coef) -> Self {
         self.kp = kp;
         self.ki_ts = ki_ts;
         self
@@ -244,14 +320,16 @@ macro_rules! attempt {
     };
 }
 
-impl Config<I16F16> {
+impl<L: Layout> Config<I16F16, L> {
     /// Fixed-point configuration, usable in `const` context.
     ///
     /// Gains are stored as [`FixedCoef`] with relative error ≤ 2⁻²⁰
     /// (checked); Ki·Ts, Ts/Tt and the filter α must be below 32 768
-    /// (always true for α and Ts/Tt); limits, slew step and deadband are
-    /// rounded to the nearest Q16.16 value (the slew step must come within
-    /// 1 %).
+    /// (always true for α and Ts/Tt); slew step and deadband are rounded to
+    /// the nearest Q16.16 value (the slew step must come within 1 %); the
+    /// output limits are rounded inward (`output_min` up, `output_max` down),
+    /// so the command never leaves the range written in the settings.
+    /// Under a compile-time layout each gain is stored at the layout's shift.
     ///
     /// ```
     /// use evenkeel::{Config, ConfigError, Settings};
@@ -265,24 +343,41 @@ impl Config<I16F16> {
     /// ```
     ///
     /// # Errors
-    /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`] and
-    /// [`ConfigError::TooFine`].
+    /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`],
+    /// [`ConfigError::TooFine`] and, under a compile-time layout,
+    /// [`ConfigError::Layout`].
     pub const fn new(settings: &Settings) -> Result<Self, ConfigError> {
         let p: PerSample = attempt!(settings.per_sample());
-        let kp = attempt!(fixed_coef(p.kp, 0, Setting::Kp));
-        let setpoint_weight = match p.setpoint_weight {
-            Some(b) => Some(attempt!(fixed_coef(b, 0, Setting::SetpointWeight))),
-            None => None,
-        };
-        let ki_ts = attempt!(fixed_coef(p.ki_ts, 16, Setting::Ki));
-        let tracking_ratio = match p.tracking_ratio {
-            Some(r) => Some(attempt!(fixed_coef(r, 16, Setting::TrackingTime))),
-            None => None,
-        };
-        let filter_alpha = match p.filter_alpha {
-            Some(a) => Some(attempt!(fixed_coef(a, 16, Setting::FilterTime))),
-            None => None,
-        };
+        let features = Features::of(&p);
+        let shape = L::SHAPE;
+        if let Some(s) = shape
+            && s.features().bits() != features.bits()
+        {
+            return Err(ConfigError::Layout(Setting::Features));
+        }
+        let kp = attempt!(layout_coef(shape, Slot::Kp, p.kp, 0, Setting::Kp));
+        let setpoint_weight = attempt!(optional_coef(
+            shape,
+            Slot::SetpointWeight,
+            p.setpoint_weight,
+            0,
+            Setting::SetpointWeight
+        ));
+        let ki_ts = attempt!(layout_coef(shape, Slot::KiTs, p.ki_ts, 16, Setting::Ki));
+        let tracking_ratio = attempt!(optional_coef(
+            shape,
+            Slot::TrackingRatio,
+            p.tracking_ratio,
+            16,
+            Setting::TrackingTime
+        ));
+        let filter_alpha = attempt!(optional_coef(
+            shape,
+            Slot::FilterAlpha,
+            p.filter_alpha,
+            16,
+            Setting::FilterTime
+        ));
         let slew_step = match p.slew_step {
             Some(s) => {
                 let q = attempt!(fixed_signal(s, Setting::Slew));
@@ -291,16 +386,16 @@ impl Config<I16F16> {
                 {
                     return Err(ConfigError::TooFine(Setting::Slew));
                 }
-                Some(q)
+                q
             }
-            None => None,
+            None => I16F16::ZERO,
         };
         let deadband = match p.deadband {
-            Some(w) => Some(attempt!(fixed_signal(w, Setting::Deadband))),
-            None => None,
+            Some(w) => attempt!(fixed_signal(w, Setting::Deadband)),
+            None => I16F16::ZERO,
         };
-        let output_min = attempt!(fixed_signal(p.output_min, Setting::OutputMin));
-        let output_max = attempt!(fixed_signal(p.output_max, Setting::OutputMax));
+        let output_min = attempt!(fixed_limit(p.output_min, Inward::Up, Setting::OutputMin));
+        let output_max = attempt!(fixed_limit(p.output_max, Inward::Down, Setting::OutputMax));
         if output_min.to_bits() >= output_max.to_bits() {
             return Err(ConfigError::Inverted(Setting::OutputMax));
         }
@@ -310,11 +405,21 @@ impl Config<I16F16> {
             return Err(ConfigError::Inverted(Setting::MeasurementMax));
         }
         // Integrator and feed-forward range: the output range widened by its
-        // span on both sides. Exact in i64.
+        // span on both sides. Exact in i64; |bounds| < 3·2³¹ Q16.16 LSB, so
+        // the integrator's Q32.32 bits stay below 1.5·2⁴⁸ in magnitude (the
+        // bound the step's unchecked sums rely on, see `controller.rs`).
         let lo = output_min.to_bits() as i64;
         let hi = output_max.to_bits() as i64;
         let span = hi - lo;
+        let rest = if lo > 0 {
+            output_min
+        } else if hi < 0 {
+            output_max
+        } else {
+            I16F16::ZERO
+        };
         Ok(Self {
+            features,
             kp,
             setpoint_weight,
             ki_ts,
@@ -330,14 +435,78 @@ impl Config<I16F16> {
             integral_max: I32F32::from_bits((hi + span) << 16),
             measurement_min,
             measurement_max,
+            rest,
+            layout: PhantomData,
         })
     }
 }
 
-const fn fixed_coef(value: f64, min_shift: u32, which: Setting) -> Result<FixedCoef, ConfigError> {
+/// A coefficient at the layout's shift, or at its natural shift (run time).
+const fn layout_coef(
+    shape: Option<Shape>,
+    slot: Slot,
+    value: f64,
+    min_shift: u32,
+    which: Setting,
+) -> Result<FixedCoef, ConfigError> {
+    match shape {
+        Some(s) => match s.shift(slot) {
+            Some(shift) => fixed_coef_at(value, shift, which),
+            None => fixed_coef(value, min_shift, which),
+        },
+        None => fixed_coef(value, min_shift, which),
+    }
+}
+
+/// [`layout_coef`] of an optional part; zero when it is off.
+const fn optional_coef(
+    shape: Option<Shape>,
+    slot: Slot,
+    value: Option<f64>,
+    min_shift: u32,
+    which: Setting,
+) -> Result<FixedCoef, ConfigError> {
+    match value {
+        Some(v) => layout_coef(shape, slot, v, min_shift, which),
+        None => Ok(FixedCoef::ZERO),
+    }
+}
+
+/// Nearest coefficient at its natural shift (at least `min_shift`), within
+/// [`COEF_REL_TOLERANCE`].
+pub(crate) const fn fixed_coef(
+    value: f64,
+    min_shift: u32,
+    which: Setting,
+) -> Result<FixedCoef, ConfigError> {
     let Some(c) = FixedCoef::from_f64(value, min_shift) else {
         return Err(ConfigError::OutOfFormat(which));
     };
+    within_tolerance(c, value, which)
+}
+
+/// Nearest coefficient at exactly `shift`, within [`COEF_REL_TOLERANCE`]
+/// (a layout's format).
+const fn fixed_coef_at(value: f64, shift: u32, which: Setting) -> Result<FixedCoef, ConfigError> {
+    let Some(c) = FixedCoef::with_shift(value, shift) else {
+        return Err(if value.is_finite() {
+            ConfigError::Layout(which)
+        } else {
+            ConfigError::NotFinite(which)
+        });
+    };
+    match within_tolerance(c, value, which) {
+        Ok(c) => Ok(c),
+        // Representable, but the layout's format is too coarse for it.
+        Err(_) => Err(ConfigError::Layout(which)),
+    }
+}
+
+const fn within_tolerance(
+    c: FixedCoef,
+    value: f64,
+    which: Setting,
+) -> Result<FixedCoef, ConfigError> {
     let err = c.to_f64() - value;
     let bound = COEF_REL_TOLERANCE * if value < 0.0 { -value } else { value };
     if err > bound || -err > bound {
@@ -353,10 +522,44 @@ const fn fixed_signal(value: f64, which: Setting) -> Result<I16F16, ConfigError>
     }
 }
 
+/// Which way a limit is rounded: towards the inside of the output range.
+#[derive(Clone, Copy)]
+enum Inward {
+    Up,
+    Down,
+}
+
+/// An output limit on the Q16.16 grid, rounded towards the inside of the
+/// range: `ceil` for the lower limit, `floor` for the upper one.
+const fn fixed_limit(value: f64, way: Inward, which: Setting) -> Result<I16F16, ConfigError> {
+    let Some(v) = q::signal_from_f64(value) else {
+        return Err(ConfigError::OutOfFormat(which));
+    };
+    // v is the nearest grid value (within half an LSB, so within ±1 LSB of
+    // the inward one); the comparison in f64 is exact (both sides are
+    // multiples of 2⁻¹⁶ or the written value).
+    let stored = v.to_bits() as f64 / 65_536.0;
+    let bits = match way {
+        Inward::Up if stored < value => v.to_bits() as i64 + 1,
+        Inward::Down if stored > value => v.to_bits() as i64 - 1,
+        _ => v.to_bits() as i64,
+    };
+    if bits > i32::MAX as i64 || bits < i32::MIN as i64 {
+        return Err(ConfigError::OutOfFormat(which));
+    }
+    Ok(I16F16::from_bits(bits as i32))
+}
+
 macro_rules! float_config {
     ($t:ty, $limit:expr, $doc:literal) => {
-        impl Config<$t> {
+        impl<L: Layout> Config<$t, L> {
             #[doc = $doc]
+            ///
+            /// The output limits are rounded inward to the format's grid;
+            /// the slew step must be at least the command's resolution
+            /// (one unit in the last place) at the larger output limit, so
+            /// that the slew limiter can move the command everywhere in the
+            /// range ([`ConfigError::TooFine`] for the slew otherwise).
             ///
             /// ```
             /// use evenkeel::{Config, ConfigError, Setting, Settings};
@@ -371,12 +574,21 @@ macro_rules! float_config {
             ///
             /// # Errors
             /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`]
-            /// for magnitudes beyond the backend's safe range and
+            /// for magnitudes beyond the backend's safe range,
             /// [`ConfigError::TooFine`] for gains that would lose more than
-            /// 2⁻²⁰ relative precision (subnormal numbers).
+            /// 2⁻²⁰ relative precision (subnormal numbers) and for a slew
+            /// step below the resolution at the limits, and
+            /// [`ConfigError::Layout`] for features other than a compile-time
+            /// layout's.
             pub const fn new(settings: &Settings) -> Result<Self, ConfigError> {
                 const LIMIT: f64 = $limit;
                 let p: PerSample = attempt!(settings.per_sample());
+                let features = Features::of(&p);
+                if let Some(s) = L::SHAPE
+                    && s.features().bits() != features.bits()
+                {
+                    return Err(ConfigError::Layout(Setting::Features));
+                }
                 macro_rules! coef {
                     ($v:expr, $w:expr) => {{
                         let v: f64 = $v;
@@ -403,31 +615,46 @@ macro_rules! float_config {
                 }
                 let kp = coef!(p.kp, Setting::Kp);
                 let setpoint_weight = match p.setpoint_weight {
-                    Some(b) => Some(coef!(b, Setting::SetpointWeight)),
-                    None => None,
+                    Some(b) => coef!(b, Setting::SetpointWeight),
+                    None => 0.0,
                 };
                 let ki_ts = coef!(p.ki_ts, Setting::Ki);
                 let tracking_ratio = match p.tracking_ratio {
-                    Some(r) => Some(coef!(r, Setting::TrackingTime)),
-                    None => None,
+                    Some(r) => coef!(r, Setting::TrackingTime),
+                    None => 0.0,
                 };
                 let filter_alpha = match p.filter_alpha {
-                    Some(a) => Some(coef!(a, Setting::FilterTime)),
-                    None => None,
-                };
-                let slew_step = match p.slew_step {
-                    Some(s) => Some(coef!(s, Setting::Slew)),
-                    None => None,
+                    Some(a) => coef!(a, Setting::FilterTime),
+                    None => 0.0,
                 };
                 let deadband = match p.deadband {
-                    Some(w) => Some(signal!(w, Setting::Deadband)),
-                    None => None,
+                    Some(w) => signal!(w, Setting::Deadband),
+                    None => 0.0,
                 };
-                let output_min = signal!(p.output_min, Setting::OutputMin);
-                let output_max = signal!(p.output_max, Setting::OutputMax);
+                let mut output_min = signal!(p.output_min, Setting::OutputMin);
+                if (output_min as f64) < p.output_min {
+                    output_min = output_min.next_up();
+                }
+                let mut output_max = signal!(p.output_max, Setting::OutputMax);
+                if (output_max as f64) > p.output_max {
+                    output_max = output_max.next_down();
+                }
                 if output_min >= output_max {
                     return Err(ConfigError::Inverted(Setting::OutputMax));
                 }
+                let slew_step = match p.slew_step {
+                    Some(s) => {
+                        let step = coef!(s, Setting::Slew);
+                        // One unit in the last place at the larger limit:
+                        // the coarsest resolution a command can have.
+                        let top = output_min.abs().max(output_max.abs());
+                        if step < top.next_up() - top {
+                            return Err(ConfigError::TooFine(Setting::Slew));
+                        }
+                        step
+                    }
+                    None => 0.0,
+                };
                 let measurement_min = signal!(p.measurement_min, Setting::MeasurementMin);
                 let measurement_max = signal!(p.measurement_max, Setting::MeasurementMax);
                 if measurement_min >= measurement_max {
@@ -435,7 +662,15 @@ macro_rules! float_config {
                 }
                 let integral_min = p.integral_min as $t;
                 let integral_max = p.integral_max as $t;
+                let rest = if output_min > 0.0 {
+                    output_min
+                } else if output_max < 0.0 {
+                    output_max
+                } else {
+                    0.0
+                };
                 Ok(Self {
+                    features,
                     kp,
                     setpoint_weight,
                     ki_ts,
@@ -451,6 +686,8 @@ macro_rules! float_config {
                     integral_max,
                     measurement_min,
                     measurement_max,
+                    rest,
+                    layout: PhantomData,
                 })
             }
         }
@@ -487,6 +724,18 @@ float_config!(
 /// const BAD: Config<I16F16> = evenkeel::config!(I16F16, Settings::new(-0.001, 0.8, 12.0, 0.0, 24.0));
 /// ```
 ///
+/// With a compile-time layout as the second argument, the configuration
+/// must also fit the layout:
+///
+/// ```compile_fail,E0080
+/// use evenkeel::{Config, Settings};
+/// use fixed::types::I16F16;
+/// const BASE: Settings = Settings::new(0.001, 0.8, 12.0, 0.0, 24.0);
+/// evenkeel::layout!(Valve = BASE);
+/// // The layout has no slew limiter.
+/// const BAD: Config<I16F16, Valve> = evenkeel::config!(I16F16, Valve, BASE.with_slew_per_s(5.0));
+/// ```
+///
 /// Nor does a gain too large for Q16.16 fixed point:
 ///
 /// ```compile_fail,E0080
@@ -497,8 +746,11 @@ float_config!(
 #[macro_export]
 macro_rules! config {
     ($backend:ty, $settings:expr) => {
+        $crate::config!($backend, $crate::Runtime, $settings)
+    };
+    ($backend:ty, $layout:ty, $settings:expr) => {
         const {
-            match $crate::Config::<$backend>::new(&$settings) {
+            match $crate::Config::<$backend, $layout>::new(&$settings) {
                 Ok(config) => config,
                 // Evaluated by the compiler only (inside `const { }`): an
                 // invalid configuration stops the build; no panic path
@@ -541,6 +793,7 @@ impl ConfigError {
                 "evenkeel configuration: a value is too small for the number format's precision"
             }
             Self::Schedule => "evenkeel configuration: invalid gain schedule",
+            Self::Layout(_) => "evenkeel configuration: does not fit the compile-time layout",
         }
     }
 }

@@ -17,6 +17,7 @@
 
 use crate::backend::Backend;
 use crate::config::Config;
+use crate::layout::{self, Features, Layout, Runtime, Slot};
 use crate::status::Status;
 
 /// Inputs of one step.
@@ -27,7 +28,6 @@ use crate::status::Status;
 /// assert_eq!(i.applied, Some(0.8));
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Input<B> {
     /// Setpoint r.
     pub setpoint: B,
@@ -103,7 +103,6 @@ impl<B: Backend> Input<B> {
 /// # Ok::<(), evenkeel::ConfigError>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Output<B> {
     /// The command, always within the configured output limits.
     pub command: B,
@@ -114,6 +113,12 @@ pub struct Output<B> {
 /// A PI controller with setpoint weighting, measurement filter, deadband,
 /// feed-forward, output clamp, slew limiter, anti-windup, bumpless engage,
 /// tracking and bumpless re-tuning.
+///
+/// `L` is the [`Layout`]: [`Runtime`] (the default) reads the structure
+/// from the configuration each step; a compile-time layout
+/// ([`crate::layout!`]) fixes it, so the step has only the parts the layout
+/// has and shifts by constants. Both give the same bits for the same
+/// settings.
 ///
 /// ```
 /// use evenkeel::{Config, Controller, Settings};
@@ -126,21 +131,31 @@ pub struct Output<B> {
 /// # Ok::<(), evenkeel::ConfigError>(())
 /// ```
 #[derive(Clone, Copy, Debug)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Controller<B: Backend> {
-    config: Config<B>,
+pub struct Controller<B: Backend, L: Layout = Runtime> {
+    config: Config<B, L>,
     integral: B::Accum,
     filtered: B::Accum,
-    filter_primed: bool,
+    /// [`PRIMED`] once a step ran since `new`/`reset`; [`ENGAGE`] while an
+    /// engage waits for the next step (one byte: one load and one store per
+    /// step).
+    state: u8,
     last_command: B,
     last_setpoint: B,
     last_filtered: B,
-    engage_at: Option<B>,
+    /// The actuator value of a pending engage (read only under [`ENGAGE`]).
+    engage_at: B,
 }
 
-impl<B: Backend> Controller<B> {
+/// A step ran since `new` or `reset` (filter and retune history valid).
+const PRIMED: u8 = 1 << 0;
+/// `engage` was called: the next step takes over from `engage_at`.
+const ENGAGE: u8 = 1 << 1;
+
+impl<B: Backend, L: Layout> Controller<B, L> {
     /// A controller at rest: integrator zero, last command zero clamped into
     /// the output limits (so the first command is slew-limited from there).
+    /// `const`, so a controller can live in a `static` without run-time
+    /// initialisation (see the crate documentation's interrupt example).
     ///
     /// ```
     /// use evenkeel::{Config, Controller, Settings};
@@ -149,17 +164,17 @@ impl<B: Backend> Controller<B> {
     /// assert_eq!(pi.integral(), 0.0);
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
-    pub fn new(config: Config<B>) -> Self {
-        let rest = clamp(B::ZERO, config.output_min, config.output_max);
+    #[must_use]
+    pub const fn new(config: Config<B, L>) -> Self {
         Self {
-            config,
-            integral: B::ZERO.widen(),
-            filtered: B::ZERO.widen(),
-            filter_primed: false,
-            last_command: rest,
+            integral: B::ACCUM_ZERO,
+            filtered: B::ACCUM_ZERO,
+            state: 0,
+            last_command: config.rest,
             last_setpoint: B::ZERO,
             last_filtered: B::ZERO,
-            engage_at: None,
+            engage_at: B::ZERO,
+            config,
         }
     }
 
@@ -185,7 +200,7 @@ impl<B: Backend> Controller<B> {
     /// assert_eq!(pi.config().output_limits(), (-1.0, 1.0));
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
-    pub fn config(&self) -> &Config<B> {
+    pub fn config(&self) -> &Config<B, L> {
         &self.config
     }
 
@@ -233,7 +248,8 @@ impl<B: Backend> Controller<B> {
     /// ```
     pub fn engage(&mut self, actuator: B) {
         if actuator.is_finite() {
-            self.engage_at = Some(actuator);
+            self.engage_at = actuator;
+            self.state |= ENGAGE;
         }
     }
 
@@ -262,6 +278,11 @@ impl<B: Backend> Controller<B> {
     /// change of the proportional part at the last inputs, so the next
     /// command does not jump because of the new gains.
     ///
+    /// Under a compile-time layout the new configuration has the same
+    /// layout (the type says so), so only gains and limits change; a gain
+    /// that does not fit the layout's format was refused when that
+    /// configuration was built ([`crate::ConfigError::Layout`]).
+    ///
     /// ```
     /// # use evenkeel::{Config, Controller, Settings};
     /// let slow = Config::<f64>::try_new(&Settings::new(0.1, 1.0, 0.5, -10.0, 10.0))?;
@@ -273,8 +294,8 @@ impl<B: Backend> Controller<B> {
     /// assert!((after - before - 0.05).abs() < 1e-12); // only one more integration step
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
-    pub fn retune(&mut self, config: Config<B>) {
-        if self.filter_primed {
+    pub fn retune(&mut self, config: Config<B, L>) {
+        if self.state & PRIMED != 0 {
             let old = proportional_part(&self.config, self.last_setpoint, self.last_filtered);
             let new = proportional_part(&config, self.last_setpoint, self.last_filtered);
             let moved = B::deplete(B::accumulate(self.integral, old), new);
@@ -316,8 +337,16 @@ impl<B: Backend> Controller<B> {
     /// assert_eq!((out.command, out.status), (2.5, Status::NON_FINITE)); // held
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
+    #[inline]
     pub fn step_with(&mut self, input: &Input<B>) -> Output<B> {
         let c = &self.config;
+        let on = layout::features::<L>(c.features);
+        let state = self.state;
+        // Only before the first step (after `new` or `reset`) can the
+        // integrator lie outside its range: `new` starts it at zero, and
+        // every later assignment clamps (`retune`, `engage`, the update
+        // below).
+        let first = state & PRIMED == 0;
         let applied_ok = match input.applied {
             Some(a) => a.is_finite(),
             None => true,
@@ -334,39 +363,42 @@ impl<B: Backend> Controller<B> {
         }
         let mut status = Status::NONE;
 
-        let y = clamp(input.measurement, c.measurement_min, c.measurement_max);
-        if y != input.measurement {
-            status |= Status::MEASUREMENT_RANGE;
-        }
-        let r = clamp(input.setpoint, c.measurement_min, c.measurement_max);
-        if r != input.setpoint {
-            status |= Status::SETPOINT_RANGE;
+        let (lo, hi) = (c.measurement_min, c.measurement_max);
+        let (mut y, mut r) = (input.measurement, input.setpoint);
+        // Both inside the range (the usual case): nothing to clamp or flag.
+        if !(y >= lo && y <= hi && r >= lo && r <= hi) {
+            y = clamp(y, lo, hi);
+            status.set_if(y != input.measurement, Status::MEASUREMENT_RANGE);
+            r = clamp(r, lo, hi);
+            status.set_if(r != input.setpoint, Status::SETPOINT_RANGE);
         }
         let ff = clamp(input.feed_forward, c.feed_forward_min, c.feed_forward_max);
 
-        let y_f = match c.filter_alpha {
-            Some(alpha) if self.filter_primed => {
-                // `last_filtered` is always `narrow(filtered)`: both are set
-                // together below and nowhere else (`new` sets both to zero).
-                let previous = self.last_filtered;
-                debug_assert!(previous == B::narrow(self.filtered));
-                self.filtered = B::scale_into(self.filtered, y.sub(previous), alpha);
-                B::narrow(self.filtered)
-            }
-            _ => {
+        let y_f = if on.contains(Features::FILTER) && !first {
+            // `last_filtered` is always `narrow(filtered)`: both are set
+            // together below and nowhere else (`new` sets both to zero).
+            let previous = self.last_filtered;
+            debug_assert!(previous == B::narrow(self.filtered));
+            let alpha = coef::<B, L>(c.filter_alpha, Slot::FilterAlpha);
+            self.filtered = B::integrate(self.filtered, y.sub(previous), alpha);
+            B::narrow(self.filtered)
+        } else {
+            // A compile-time layout without filter never reads the state
+            // again; a run-time configuration may gain a filter by re-tuning.
+            if L::SHAPE.is_none() || on.contains(Features::FILTER) {
                 self.filtered = y.widen();
-                y
             }
+            y
         };
-        self.filter_primed = true;
+        // Primed; a pending engage is taken by this step.
+        self.state = PRIMED;
 
-        let (p, e, in_deadband) = proportional(c, r, y_f);
-        if in_deadband {
-            status |= Status::DEADBAND;
-        }
+        let (p, e, in_deadband) = proportional(c, on, r, y_f);
+        status.set_if(in_deadband, Status::DEADBAND);
 
         let mut v = p.add(B::narrow(self.integral)).add(ff);
-        if let Some(actuator) = self.engage_at.take() {
+        if state & ENGAGE != 0 {
+            let actuator = self.engage_at;
             // Bumpless engage: the command continues from the actuator's
             // value, and I is chosen so that P + I + ff equals it (exactly
             // unless that I lies outside the integrator range).
@@ -386,15 +418,35 @@ impl<B: Backend> Controller<B> {
             u = c.output_min;
             status |= Status::CLAMP_LOW;
         }
-        if let Some(step) = c.slew_step {
-            let up = self.last_command.add(step);
-            let down = self.last_command.sub(step);
-            if u > up {
-                u = up;
-                status |= Status::SLEW;
-            } else if u < down {
-                u = down;
-                status |= Status::SLEW;
+        if on.contains(Features::SLEW) {
+            let last = self.last_command;
+            // `last ± step` as computed; the exact bound (float rounding
+            // of that sum may overshoot the step) is needed only when the
+            // command reaches it, so it stays off the common path. Fixed
+            // point: both are the same saturating sum.
+            let up = last.add(c.slew_step);
+            let down = last.sub(c.slew_step);
+            if B::EXACT_SUMS {
+                // Fixed point: `last ± step` never passes the step.
+                if u > up {
+                    u = up;
+                    status |= Status::SLEW;
+                } else if u < down {
+                    u = down;
+                    status |= Status::SLEW;
+                }
+            } else if u >= up {
+                let up = last.raise_by(c.slew_step);
+                if u > up {
+                    u = up;
+                    status |= Status::SLEW;
+                }
+            } else if u <= down {
+                let down = last.lower_by(c.slew_step);
+                if u < down {
+                    u = down;
+                    status |= Status::SLEW;
+                }
             }
             // No second clamp: `last_command` is always within the output
             // limits (every assignment clamps or is clamped) and the step is
@@ -408,27 +460,30 @@ impl<B: Backend> Controller<B> {
             Some(a) => a.sub(self.last_command),
             None => B::ZERO,
         };
-        if downstream != B::ZERO {
-            status |= Status::DOWNSTREAM;
-        }
+        status.set_if(downstream != B::ZERO, Status::DOWNSTREAM);
 
-        let integral = match c.tracking_ratio {
-            Some(ratio) => {
-                let i = B::scale_into(self.integral, e, c.ki_ts);
-                B::scale_into(i, u.sub(v).add(downstream), ratio)
-            }
-            None => {
-                let held_high = u < v || downstream < B::ZERO;
-                let held_low = u > v || downstream > B::ZERO;
-                if (held_high && e > B::ZERO) || (held_low && e < B::ZERO) {
-                    status |= Status::INTEGRATOR_HELD;
-                    self.integral
-                } else {
-                    B::scale_into(self.integral, e, c.ki_ts)
+        let ki_ts = coef::<B, L>(c.ki_ts, Slot::KiTs);
+        let integral = if on.contains(Features::BACK_CALCULATION) {
+            let ratio = coef::<B, L>(c.tracking_ratio, Slot::TrackingRatio);
+            let i = B::integrate(self.integral, e, ki_ts);
+            Some(B::integrate(i, u.sub(v).add(downstream), ratio))
+        } else {
+            let held_high = u < v || downstream < B::ZERO;
+            let held_low = u > v || downstream > B::ZERO;
+            if (held_high && e > B::ZERO) || (held_low && e < B::ZERO) {
+                status |= Status::INTEGRATOR_HELD;
+                // Unchanged, so already in range except on the first step.
+                if first {
+                    self.integral = clamp(self.integral, c.integral_min, c.integral_max);
                 }
+                None
+            } else {
+                Some(B::integrate(self.integral, e, ki_ts))
             }
         };
-        self.integral = clamp(integral, c.integral_min, c.integral_max);
+        if let Some(integral) = integral {
+            self.integral = clamp(integral, c.integral_min, c.integral_max);
+        }
         self.last_command = u;
         self.last_setpoint = r;
         self.last_filtered = y_f;
@@ -436,37 +491,62 @@ impl<B: Backend> Controller<B> {
     }
 }
 
+/// The coefficient the step multiplies with: under a compile-time layout
+/// the stored mantissa at the layout's (constant) shift.
+#[inline(always)]
+fn coef<B: Backend, L: Layout>(stored: B::Coef, slot: Slot) -> B::Coef {
+    match L::SHAPE {
+        Some(shape) => match shape.shift(slot) {
+            Some(shift) => B::coef_at_shift(stored, shift),
+            None => stored,
+        },
+        None => stored,
+    }
+}
+
 /// The proportional part alone, out of line: `retune` needs it twice and is
 /// not time-critical, so one shared copy keeps the code small.
 #[inline(never)]
-fn proportional_part<B: Backend>(c: &Config<B>, r: B, y_f: B) -> B {
-    proportional(c, r, y_f).0
+fn proportional_part<B: Backend, L: Layout>(c: &Config<B, L>, r: B, y_f: B) -> B {
+    let on = layout::features::<L>(c.features);
+    proportional(c, on, r, y_f).0
 }
 
 /// Proportional part, the (deadband-shrunk) error for setpoint `r` and
 /// filtered measurement `y_f`, and whether a deadband is configured and the
 /// shrunk error is zero.
 #[inline(always)]
-fn proportional<B: Backend>(c: &Config<B>, r: B, y_f: B) -> (B, B, bool) {
+fn proportional<B: Backend, L: Layout>(
+    c: &Config<B, L>,
+    on: Features,
+    r: B,
+    y_f: B,
+) -> (B, B, bool) {
     let e = r.sub(y_f);
-    let (e_db, in_deadband) = match c.deadband {
-        Some(w) => {
-            let e_db = if e > w {
-                e.sub(w)
-            } else if e < B::ZERO.sub(w) {
-                e.add(w)
-            } else {
-                B::ZERO
-            };
-            (e_db, e_db == B::ZERO)
-        }
-        None => (e, false),
+    // Deadband of half-width w ≥ 0 (validated): the part of e inside the
+    // band is clamp(e, −w, w) and the shrunk error e_db = e − clamp(e, −w, w)
+    // (e − w above the band, e + w below, zero inside). Both subtractions
+    // are exact (−w ≥ −MAX; e − w ≥ 0 when e > w; e + w ≥ MIN when e < −w),
+    // so they need no saturation.
+    let (e_db, inside, in_deadband) = if on.contains(Features::DEADBAND) {
+        let w = c.deadband;
+        let inside = clamp(e, B::ZERO.sub_exact(w), w);
+        let e_db = e.sub_exact(inside);
+        (e_db, inside, e_db == B::ZERO)
+    } else {
+        (e, B::ZERO, false)
     };
-    let weighted = match c.setpoint_weight {
-        Some(b) => r.scale(b).sub(y_f).sub(e.sub(e_db)),
-        None => e_db,
+    let weighted = if on.contains(Features::SETPOINT_WEIGHT) {
+        let b = coef::<B, L>(c.setpoint_weight, Slot::SetpointWeight);
+        r.scale(b).sub(y_f).sub(inside)
+    } else {
+        e_db
     };
-    (weighted.scale(c.kp), e_db, in_deadband)
+    (
+        weighted.scale(coef::<B, L>(c.kp, Slot::Kp)),
+        e_db,
+        in_deadband,
+    )
 }
 
 #[inline]

@@ -39,6 +39,9 @@ pub enum Setting {
     MeasurementMax,
     /// A gain-schedule breakpoint.
     Breakpoint,
+    /// The set of optional parts (filter, deadband, setpoint weight, slew
+    /// limit, back-calculation).
+    Features,
 }
 
 impl Setting {
@@ -65,6 +68,7 @@ impl Setting {
             Self::MeasurementMin => "measurement_min",
             Self::MeasurementMax => "measurement_max",
             Self::Breakpoint => "schedule breakpoint",
+            Self::Features => "features",
         }
     }
 }
@@ -102,8 +106,13 @@ pub enum ConfigError {
     /// backend promises (fixed point: 2⁻²⁰ for gains, 1 % for the slew step).
     TooFine(Setting),
     /// Gain-schedule breakpoints are not strictly increasing, or the table
-    /// is empty or full.
+    /// is empty or full (a schedule reports which row in its own
+    /// [`crate::ScheduleError`]).
     Schedule,
+    /// The setting does not fit the compile-time [`crate::Layout`]: another
+    /// set of features ([`Setting::Features`]), or a gain that the layout's
+    /// fixed-point format cannot hold within 2⁻²⁰ relative.
+    Layout(Setting),
 }
 
 impl fmt::Display for ConfigError {
@@ -129,13 +138,24 @@ impl fmt::Display for ConfigError {
                 "{} does not fit the backend's number format (Q16.16 signals: ±32767; fixed gains: below 2^31, per-sample integral and tracking gains below 32768)",
                 s.name()
             ),
+            Self::TooFine(Setting::Slew) => f.write_str(
+                "slew_per_s · period_s is too small for the command's resolution (fixed point: within 1 %, i.e. at least 50 LSB; float: at least one unit in the last place at the larger output limit)",
+            ),
             Self::TooFine(s) => write!(
                 f,
-                "{} is too small to be stored precisely in the backend's number format (fixed gains: relative error ≤ 2^-20; slew step per sample ≥ 50 LSB)",
+                "{} is too small to be stored precisely in the backend's number format (fixed gains: relative error ≤ 2^-20)",
                 s.name()
             ),
             Self::Schedule => f.write_str(
                 "gain schedule breakpoints must be strictly increasing and fit the table capacity",
+            ),
+            Self::Layout(Setting::Features) => f.write_str(
+                "the settings turn on other features (filter, deadband, setpoint weight, slew, back-calculation) than the compile-time layout has",
+            ),
+            Self::Layout(s) => write!(
+                f,
+                "{} does not fit the compile-time layout's fixed-point format (too large for its shift, or too coarse to hold it within 2^-20 relative)",
+                s.name()
             ),
         }
     }

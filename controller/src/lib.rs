@@ -1,4 +1,21 @@
 #![doc = include_str!("../README.md")]
+//!
+//! # Sharing the controller with a timer interrupt
+//!
+//! `Controller::new` is a `const fn`, so a controller (here inside a whole
+//! control loop) can be a `static` built by the compiler: no `Option`, no
+//! run-time initialisation. The interrupt handler and `main` reach it
+//! through a critical-section `Mutex<RefCell<_>>` and `try_borrow_mut`,
+//! which cannot panic (`borrow_mut` would link a panic path). This is the
+//! complete firmware `boards/m4f-systick/src/main.rs`; `boards/run` builds
+//! it for a Cortex-M4F with a panic handler that names an undefined
+//! function, so it links only if no panic path survives, and checks that no
+//! decimal formatting is linked. (Shown, not run, here: it needs a
+//! Cortex-M target.)
+//!
+//! ```ignore
+#![doc = include_str!("../../boards/m4f-systick/src/main.rs")]
+//! ```
 #![no_std]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -19,6 +36,10 @@ mod backend;
 mod config;
 mod controller;
 mod error;
+#[allow(clippy::float_arithmetic)] // shape computation from settings, run once
+mod layout;
+#[cfg(feature = "defmt")]
+pub mod log;
 #[cfg(feature = "monitor")]
 #[allow(clippy::float_arithmetic)] // on-target diagnostics in f32, beside the step
 pub mod monitor;
@@ -35,8 +56,9 @@ pub use config::{Config, SLEW_REL_TOLERANCE};
 pub use controller::{Controller, Input, Output};
 pub use error::{ConfigError, Setting};
 pub use fixed;
+pub use layout::{Features, Layout, Runtime, Shape};
 pub use q::FixedCoef;
-pub use schedule::{Breakpoint, Schedule};
+pub use schedule::{Breakpoint, Schedule, ScheduleError};
 pub use settings::{AntiWindup, PerSample, Settings};
 pub use status::Status;
 
@@ -55,4 +77,9 @@ fn defmt_formats_every_public_type() {
     loggable::<Status>();
     loggable::<FixedCoef>();
     loggable::<Breakpoint>();
+    loggable::<Shape>();
+    loggable::<Features>();
+    loggable::<ScheduleError>();
+    loggable::<Output<f64>>();
+    loggable::<Input<fixed::types::I16F16>>();
 }

@@ -12,7 +12,6 @@ use core::fmt;
 /// assert!(!s.is_fault());
 /// ```
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Default)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Status(u16);
 
 impl Status {
@@ -193,6 +192,12 @@ impl Status {
     #[must_use]
     pub const fn is_fault(self) -> bool {
         self.0 & Self::FAULTS != 0
+    }
+
+    /// Add `flag` if `condition` holds (no branch needed).
+    #[inline(always)]
+    pub(crate) fn set_if(&mut self, condition: bool, flag: Self) {
+        self.0 |= u16::from(condition) * flag.0;
     }
 
     /// Each set flag's name, in bit order (`clamp_high`, `slew`, …).

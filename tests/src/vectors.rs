@@ -7,12 +7,22 @@ mod encode;
 mod record;
 mod scenarios;
 
-pub use encode::{EncodeError, encode, fnv1a};
+pub use encode::{EncodeError, encode, encode_version, fnv1a};
 pub use record::{Event, Extra, Op, Recorded, Recorder, Recording};
-pub use scenarios::all as scenarios;
+pub use scenarios::{all as scenarios, schedules};
 
 /// Where the committed file lives, relative to the repository root.
 pub const FILE: &str = "shared/vectors/golden.ekv";
+/// Where the committed schedule set lives (format version 2).
+pub const SCHEDULE_FILE: &str = "shared/vectors/schedule.ekv";
+
+/// Record every schedule scenario and encode the schedule file.
+///
+/// # Errors
+/// A message if a scenario is invalid or does not fit the format.
+pub fn generate_schedules() -> Result<Vec<u8>, Box<dyn std::error::Error>> {
+    Ok(encode_version(&schedules()?, encode::VERSION_SCHEDULE)?)
+}
 
 /// Record every scenario and encode the file.
 ///

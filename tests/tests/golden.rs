@@ -15,10 +15,47 @@ use evenkeel_replay::replay::{self, Mismatch, Report};
 use evenkeel_tests::vectors::{self, Op};
 
 fn committed() -> Vec<u8> {
+    read(vectors::FILE)
+}
+
+fn read(file: &str) -> Vec<u8> {
     let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
         .join("..")
-        .join(vectors::FILE);
+        .join(file);
     std::fs::read(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+}
+
+/// The schedule set is what the generator produces today (a failure means
+/// the schedule's numbers changed: see the comment at the top).
+#[test]
+fn committed_schedule_file_matches_generator() {
+    let fresh = vectors::generate_schedules().expect("scenarios are valid");
+    assert!(
+        fresh == read(vectors::SCHEDULE_FILE),
+        "schedule vectors differ from the generator"
+    );
+    assert_eq!(fresh.get(4), Some(&2), "format version 2");
+}
+
+/// Regression (issue 12): a schedule applied each step on target linked
+/// float routines and a panic path. The schedule set replays through
+/// `Controller::schedule` with tables built at compile time, here exactly
+/// as on the boards (where `boards/run` also checks the symbols and links
+/// with the panic-path check).
+#[test]
+fn schedule_applied_every_step_replays_bit_exactly() {
+    let mut report = Collect::default();
+    let summary = replay::run_schedules(&mut report).expect("file reads to the end");
+    assert!(report.mismatches.is_empty(), "{:#?}", report.mismatches);
+    let recordings = vectors::schedules().expect("valid");
+    assert_eq!(summary.scenarios as usize, 2 * recordings.len());
+    assert_eq!(report.scenarios, report.compile_time);
+    let scheduled = recordings
+        .iter()
+        .flat_map(|r| &r.steps)
+        .filter(|s| matches!(s.op, Op::Schedule(_)))
+        .count();
+    assert!(scheduled > 1000, "only {scheduled} scheduled steps");
 }
 
 #[test]
@@ -40,14 +77,19 @@ fn committed_file_matches_generator() {
 struct Collect {
     mismatches: Vec<String>,
     scenarios: Vec<(String, u32)>,
+    compile_time: Vec<(String, u32)>,
 }
 
 impl Report for Collect {
     fn mismatch(&mut self, m: &Mismatch<'_>) {
         self.mismatches.push(format!("{m:?}"));
     }
-    fn scenario(&mut self, name: &str, steps: u32, _mismatches: u32) {
-        self.scenarios.push((name.to_owned(), steps));
+    fn scenario(&mut self, name: &str, layout: &'static str, steps: u32, _mismatches: u32) {
+        if layout == replay::RUN_TIME {
+            self.scenarios.push((name.to_owned(), steps));
+        } else {
+            self.compile_time.push((name.to_owned(), steps));
+        }
     }
 }
 
@@ -61,7 +103,9 @@ fn committed_file_replays_bit_exactly() {
         &report.mismatches[..report.mismatches.len().min(20)]
     );
     let recordings = vectors::scenarios().expect("valid");
-    assert_eq!(summary.scenarios as usize, recordings.len());
+    // Every scenario twice: run-time configuration and compile-time layout.
+    assert_eq!(summary.scenarios as usize, 2 * recordings.len());
+    assert_eq!(report.scenarios, report.compile_time);
     for (rec, (name, steps)) in recordings.iter().zip(&report.scenarios) {
         assert_eq!((&rec.name, rec.steps.len()), (name, *steps as usize));
     }
@@ -102,9 +146,11 @@ fn decoder_reads_what_the_encoder_wrote() {
                 Op::Track(actuator) => format::Op::Track { actuator },
                 Op::Reset => format::Op::Reset,
                 Op::Retune(index) => format::Op::Retune { index },
+                Op::Schedule(at) => format::Op::Schedule { at },
             };
             let want = format::Step {
                 op,
+                schedule_at: got.schedule_at,
                 setpoint: want.setpoint,
                 measurement: want.measurement,
                 feed_forward: want.feed_forward,
@@ -183,6 +229,7 @@ fn vectors_cover_every_flag_and_operation() {
             Op::Track(_) => 2,
             Op::Reset => 3,
             Op::Retune(_) => 4,
+            Op::Schedule(_) => continue,
         };
         ops[i] = true;
     }

@@ -4,26 +4,40 @@
 //! measurement and the actuator sit behind two small traits ([`Sensor`],
 //! [`Actuator`]) that you implement for your ADC, encoder, PWM or DAC. The
 //! controller itself only takes and returns numbers. Log lines go out with
-//! `defmt` over RTT (`probe-rs run` decodes them).
+//! `defmt` into a RAM ring buffer ([`RamLog`], our own panic-free logger;
+//! read it with a debugger and decode it with `defmt-print`). `defmt-rtt`
+//! works the same way for the controller, but its lock
+//! (`_defmt_acquire`/`_defmt_release`) keeps a panic for nested use, so a
+//! firmware built with it does not pass the panic-path link check
+//! (measured: the link names those two functions).
 //!
 //! As shipped, a simulated fan ([`Tachometer`], [`PwmDriver`]) stands in for
 //! the plant so the firmware runs on any Cortex-M4F board; replace them with
 //! your drivers.
 //!
-//! Unlike the emulated boards this example is not built panic-free:
-//! `defmt-rtt` (its lock) and `fixed`'s number formatting behind `defmt`
-//! keep panic paths. The controller has none.
+//! The controller is shared with the interrupt handler without `unsafe`
+//! and without a panic path: `Controller::new` is a `const fn`, so the
+//! whole loop is a `static` initialised by the compiler (no `Option`, no
+//! run-time set-up), behind a critical-section `Mutex<RefCell<_>>` borrowed
+//! with `try_borrow_mut` (which cannot panic). `boards/run` builds this
+//! firmware with a panic handler that calls an undefined function, so it
+//! links only if no panic path is left (`defmt` output included: the
+//! controller's `Format` impls send numbers as `f32` bits and flags as
+//! names, without decimal formatting on target).
+//!
+//! The crate documentation of `evenkeel` shows this file as its interrupt
+//! example.
 #![no_std]
 #![no_main]
 
 use core::cell::RefCell;
-use core::sync::atomic::{AtomicI32, Ordering};
+use core::sync::atomic::{AtomicBool, AtomicI32, Ordering};
 
 use cortex_m::interrupt::{self, Mutex};
 use cortex_m::peripheral::syst::SystClkSource;
 use cortex_m_rt::{entry, exception};
-use defmt_rtt as _;
 use evenkeel::fixed::types::I16F16;
+use evenkeel::log::Q16;
 use evenkeel::{AntiWindup, Config, Controller, Input, Settings};
 
 /// Core clock of your part in Hz (SysTick counts core cycles).
@@ -39,8 +53,11 @@ const SETTINGS: Settings = Settings::new(1.0 / CONTROL_RATE_HZ as f64, 8.0, 40.0
         tracking_time_s: 0.05,
     })
     .with_measurement_range(0.0, 12.0);
+// The structure (features, fixed-point formats) is fixed at compile time:
+// the step contains only what these settings use and shifts by constants.
+evenkeel::layout!(Fan = SETTINGS);
 /// Checked by the compiler: an invalid setting does not build.
-const CONFIG: Config<I16F16> = evenkeel::config!(I16F16, SETTINGS);
+const CONFIG: Config<I16F16, Fan> = evenkeel::config!(I16F16, Fan, SETTINGS);
 
 /// Something that measures the controlled quantity.
 pub trait Sensor {
@@ -58,7 +75,7 @@ pub trait Actuator {
 
 /// The control loop: the controller with its sensor and actuator.
 pub struct Loop<S, A> {
-    pi: Controller<I16F16>,
+    pi: Controller<I16F16, Fan>,
     sensor: S,
     actuator: A,
     setpoint: I16F16,
@@ -80,13 +97,87 @@ impl<S: Sensor, A: Actuator> Loop<S, A> {
             defmt::info!(
                 "t={}s r={} {}",
                 self.steps / CONTROL_RATE_HZ,
-                self.setpoint,
+                Q16(self.setpoint),
                 out
             );
         }
         if out.status.is_fault() {
             defmt::warn!("fault: {}", out.status);
         }
+    }
+}
+
+/// A `defmt` logger that writes encoded frames into a RAM ring buffer.
+/// Panic-free: a frame that starts while another is being written (an
+/// interrupt logging during `main`'s frame) is dropped, not a panic.
+#[defmt::global_logger]
+struct RamLog;
+
+/// Frames in flight: the ring, its write position and the frame encoder.
+struct Ring {
+    bytes: [u8; 1024],
+    at: usize,
+    encoder: defmt::Encoder,
+}
+
+static TAKEN: AtomicBool = AtomicBool::new(false);
+static DROPPING: AtomicBool = AtomicBool::new(false);
+static RING: Mutex<RefCell<Ring>> = Mutex::new(RefCell::new(Ring {
+    bytes: [0; 1024],
+    at: 0,
+    encoder: defmt::Encoder::new(),
+}));
+
+fn with_ring(f: impl FnOnce(&mut Ring)) {
+    interrupt::free(|cs| {
+        if let Ok(mut ring) = RING.borrow(cs).try_borrow_mut() {
+            f(&mut ring);
+        }
+    });
+}
+
+fn push(ring_bytes: &mut [u8; 1024], at: &mut usize, data: &[u8]) {
+    for &b in data {
+        if let Some(slot) = ring_bytes.get_mut(*at) {
+            *slot = b;
+        }
+        *at = (*at + 1) % 1024;
+    }
+}
+
+// SAFETY: `acquire`/`release` bracket each frame; `TAKEN` makes a second,
+// nested frame a no-op instead of interleaving it, and the buffer is only
+// touched inside critical sections.
+unsafe impl defmt::Logger for RamLog {
+    fn acquire() {
+        let nested = TAKEN.swap(true, Ordering::Acquire);
+        DROPPING.store(nested, Ordering::Relaxed);
+        if !nested {
+            with_ring(|r| {
+                let Ring { bytes, at, encoder } = r;
+                encoder.start_frame(|data| push(bytes, at, data));
+            });
+        }
+    }
+    unsafe fn flush() {}
+    unsafe fn release() {
+        if DROPPING.swap(false, Ordering::Relaxed) {
+            return;
+        }
+        with_ring(|r| {
+            let Ring { bytes, at, encoder } = r;
+            encoder.end_frame(|data| push(bytes, at, data));
+        });
+        TAKEN.store(false, Ordering::Release);
+    }
+    unsafe fn write(data: &[u8]) {
+        if DROPPING.load(Ordering::Relaxed) {
+            return;
+        }
+        with_ring(|r| {
+            let Ring { bytes, at, encoder } = r;
+            encoder.write(data, |d| push(bytes, at, d));
+        });
     }
 }
 
@@ -121,8 +212,16 @@ impl Actuator for PwmDriver {
 
 type FanLoop = Loop<Tachometer, PwmDriver>;
 
-/// The loop, shared between `main` and the SysTick handler.
-static LOOP: Mutex<RefCell<Option<FanLoop>>> = Mutex::new(RefCell::new(None));
+/// The loop, shared between `main` and the SysTick handler; built by the
+/// compiler (`Controller::new` is `const`).
+static LOOP: Mutex<RefCell<FanLoop>> = Mutex::new(RefCell::new(Loop {
+    pi: Controller::new(CONFIG),
+    sensor: Tachometer,
+    actuator: PwmDriver,
+    setpoint: I16F16::const_from_int(6),
+    applied: None,
+    steps: 0,
+}));
 
 #[entry]
 fn main() -> ! {
@@ -131,17 +230,10 @@ fn main() -> ! {
             cortex_m::asm::wfi();
         }
     };
-    let control = Loop {
-        pi: Controller::new(CONFIG),
-        sensor: Tachometer,
-        actuator: PwmDriver,
-        setpoint: I16F16::from_num(6),
-        applied: None,
-        steps: 0,
-    };
+    // A new setpoint from the main loop: the same critical section.
     interrupt::free(|cs| {
-        if let Ok(mut slot) = LOOP.borrow(cs).try_borrow_mut() {
-            *slot = Some(control);
+        if let Ok(mut control) = LOOP.borrow(cs).try_borrow_mut() {
+            control.setpoint = I16F16::const_from_int(6);
         }
     });
     defmt::info!("evenkeel: {} Hz control loop in SysTick", CONTROL_RATE_HZ);
@@ -159,9 +251,10 @@ fn main() -> ! {
 #[exception]
 fn SysTick() {
     interrupt::free(|cs| {
-        if let Ok(mut slot) = LOOP.borrow(cs).try_borrow_mut()
-            && let Some(control) = slot.as_mut()
-        {
+        // Never fails: the main loop holds the borrow only inside its own
+        // critical section, which this interrupt cannot preempt. If it ever
+        // did, this period would be skipped rather than panic.
+        if let Ok(mut control) = LOOP.borrow(cs).try_borrow_mut() {
             control.tick();
         }
     });
@@ -169,10 +262,12 @@ fn SysTick() {
 
 #[panic_handler]
 fn panic(_: &core::panic::PanicInfo<'_>) -> ! {
-    // Stop controlling. A product drives its actuator to a safe state here
-    // and lets a watchdog reset the part.
-    cortex_m::interrupt::disable();
-    loop {
-        cortex_m::asm::wfi();
+    unsafe extern "C" {
+        /// Deliberately defined nowhere: the firmware links only if the
+        /// optimiser removed every panic path (release build). A product
+        /// would drive its actuator to a safe state here instead.
+        fn evenkeel_firmware_has_a_panic_path() -> !;
     }
+    // SAFETY: never runs; the link fails first if this is reachable.
+    unsafe { evenkeel_firmware_has_a_panic_path() }
 }

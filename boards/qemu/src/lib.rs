@@ -15,7 +15,7 @@ use cortex_m_semihosting::debug::{self, EXIT_FAILURE, EXIT_SUCCESS};
 use cortex_m_semihosting::hio::{self, HostStream};
 use evenkeel_replay::cost::{self, Clock, Cost, Rate};
 use evenkeel_replay::replay::{self, Mismatch, Report};
-use evenkeel_replay::tables::VECTORS;
+use evenkeel_replay::tables::{golden, schedule};
 
 /// What differs between the boards.
 #[derive(Clone, Copy, Debug)]
@@ -50,18 +50,24 @@ impl Report for Console {
         if self.printed < PRINTED_PER_SCENARIO {
             let _ = writeln!(
                 self,
-                "  MISMATCH {} step {}: command want {:#010x} got {:#010x}, status want {:#06x} got {:#06x}",
-                m.scenario, m.step, m.want_command, m.got_command, m.want_status, m.got_status
+                "  MISMATCH {} ({}) step {}: command want {:#010x} got {:#010x}, status want {:#06x} got {:#06x}",
+                m.scenario,
+                m.layout,
+                m.step,
+                m.want_command,
+                m.got_command,
+                m.want_status,
+                m.got_status
             );
         }
         self.printed = self.printed.saturating_add(1);
     }
 
-    fn scenario(&mut self, name: &str, steps: u32, mismatches: u32) {
+    fn scenario(&mut self, name: &str, layout: &'static str, steps: u32, mismatches: u32) {
         let verdict = if mismatches == 0 { "ok" } else { "FAIL" };
         let _ = writeln!(
             self,
-            "  {verdict} {name} ({steps} steps, {mismatches} mismatches)"
+            "  {verdict} {name}, {layout} ({steps} steps, {mismatches} mismatches)"
         );
         self.printed = 0;
     }
@@ -108,21 +114,32 @@ pub fn run(board: &Board) -> ! {
         printed: 0,
     };
     let _ = writeln!(console, "evenkeel boards: {}", board.name);
-    let _ = writeln!(console, "vectors: {} bytes", VECTORS.len());
-    let passed = match replay::run(&mut console) {
-        Ok(s) => {
-            let _ = writeln!(
-                console,
-                "replay: {} scenarios, {} steps, {} mismatches",
-                s.scenarios, s.steps, s.mismatches
-            );
-            s.mismatches == 0 && s.steps > 0
-        }
-        Err(e) => {
-            let _ = writeln!(console, "replay: ERROR {}", e.describe());
-            false
-        }
-    };
+    let _ = writeln!(
+        console,
+        "vectors: golden {} bytes, schedule {} bytes",
+        golden::VECTORS.len(),
+        schedule::VECTORS.len()
+    );
+    let mut passed = true;
+    for (what, result) in [
+        ("replay", replay::run(&mut console)),
+        ("schedule replay", replay::run_schedules(&mut console)),
+    ] {
+        passed &= match result {
+            Ok(s) => {
+                let _ = writeln!(
+                    console,
+                    "{what}: {} scenario runs, {} steps, {} mismatches",
+                    s.scenarios, s.steps, s.mismatches
+                );
+                s.mismatches == 0 && s.steps > 0
+            }
+            Err(e) => {
+                let _ = writeln!(console, "{what}: ERROR {}", e.describe());
+                false
+            }
+        };
+    }
 
     let timing = cortex_m::Peripherals::take().map(|p| SysTickClock::start(p.SYST));
     if let Some(mut clock) = timing {
@@ -130,6 +147,10 @@ pub fn run(board: &Board) -> ! {
         print_cost(&mut console, "fixed full", full);
         let minimal = cost::minimal(cost::FIXED_MINIMAL, &mut clock, board.rate);
         print_cost(&mut console, "fixed minimal", minimal);
+        let full = cost::full(cost::FIXED_FULL_LAYOUT, &mut clock, board.rate);
+        print_cost(&mut console, "fixed-layout full", full);
+        let minimal = cost::minimal(cost::FIXED_MINIMAL_LAYOUT, &mut clock, board.rate);
+        print_cost(&mut console, "fixed-layout minimal", minimal);
         #[cfg(feature = "f32")]
         {
             let full = cost::full(cost::F32_FULL, &mut clock, board.rate);

@@ -16,7 +16,7 @@
 //! (conditional integration, nothing else) through `step`.
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{AntiWindup, Backend, Config, Controller, FixedCoef, Input, Settings};
+use evenkeel::{AntiWindup, Backend, Config, Controller, FixedCoef, Input, Layout, Settings};
 
 use crate::probe;
 
@@ -156,7 +156,11 @@ fn setpoint<B: Workload>(k: u32) -> B {
 
 /// Time the `full` workload with configuration `config` (built from
 /// [`FULL`]).
-pub fn full<B: Workload>(config: Config<B>, clock: &mut impl Clock, rate: Rate) -> Cost {
+pub fn full<B: Workload, L: Layout>(
+    config: Config<B, L>,
+    clock: &mut impl Clock,
+    rate: Rate,
+) -> Cost {
     let mut timer = Timer::new(clock, rate);
     let mut pi = probe::new(config);
     let mut y = B::ZERO;
@@ -166,6 +170,9 @@ pub fn full<B: Workload>(config: Config<B>, clock: &mut impl Clock, rate: Rate) 
             .with_feed_forward(B::int(1))
             .with_applied(applied);
         let out = timer.time(|| probe::step_with(&mut pi, &input));
+        // The status is part of the result: keep the optimiser from
+        // dropping its computation from the probe (outside the timing).
+        core::hint::black_box(out.status);
         // A downstream limit at 8 that the controller hears about next step.
         applied = if out.command > B::int(8) {
             B::int(8)
@@ -179,13 +186,18 @@ pub fn full<B: Workload>(config: Config<B>, clock: &mut impl Clock, rate: Rate) 
 
 /// Time the `minimal` workload with configuration `config` (built from
 /// [`MINIMAL`]).
-pub fn minimal<B: Workload>(config: Config<B>, clock: &mut impl Clock, rate: Rate) -> Cost {
+pub fn minimal<B: Workload, L: Layout>(
+    config: Config<B, L>,
+    clock: &mut impl Clock,
+    rate: Rate,
+) -> Cost {
     let mut timer = Timer::new(clock, rate);
     let mut pi = probe::new(config);
     let mut y = B::ZERO;
     for k in 0..STEPS {
         let r = setpoint::<B>(k);
         let out = timer.time(|| probe::step(&mut pi, r, y));
+        core::hint::black_box(out.status);
         y = y.add(out.command.sub(y).scale(B::EIGHTH));
     }
     timer.cost
@@ -195,6 +207,16 @@ pub fn minimal<B: Workload>(config: Config<B>, clock: &mut impl Clock, rate: Rat
 pub const FIXED_FULL: Config<I16F16> = evenkeel::config!(I16F16, FULL);
 /// See [`FIXED_FULL`].
 pub const FIXED_MINIMAL: Config<I16F16> = evenkeel::config!(I16F16, MINIMAL);
+evenkeel::layout!(pub FullLayout = FULL);
+evenkeel::layout!(pub MinimalLayout = MINIMAL);
+/// The `full` workload's configuration with its structure fixed at compile
+/// time (same settings, same bits).
+pub const FIXED_FULL_LAYOUT: Config<I16F16, FullLayout> =
+    evenkeel::config!(I16F16, FullLayout, FULL);
+/// The `minimal` workload's configuration with its structure fixed at
+/// compile time.
+pub const FIXED_MINIMAL_LAYOUT: Config<I16F16, MinimalLayout> =
+    evenkeel::config!(I16F16, MinimalLayout, MINIMAL);
 /// `f32` configurations of the two workloads.
 #[cfg(feature = "f32")]
 pub const F32_FULL: Config<f32> = evenkeel::config!(f32, FULL);

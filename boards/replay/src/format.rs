@@ -1,4 +1,4 @@
-//! Decoder for the golden-vector file, format version 1
+//! Decoder for the vector files, format versions 1 and 2
 //! (`shared/vectors/FORMAT.md` is the specification).
 //!
 //! Streams straight from the bytes (flash on a microcontroller): no buffer,
@@ -10,8 +10,13 @@
 
 /// The first four bytes of a vector file.
 pub const MAGIC: [u8; 4] = *b"EKVF";
-/// The format version this decoder reads.
+/// The first format version (`golden.ekv`).
 pub const VERSION: u8 = 1;
+/// Version 2: version 1 plus breakpoint rows per scenario and the
+/// schedule operation (`schedule.ekv`).
+pub const VERSION_SCHEDULE: u8 = 2;
+/// Length of one encoded breakpoint row (three `f64` bit patterns).
+pub const ROW_LEN: usize = 24;
 /// Length of the file header in bytes.
 pub const HEADER_LEN: usize = 10;
 
@@ -178,6 +183,8 @@ impl<'a> Cursor<'a> {
 pub struct File<'a> {
     /// Number of scenarios in the file.
     pub scenario_count: u8,
+    /// Format version (1 or 2).
+    pub version: u8,
     body: &'a [u8],
 }
 
@@ -193,7 +200,7 @@ impl<'a> File<'a> {
             return Err(FormatError::Magic);
         }
         let version = c.u8()?;
-        if version != VERSION {
+        if version != VERSION && version != VERSION_SCHEDULE {
             return Err(FormatError::Version(version));
         }
         let scenario_count = c.u8()?;
@@ -203,6 +210,7 @@ impl<'a> File<'a> {
         }
         Ok(Self {
             scenario_count,
+            version,
             body: c.rest,
         })
     }
@@ -216,6 +224,7 @@ impl<'a> File<'a> {
                 u16::from(self.scenario_count),
                 FormatError::Trailing,
             ),
+            version: self.version,
         }
     }
 }
@@ -276,6 +285,8 @@ pub struct Scenario<'a> {
     /// Settings of the initial configuration.
     pub settings: SettingsBits,
     gains: &'a [u8],
+    rows: &'a [u8],
+    version: u8,
     /// Number of steps.
     pub step_count: u16,
     steps: &'a [u8],
@@ -302,12 +313,28 @@ impl<'a> Scenario<'a> {
         })
     }
 
+    /// Number of gain-schedule breakpoint rows (version 2; 0 in version 1).
+    #[must_use]
+    pub const fn row_count(&self) -> usize {
+        self.rows.len() / ROW_LEN
+    }
+
+    /// Breakpoint row `index`: `at`, `kp`, `ki_per_s` as `f64` bit patterns.
+    #[must_use]
+    pub fn row(&self, index: usize) -> Option<[u64; 3]> {
+        let start = index.checked_mul(ROW_LEN)?;
+        let bytes = self.rows.get(start..start.checked_add(ROW_LEN)?)?;
+        let mut c = Cursor::new(bytes);
+        Some([c.u64().ok()?, c.u64().ok()?, c.u64().ok()?])
+    }
+
     /// The steps, decoded one at a time.
     #[must_use]
     pub fn steps(&self) -> Steps<'a> {
         Steps {
             section: Section::new(self.steps, self.step_count, FormatError::StepSection),
             state: Step::default(),
+            version: self.version,
         }
     }
 }
@@ -316,6 +343,7 @@ impl<'a> Scenario<'a> {
 #[derive(Clone, Copy, Debug)]
 pub struct Scenarios<'a> {
     section: Section<'a>,
+    version: u8,
 }
 
 /// A counted run of records (the scenarios of a file, the steps of a
@@ -365,7 +393,7 @@ impl<'a> Section<'a> {
 }
 
 impl<'a> Scenarios<'a> {
-    fn read(c: &mut Cursor<'a>) -> Result<Scenario<'a>, FormatError> {
+    fn read(c: &mut Cursor<'a>, version: u8) -> Result<Scenario<'a>, FormatError> {
         let name_len = c.u8()?;
         let name = c.take(usize::from(name_len))?;
         let flags = c.u8()?;
@@ -398,6 +426,12 @@ impl<'a> Scenarios<'a> {
         }
         let gain_count = c.u8()?;
         let gains = c.take(usize::from(gain_count) * GAIN_LEN)?;
+        let rows = if version >= VERSION_SCHEDULE {
+            let row_count = c.u8()?;
+            c.take(usize::from(row_count) * ROW_LEN)?
+        } else {
+            &[]
+        };
         let step_count = c.u16()?;
         let steps_len = c.u32()?;
         let steps = c.take(usize::try_from(steps_len).map_err(|_| FormatError::Truncated)?)?;
@@ -405,6 +439,8 @@ impl<'a> Scenarios<'a> {
             name,
             settings: s,
             gains,
+            rows,
+            version,
             step_count,
             steps,
         })
@@ -415,7 +451,8 @@ impl<'a> Iterator for Scenarios<'a> {
     type Item = Result<Scenario<'a>, FormatError>;
 
     fn next(&mut self) -> Option<Self::Item> {
-        self.section.next_with(Self::read)
+        let version = self.version;
+        self.section.next_with(|c| Self::read(c, version))
     }
 }
 
@@ -442,6 +479,12 @@ pub enum Op {
         /// Index into the scenario's gain table.
         index: u32,
     },
+    /// Version 2: `schedule(&table, at)` with the scenario's breakpoint
+    /// rows, then `step_with(input)`.
+    Schedule {
+        /// Scheduling value, Q16.16 bits.
+        at: i32,
+    },
 }
 
 /// One decoded step: the inputs and the expected output. All signals are
@@ -450,6 +493,9 @@ pub enum Op {
 pub struct Step {
     /// The operation.
     pub op: Op,
+    /// The last scheduling value so far (0 before the first schedule
+    /// operation): what the next one is a delta from.
+    pub schedule_at: i32,
     /// Setpoint.
     pub setpoint: i32,
     /// Measurement.
@@ -469,11 +515,12 @@ pub struct Step {
 pub struct Steps<'a> {
     section: Section<'a>,
     state: Step,
+    version: u8,
 }
 
 impl Steps<'_> {
     /// The step after `prev`: the format stores most fields as deltas.
-    fn read(c: &mut Cursor<'_>, prev: Step) -> Result<Step, FormatError> {
+    fn read(c: &mut Cursor<'_>, prev: Step, version: u8) -> Result<Step, FormatError> {
         let head = c.u8()?;
         if head & 0x80 != 0 {
             return Err(FormatError::Op(head));
@@ -488,6 +535,9 @@ impl Steps<'_> {
             },
             3 => Op::Reset,
             4 => Op::Retune { index: c.varint()? },
+            5 if version >= VERSION_SCHEDULE => Op::Schedule {
+                at: c.delta(prev.schedule_at)?,
+            },
             other => return Err(FormatError::Op(other)),
         };
         let setpoint = if head & SETPOINT_CHANGED != 0 {
@@ -512,8 +562,13 @@ impl Steps<'_> {
         } else {
             prev.status
         };
+        let schedule_at = match op {
+            Op::Schedule { at } => at,
+            _ => prev.schedule_at,
+        };
         Ok(Step {
             op,
+            schedule_at,
             setpoint,
             measurement,
             feed_forward,
@@ -528,8 +583,8 @@ impl Iterator for Steps<'_> {
     type Item = Result<Step, FormatError>;
 
     fn next(&mut self) -> Option<Self::Item> {
-        let prev = self.state;
-        let item = self.section.next_with(|c| Self::read(c, prev));
+        let (prev, version) = (self.state, self.version);
+        let item = self.section.next_with(|c| Self::read(c, prev, version));
         if let Some(Ok(step)) = item {
             self.state = step;
         }

@@ -18,10 +18,25 @@ pub mod replay;
 /// The fixed-point signal type the vectors use (Q16.16).
 pub type Fixed = evenkeel::fixed::types::I16F16;
 
-/// Compile-time tables generated from the vector file by `build.rs`.
+/// Compile-time tables generated from the vector files by `build.rs`: one
+/// module per file ([`tables::golden`], [`tables::schedule`]).
 pub mod tables {
     use evenkeel::fixed::types::I16F16;
-    use evenkeel::{AntiWindup, Config, FixedCoef, Settings};
+    use evenkeel::{AntiWindup, Breakpoint, Config, FixedCoef, Layout, Schedule, Settings, Shape};
+
+    /// Breakpoint rows a schedule scenario may have.
+    pub const SCHEDULE_ROWS: usize = 4;
+
+    /// Something that takes a configuration of any compile-time layout (each
+    /// scenario's layout is its own type), with its schedule if it has one.
+    pub trait ConfigVisitor {
+        /// Take one configuration.
+        fn visit<L: Layout>(
+            &mut self,
+            config: Config<I16F16, L>,
+            schedule: Option<&'static Schedule<I16F16, SCHEDULE_ROWS, L>>,
+        );
+    }
 
     /// A gain from its stored form (mantissa · 2^-shift); for constant
     /// evaluation only (an unrepresentable gain stops the build).

@@ -2,17 +2,19 @@
 //! output bit for bit.
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Controller, FixedCoef, Input, Output};
+use evenkeel::{Config, Controller, FixedCoef, Input, Layout, Output, Schedule};
 
-use crate::format::{File, FormatError, Op, Step};
+use crate::format::{File, FormatError, Op, Scenario, Step};
 use crate::probe;
-use crate::tables::{CONFIGS, GAINS, NAMES, VECTORS};
+use crate::tables::{ConfigVisitor, SCHEDULE_ROWS, golden, schedule};
 
 /// One output that differs from the vector.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Mismatch<'a> {
     /// Scenario name.
     pub scenario: &'a str,
+    /// Which configuration ran it: [`RUN_TIME`] or [`COMPILE_TIME`].
+    pub layout: &'static str,
     /// Step index within the scenario, from 0.
     pub step: u16,
     /// Expected command, Q16.16 bits.
@@ -25,21 +27,27 @@ pub struct Mismatch<'a> {
     pub got_status: u16,
 }
 
+/// Name of the pass with the run-time configuration (`Config<I16F16>`).
+pub const RUN_TIME: &str = "run-time config";
+/// Name of the pass with the compile-time layout (`Config<I16F16, L>`).
+pub const COMPILE_TIME: &str = "compile-time layout";
+
 /// Where the replay sends what it finds (semihosting text on a board, a
 /// collecting sink in the host test).
 pub trait Report {
     /// A step whose output differs.
     fn mismatch(&mut self, mismatch: &Mismatch<'_>);
-    /// A scenario finished.
-    fn scenario(&mut self, name: &str, steps: u32, mismatches: u32);
+    /// A scenario finished with one configuration.
+    fn scenario(&mut self, name: &str, layout: &'static str, steps: u32, mismatches: u32);
 }
 
-/// Totals of a replay.
+/// Totals of a replay (both passes: every scenario runs once with its
+/// run-time configuration and once with its compile-time layout).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 pub struct Summary {
-    /// Scenarios replayed.
+    /// Scenario runs (twice the scenarios in the file).
     pub scenarios: u32,
-    /// Steps replayed.
+    /// Steps replayed, over both passes.
     pub steps: u32,
     /// Steps whose command or status differ.
     pub mismatches: u32,
@@ -53,7 +61,8 @@ pub enum ReplayError {
     /// The file and the compile-time tables disagree (scenario count or
     /// name).
     Tables,
-    /// A retune refers to a gain the scenario does not have.
+    /// A retune refers to a gain the scenario does not have, or the
+    /// controller refused it.
     GainIndex,
 }
 
@@ -64,7 +73,7 @@ impl ReplayError {
         match self {
             Self::Format(e) => e.describe(),
             Self::Tables => "vector file and compiled tables disagree",
-            Self::GainIndex => "retune gain index out of range",
+            Self::GainIndex => "retune gain index out of range, or gain refused",
         }
     }
 }
@@ -75,35 +84,107 @@ impl From<FormatError> for ReplayError {
     }
 }
 
-/// Replay the embedded vector file, reporting each mismatch as it is found.
+/// The replay of one generated tables module (each has its own layout
+/// types, so the loop is written once here and expanded per module).
+macro_rules! replay_file {
+    ($tables:ident, $report:expr) => {{
+        let report = $report;
+        let file = File::open($tables::VECTORS)?;
+        if usize::from(file.scenario_count) != $tables::CONFIGS.len() {
+            return Err(ReplayError::Tables);
+        }
+        let mut summary = Summary::default();
+        let tables = $tables::NAMES
+            .iter()
+            .zip($tables::CONFIGS.iter())
+            .zip($tables::GAINS.iter().zip($tables::SCHEDULES.iter()));
+        for (index, (scenario, ((&name, &config), (&gains, &table)))) in
+            file.scenarios().zip(tables).enumerate()
+        {
+            let scenario = scenario?;
+            if scenario.name != name.as_bytes() {
+                return Err(ReplayError::Tables);
+            }
+            let mut pass = Pass {
+                scenario,
+                name,
+                gains,
+                report: &mut *report,
+                summary: &mut summary,
+                result: Ok(()),
+            };
+            pass.replay_with(config, table, RUN_TIME);
+            if !$tables::visit_layout(index, &mut pass) {
+                return Err(ReplayError::Tables);
+            }
+            pass.result?;
+        }
+        Ok(summary)
+    }};
+}
+
+/// Replay the embedded golden vectors (`golden.ekv`), reporting each
+/// mismatch as it is found: every scenario with its run-time configuration,
+/// then with its compile-time layout.
 ///
 /// # Errors
 /// A [`ReplayError`] if the file cannot be read to the end; mismatches are
 /// not errors (see [`Summary::mismatches`]).
 pub fn run(report: &mut impl Report) -> Result<Summary, ReplayError> {
-    let file = File::open(VECTORS)?;
-    if usize::from(file.scenario_count) != CONFIGS.len() {
-        return Err(ReplayError::Tables);
-    }
-    let mut summary = Summary::default();
-    let tables = NAMES.iter().zip(CONFIGS.iter()).zip(GAINS.iter());
-    for (scenario, ((&name, &config), &gains)) in file.scenarios().zip(tables) {
-        let scenario = scenario?;
-        if scenario.name != name.as_bytes() {
-            return Err(ReplayError::Tables);
+    replay_file!(golden, report)
+}
+
+/// Replay the embedded schedule set (`schedule.ekv`): every step applies
+/// the scenario's compile-time schedule with `Controller::schedule`.
+///
+/// # Errors
+/// As [`run`].
+pub fn run_schedules(report: &mut impl Report) -> Result<Summary, ReplayError> {
+    replay_file!(schedule, report)
+}
+
+/// One scenario, replayed with whatever configuration it is handed.
+struct Pass<'a, 'r, R: Report> {
+    scenario: Scenario<'a>,
+    name: &'a str,
+    gains: &'a [(FixedCoef, FixedCoef)],
+    report: &'r mut R,
+    summary: &'r mut Summary,
+    result: Result<(), ReplayError>,
+}
+
+impl<R: Report> Pass<'_, '_, R> {
+    fn replay_with<L: Layout>(
+        &mut self,
+        config: Config<I16F16, L>,
+        table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
+        layout: &'static str,
+    ) {
+        if self.result.is_err() {
+            return;
         }
+        self.result = self.replay(config, table, layout);
+    }
+
+    fn replay<L: Layout>(
+        &mut self,
+        config: Config<I16F16, L>,
+        table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
+        layout: &'static str,
+    ) -> Result<(), ReplayError> {
         let mut pi = probe::new(config);
         let mut steps: u32 = 0;
         let mut mismatches: u32 = 0;
-        for (index, step) in (0..=u16::MAX).zip(scenario.steps()) {
+        for (index, step) in (0..=u16::MAX).zip(self.scenario.steps()) {
             let step = step?;
-            let out = apply(&mut pi, gains, &step)?;
+            let out = apply(&mut pi, self.gains, table, &step)?;
             let got_command = out.command.to_bits();
             let got_status = out.status.bits();
             if got_command != step.command || got_status != step.status {
                 mismatches = mismatches.saturating_add(1);
-                report.mismatch(&Mismatch {
-                    scenario: name,
+                self.report.mismatch(&Mismatch {
+                    scenario: self.name,
+                    layout,
                     step: index,
                     want_command: step.command,
                     got_command,
@@ -113,12 +194,23 @@ pub fn run(report: &mut impl Report) -> Result<Summary, ReplayError> {
             }
             steps = steps.saturating_add(1);
         }
-        report.scenario(name, steps, mismatches);
-        summary.scenarios = summary.scenarios.saturating_add(1);
-        summary.steps = summary.steps.saturating_add(steps);
-        summary.mismatches = summary.mismatches.saturating_add(mismatches);
+        self.report.scenario(self.name, layout, steps, mismatches);
+        let s = &mut *self.summary;
+        s.scenarios = s.scenarios.saturating_add(1);
+        s.steps = s.steps.saturating_add(steps);
+        s.mismatches = s.mismatches.saturating_add(mismatches);
+        Ok(())
     }
-    Ok(summary)
+}
+
+impl<R: Report> ConfigVisitor for Pass<'_, '_, R> {
+    fn visit<L: Layout>(
+        &mut self,
+        config: Config<I16F16, L>,
+        table: Option<&'static Schedule<I16F16, SCHEDULE_ROWS, L>>,
+    ) {
+        self.replay_with(config, table, COMPILE_TIME);
+    }
 }
 
 /// Perform one recorded step (the vector generator does exactly the same).
@@ -128,9 +220,10 @@ pub fn run(report: &mut impl Report) -> Result<Summary, ReplayError> {
 ///
 /// # Errors
 /// [`ReplayError::GainIndex`] for a retune to a gain not in `gains`.
-pub fn apply(
-    pi: &mut Controller<I16F16>,
+pub fn apply<L: Layout>(
+    pi: &mut Controller<I16F16, L>,
     gains: &[(FixedCoef, FixedCoef)],
+    table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
     step: &Step,
 ) -> Result<Output<I16F16>, ReplayError> {
     let q = I16F16::from_bits;
@@ -140,7 +233,7 @@ pub fn apply(
         input = input.with_applied(q(applied));
     }
     let plain = step.feed_forward == 0 && step.applied.is_none();
-    let run = |pi: &mut Controller<I16F16>| {
+    let run = |pi: &mut Controller<I16F16, L>| {
         if plain {
             probe::step(pi, r, y)
         } else {
@@ -161,7 +254,14 @@ pub fn apply(
         Op::Retune { index } => {
             let index = usize::try_from(index).map_err(|_| ReplayError::GainIndex)?;
             let &(kp, ki_ts) = gains.get(index).ok_or(ReplayError::GainIndex)?;
-            probe::retune(pi, kp, ki_ts);
+            if !probe::retune(pi, kp, ki_ts) {
+                return Err(ReplayError::GainIndex);
+            }
+            run(pi)
+        }
+        Op::Schedule { at } => {
+            let table = table.ok_or(ReplayError::Tables)?;
+            probe::schedule(pi, table, q(at));
             run(pi)
         }
     })

@@ -1,5 +1,6 @@
-//! Write the golden vectors to `shared/vectors/golden.ekv` (or the path
-//! given as the only argument).
+//! Write the golden vectors to `shared/vectors/golden.ekv` and the schedule
+//! set to `shared/vectors/schedule.ekv` (or to the two paths given as
+//! arguments).
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -7,29 +8,34 @@ use std::process::ExitCode;
 use evenkeel_tests::vectors;
 
 fn main() -> ExitCode {
-    let path = std::env::args_os().nth(1).map_or_else(
-        || {
-            PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-                .join("..")
-                .join(vectors::FILE)
-        },
-        PathBuf::from,
-    );
-    let bytes = match vectors::generate() {
-        Ok(b) => b,
-        Err(e) => {
-            eprintln!("make-vectors: {e}");
+    let mut args = std::env::args_os().skip(1);
+    let root = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..");
+    let golden = args
+        .next()
+        .map_or_else(|| root.join(vectors::FILE), PathBuf::from);
+    let schedule = args
+        .next()
+        .map_or_else(|| root.join(vectors::SCHEDULE_FILE), PathBuf::from);
+    for (path, bytes) in [
+        (golden, vectors::generate()),
+        (schedule, vectors::generate_schedules()),
+    ] {
+        let bytes = match bytes {
+            Ok(b) => b,
+            Err(e) => {
+                eprintln!("make-vectors: {e}");
+                return ExitCode::FAILURE;
+            }
+        };
+        if let Err(e) = std::fs::write(&path, &bytes) {
+            eprintln!("make-vectors: {}: {e}", path.display());
             return ExitCode::FAILURE;
         }
-    };
-    if let Err(e) = std::fs::write(&path, &bytes) {
-        eprintln!("make-vectors: {}: {e}", path.display());
-        return ExitCode::FAILURE;
+        println!(
+            "make-vectors: wrote {} bytes to {}",
+            bytes.len(),
+            path.display()
+        );
     }
-    println!(
-        "make-vectors: wrote {} bytes to {}",
-        bytes.len(),
-        path.display()
-    );
     ExitCode::SUCCESS
 }

@@ -1,4 +1,5 @@
-//! Writer for the golden-vector file, format version 1
+//! Writer for the vector files, format versions 1 (golden) and 2 (with
+//! schedule rows and the schedule operation)
 //! (`shared/vectors/FORMAT.md`; the reader is `boards/replay/src/format.rs`).
 
 use evenkeel::{AntiWindup, Settings};
@@ -7,8 +8,10 @@ use super::record::{Op, Recorded, Recording};
 
 /// First four bytes of a vector file.
 pub const MAGIC: [u8; 4] = *b"EKVF";
-/// Format version written.
+/// Format version of the golden file.
 pub const VERSION: u8 = 1;
+/// Format version of files with schedule rows and schedule steps.
+pub const VERSION_SCHEDULE: u8 = 2;
 
 const HAS_SLEW: u8 = 1 << 0;
 const HAS_FILTER: u8 = 1 << 1;
@@ -27,8 +30,10 @@ pub enum EncodeError {
     TooManyScenarios,
     /// A name longer than 255 bytes or not ASCII.
     Name(String),
-    /// A scenario with more than 255 retune gains or 65 535 steps.
+    /// A scenario with more than 255 retune gains or rows, or 65 535 steps.
     TooLarge(String),
+    /// Schedule rows or steps in a version-1 file.
+    NeedsVersion2(String),
 }
 
 impl std::fmt::Display for EncodeError {
@@ -36,26 +41,39 @@ impl std::fmt::Display for EncodeError {
         match self {
             Self::TooManyScenarios => f.write_str("more than 255 scenarios"),
             Self::Name(n) => write!(f, "scenario name {n:?} is not short ASCII"),
-            Self::TooLarge(n) => write!(f, "scenario {n} has too many gains or steps"),
+            Self::TooLarge(n) => write!(f, "scenario {n} has too many gains, rows or steps"),
+            Self::NeedsVersion2(n) => write!(f, "scenario {n} has a schedule: format version 2"),
         }
     }
 }
 
 impl std::error::Error for EncodeError {}
 
-/// The whole file for `recordings`, in order.
+/// The whole version-1 file for `recordings`, in order.
 ///
 /// # Errors
 /// [`EncodeError`] if a count or name does not fit the format.
 pub fn encode(recordings: &[Recording]) -> Result<Vec<u8>, EncodeError> {
+    encode_version(recordings, VERSION)
+}
+
+/// The whole file for `recordings` in format `version` (1 or 2).
+///
+/// # Errors
+/// [`EncodeError`] if a count or name does not fit the format.
+pub fn encode_version(recordings: &[Recording], version: u8) -> Result<Vec<u8>, EncodeError> {
     let mut body = Vec::new();
     for r in recordings {
-        scenario(&mut body, r)?;
+        let scheduled = r.steps.iter().any(|s| matches!(s.op, Op::Schedule(_)));
+        if version < VERSION_SCHEDULE && (scheduled || !r.rows.is_empty()) {
+            return Err(EncodeError::NeedsVersion2(r.name.clone()));
+        }
+        scenario(&mut body, r, version)?;
     }
     let count = u8::try_from(recordings.len()).map_err(|_| EncodeError::TooManyScenarios)?;
     let mut file = Vec::with_capacity(body.len() + 10);
     file.extend_from_slice(&MAGIC);
-    file.push(VERSION);
+    file.push(version);
     file.push(count);
     file.extend_from_slice(&fnv1a(&body).to_le_bytes());
     file.extend_from_slice(&body);
@@ -70,7 +88,7 @@ pub fn fnv1a(bytes: &[u8]) -> u32 {
     })
 }
 
-fn scenario(out: &mut Vec<u8>, r: &Recording) -> Result<(), EncodeError> {
+fn scenario(out: &mut Vec<u8>, r: &Recording, version: u8) -> Result<(), EncodeError> {
     let name = r.name.as_bytes();
     let name_len = u8::try_from(name.len()).map_err(|_| EncodeError::Name(r.name.clone()))?;
     if !r.name.is_ascii() {
@@ -85,6 +103,14 @@ fn scenario(out: &mut Vec<u8>, r: &Recording) -> Result<(), EncodeError> {
         for c in [kp, ki_ts] {
             out.extend_from_slice(&c.mantissa().to_le_bytes());
             out.push(u8::try_from(c.shift()).map_err(|_| too_large())?);
+        }
+    }
+    if version >= VERSION_SCHEDULE {
+        out.push(u8::try_from(r.rows.len()).map_err(|_| too_large())?);
+        for row in &r.rows {
+            for x in [row.at, row.kp, row.ki_per_s] {
+                out.extend_from_slice(&x.to_bits().to_le_bytes());
+            }
         }
     }
     let steps = steps(&r.steps);
@@ -138,13 +164,15 @@ fn settings(out: &mut Vec<u8>, s: &Settings) {
 fn steps(recorded: &[Recorded]) -> Vec<u8> {
     let mut out = Vec::new();
     let mut prev = Recorded::default();
+    let mut prev_at = 0;
     for s in recorded {
-        let (code, actuator, index) = match s.op {
-            Op::Step => (0, None, None),
-            Op::Engage(a) => (1, Some(a), None),
-            Op::Track(a) => (2, Some(a), None),
-            Op::Reset => (3, None, None),
-            Op::Retune(i) => (4, None, Some(i)),
+        let (code, actuator, index, at) = match s.op {
+            Op::Step => (0, None, None, None),
+            Op::Engage(a) => (1, Some(a), None, None),
+            Op::Track(a) => (2, Some(a), None, None),
+            Op::Reset => (3, None, None, None),
+            Op::Retune(i) => (4, None, Some(i), None),
+            Op::Schedule(at) => (5, None, None, Some(at)),
         };
         let mut head = code;
         if s.setpoint != prev.setpoint {
@@ -165,6 +193,10 @@ fn steps(recorded: &[Recorded]) -> Vec<u8> {
         }
         if let Some(i) = index {
             varint(&mut out, i);
+        }
+        if let Some(at) = at {
+            delta(&mut out, prev_at, at);
+            prev_at = at;
         }
         if head & SETPOINT_CHANGED != 0 {
             delta(&mut out, prev.setpoint, s.setpoint);

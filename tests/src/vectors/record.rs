@@ -1,7 +1,9 @@
 //! Run a scenario on the host and record every input and output bit.
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Config, ConfigError, Controller, FixedCoef, Input, Output, Schedule, Settings};
+use evenkeel::{
+    Breakpoint, Config, ConfigError, Controller, FixedCoef, Input, Output, Schedule, Settings,
+};
 
 /// Breakpoints a scenario's gain schedule may have.
 pub const SCHEDULE_ROWS: usize = 4;
@@ -21,6 +23,9 @@ pub enum Op {
     Reset,
     /// Retune to gain pair `index` of the scenario's table, then step.
     Retune(u32),
+    /// `schedule(&table, at)` with the scenario's breakpoint rows, then
+    /// step (format version 2).
+    Schedule(i32),
 }
 
 /// One recorded step; signals are Q16.16 bits.
@@ -51,6 +56,9 @@ pub struct Recording {
     pub settings: Settings,
     /// Retune gains (Kp, Ki·Ts), in order of first use.
     pub gains: Vec<(FixedCoef, FixedCoef)>,
+    /// Breakpoint rows of the schedule applied by [`Op::Schedule`] steps
+    /// (empty in the golden set).
+    pub rows: Vec<Breakpoint>,
     /// Steps.
     pub steps: Vec<Recorded>,
 }
@@ -78,8 +86,12 @@ pub enum Event {
     Track(I16F16),
     /// Reset, then step.
     Reset,
-    /// Apply the gain schedule at this scheduling value, then step.
+    /// Apply the gain schedule at this scheduling value, then step; the
+    /// golden set records the gains it interpolated (a retune).
     Schedule(I16F16),
+    /// Apply the gain schedule at this scheduling value, then step; recorded
+    /// as the schedule operation itself (the schedule set).
+    ScheduleOp(I16F16),
 }
 
 /// Drives a fixed-point controller and records it.
@@ -106,6 +118,7 @@ impl Recorder {
                 name: name.to_owned(),
                 settings,
                 gains: Vec::new(),
+                rows: Vec::new(),
                 steps: Vec::new(),
             },
         })
@@ -155,6 +168,11 @@ impl Recorder {
                 let index = u32::try_from(index).expect("small table");
                 (Op::Retune(index), run(&mut self.pi))
             }
+            Event::ScheduleOp(at) => {
+                let table = self.schedule.as_ref().expect("scenario has a schedule");
+                self.pi.schedule(table, at);
+                (Op::Schedule(at.to_bits()), run(&mut self.pi))
+            }
         };
         self.recording.steps.push(Recorded {
             op,
@@ -166,6 +184,14 @@ impl Recorder {
             status: out.status.bits(),
         });
         out
+    }
+
+    /// Record the schedule's breakpoint rows with the scenario (the
+    /// schedule set stores them; the firmware builds its table from them).
+    #[must_use]
+    pub fn with_rows(mut self, rows: &[Breakpoint]) -> Self {
+        self.recording.rows = rows.to_vec();
+        self
     }
 
     /// The recording so far.

@@ -90,6 +90,156 @@ pub fn all() -> Result<Vec<Recording>, ConfigError> {
     ])
 }
 
+/// Every scenario of the schedule set (`schedule.ekv`, format version 2):
+/// the gain schedule applied with `Controller::schedule` on every step,
+/// from a table the firmware builds at compile time from the stored rows.
+///
+/// # Errors
+/// A configuration error if a scenario's settings are invalid (a bug here).
+pub fn schedules() -> Result<Vec<Recording>, ConfigError> {
+    Ok(vec![
+        schedule_plain()?,
+        schedule_all_features()?,
+        schedule_extremes()?,
+    ])
+}
+
+/// A recorder whose table is built by the `const` builder, as on target.
+fn scheduled(name: &str, base: Settings, rows: &[Breakpoint]) -> Result<Recorder, ConfigError> {
+    let table = Schedule::fixed(&base, rows)?;
+    Ok(Recorder::new(name, base, Some(table))?.with_rows(rows))
+}
+
+fn schedule_plain() -> Result<Recording, ConfigError> {
+    let base = Settings::new(0.01, 1.0, 2.0, -10.0, 10.0);
+    let mut rec = scheduled("schedule_plain", base, &GAIN_SCHEDULE_ROWS)?;
+    let mut plant = Lag {
+        y: 0.0,
+        a: 0.04,
+        k: 1.0,
+    };
+    for k in 0..400 {
+        // Scheduling value −10 … 123, a new value every second sample.
+        let at = I16F16::from_num(k / 3 - 10);
+        let r = if k % 100 < 50 { 6.0 } else { -3.0 };
+        let extra = Extra {
+            event: Event::ScheduleOp(at),
+            ..Extra::default()
+        };
+        let out = rec.step(q(r), q(plant.y), extra);
+        plant.advance(out.command, 0.0);
+    }
+    Ok(rec.finish())
+}
+
+fn schedule_all_features() -> Result<Recording, ConfigError> {
+    // A valve whose gain falls by a decade over the operating range: Kp and
+    // Ki span decades, so the segments have different shifts.
+    let base = Settings::new(0.005, 2.0, 5.0, -20.0, 60.0)
+        .with_slew_per_s(400.0)
+        .with_filter_time_s(0.02)
+        .with_deadband(0.02)
+        .with_setpoint_weight(0.6)
+        .with_anti_windup(AntiWindup::BackCalculation {
+            tracking_time_s: 0.05,
+        })
+        .with_measurement_range(-50.0, 150.0);
+    let rows = [
+        Breakpoint {
+            at: -20.0,
+            kp: 0.2,
+            ki_per_s: 0.5,
+        },
+        Breakpoint {
+            at: 10.0,
+            kp: 1.5,
+            ki_per_s: 4.0,
+        },
+        Breakpoint {
+            at: 45.5,
+            kp: 7.25,
+            ki_per_s: 12.0,
+        },
+        Breakpoint {
+            at: 80.0,
+            kp: 25.0,
+            ki_per_s: 40.0,
+        },
+    ];
+    let mut rec = scheduled("schedule_all_features", base, &rows)?;
+    let mut plant = Lag {
+        y: 0.0,
+        a: 0.03,
+        k: 0.8,
+    };
+    let mut noise = Noise(31);
+    for k in 0..500 {
+        let r = [20.0, 70.0, -10.0, 120.0, 40.0][k / 100];
+        // The scheduling variable follows the measurement, beyond both ends.
+        let at = q(1.2 * plant.y - 15.0 + 5.0 * noise.centred());
+        let extra = Extra {
+            feed_forward: q(0.1 * r),
+            applied: (k % 7 != 0).then(|| rec.last_command().min(q(50.0))),
+            event: Event::ScheduleOp(at),
+        };
+        let out = rec.step(q(r), q(plant.y + 0.05 * noise.centred()), extra);
+        plant.advance(out.command.min(q(50.0)), 0.0);
+    }
+    Ok(rec.finish())
+}
+
+fn schedule_extremes() -> Result<Recording, ConfigError> {
+    let base = Settings::new(0.01, 1.0, 1.0, -1_000.0, 1_000.0).with_slew_per_s(5_000.0);
+    let rows = [
+        Breakpoint {
+            at: -30_000.0,
+            kp: 0.001,
+            ki_per_s: 0.01,
+        },
+        Breakpoint {
+            at: -0.001,
+            kp: 100.0,
+            ki_per_s: 200.0,
+        },
+        Breakpoint {
+            at: 0.001,
+            kp: 0.0,
+            ki_per_s: 50.0,
+        },
+        Breakpoint {
+            at: 30_000.0,
+            kp: 1_000.0,
+            ki_per_s: 0.0,
+        },
+    ];
+    let mut rec = scheduled("schedule_extremes", base, &rows)?;
+    let mut noise = Noise(4242);
+    for k in 0..300 {
+        let at = match noise.next() % 5 {
+            0 => I16F16::MIN,
+            1 => I16F16::MAX,
+            2 => I16F16::from_bits(noise.next() as i32 % 200),
+            _ => noise.any_signal(),
+        };
+        let event = if k % 60 == 30 {
+            Event::Reset
+        } else {
+            Event::ScheduleOp(at)
+        };
+        let r = q(400.0 * noise.centred());
+        let y = q(400.0 * noise.centred());
+        rec.step(
+            r,
+            y,
+            Extra {
+                event,
+                ..Extra::default()
+            },
+        );
+    }
+    Ok(rec.finish())
+}
+
 /// Deterministic xorshift32: integers only, the same on every machine.
 struct Noise(u32);
 
@@ -187,30 +337,33 @@ fn feed_forward_full() -> Result<Recording, ConfigError> {
     Ok(rec.finish())
 }
 
+/// The rows of the golden `gain_schedule` scenario, also scheduled every
+/// step by `schedule_plain`.
+const GAIN_SCHEDULE_ROWS: [Breakpoint; 3] = [
+    Breakpoint {
+        at: 0.0,
+        kp: 1.0,
+        ki_per_s: 2.0,
+    },
+    Breakpoint {
+        at: 50.0,
+        kp: 3.0,
+        ki_per_s: 1.0,
+    },
+    Breakpoint {
+        at: 100.0,
+        kp: 0.5,
+        ki_per_s: 6.0,
+    },
+];
+
 fn gain_schedule() -> Result<Recording, ConfigError> {
     let base = Settings::new(0.01, 1.0, 2.0, -10.0, 10.0)
         .with_slew_per_s(100.0)
         .with_anti_windup(AntiWindup::BackCalculation {
             tracking_time_s: 0.1,
         });
-    let rows = [
-        Breakpoint {
-            at: 0.0,
-            kp: 1.0,
-            ki_per_s: 2.0,
-        },
-        Breakpoint {
-            at: 50.0,
-            kp: 3.0,
-            ki_per_s: 1.0,
-        },
-        Breakpoint {
-            at: 100.0,
-            kp: 0.5,
-            ki_per_s: 6.0,
-        },
-    ];
-    let table = Schedule::new(&base, &rows)?;
+    let table = Schedule::new(&base, &GAIN_SCHEDULE_ROWS)?;
     let mut rec = Recorder::new("gain_schedule", base, Some(table))?;
     let mut plant = Lag {
         y: 0.0,

@@ -1,0 +1,181 @@
+//! Property tests: a compile-time layout and the run-time configuration give
+//! the same command and status, on random settings and inputs.
+//!
+//! A layout fixes each coefficient's shift, so the random settings keep
+//! every coefficient in the binade the layout was made for (there its
+//! natural shift is the layout's, and both configurations store the same
+//! mantissa); cases that land on a binade edge are discarded.
+
+use evenkeel::{AntiWindup, Config, Controller, Input, Layout, Settings, Shape};
+use fixed::types::I16F16;
+use proptest::prelude::*;
+
+/// Every feature on: Kp in [2, 4) (shift 29), Ki·Ts in [1/32, 1/16)
+/// (shift 35), b in [1/2, 1) (31), α in [1/4, 1/2) (32), Ts/Tt in
+/// [1/16, 1/8) (34).
+const FULL: Settings = Settings::new(0.01, 2.0, 5.0, -10.0, 10.0)
+    .with_slew_per_s(200.0)
+    .with_filter_time_s(0.02)
+    .with_deadband(0.01)
+    .with_setpoint_weight(0.7)
+    .with_anti_windup(AntiWindup::BackCalculation {
+        tracking_time_s: 0.1,
+    })
+    .with_measurement_range(-100.0, 100.0);
+const MINIMAL: Settings = Settings::new(0.01, 2.0, 5.0, -10.0, 10.0);
+
+evenkeel::layout!(Full = FULL);
+evenkeel::layout!(Minimal = MINIMAL);
+
+/// Settings of `base`'s features with every coefficient in its binade and
+/// random limits, rates and ranges.
+fn settings(full: bool) -> impl Strategy<Value = Settings> {
+    (
+        (1e-3f64..0.1, 2.0f64..3.99, 0.0313f64..0.0624),
+        (-500.0f64..400.0, 0.5f64..900.0),
+        (0.51f64..0.99, 0.251f64..0.499, 0.0626f64..0.124),
+        (
+            0.001f64..1.0,
+            0.0f64..2.0,
+            -1_000.0f64..0.0,
+            1.0f64..1_000.0,
+        ),
+    )
+        .prop_map(
+            move |((ts, kp, ki_ts), (lo, span), (b, alpha, ratio), (slew, db, ylo, yhi))| {
+                let s = Settings::new(ts, kp, ki_ts / ts, lo, lo + span);
+                if !full {
+                    return s;
+                }
+                s.with_setpoint_weight(b)
+                    .with_filter_time_s(ts * (1.0 / alpha - 1.0))
+                    .with_anti_windup(AntiWindup::BackCalculation {
+                        tracking_time_s: ts / ratio,
+                    })
+                    .with_slew_per_s(slew * span / ts)
+                    .with_deadband(db)
+                    .with_measurement_range(ylo, yhi)
+            },
+        )
+}
+
+#[derive(Clone, Debug)]
+enum Event {
+    Step {
+        r: f64,
+        y: f64,
+        ff: f64,
+        applied: Option<f64>,
+    },
+    Engage(f64),
+    Track {
+        r: f64,
+        y: f64,
+        a: f64,
+    },
+    Reset,
+    Retune(Settings),
+}
+
+fn events(full: bool) -> impl Strategy<Value = Vec<Event>> {
+    let v = || prop_oneof![8 => -1_500.0f64..1_500.0, 1 => -40_000.0f64..40_000.0, 1 => Just(0.0)];
+    let event = prop_oneof![
+        20 => (v(), v(), v(), prop::option::of(v()))
+            .prop_map(|(r, y, ff, applied)| Event::Step { r, y, ff, applied }),
+        1 => v().prop_map(Event::Engage),
+        2 => (v(), v(), v()).prop_map(|(r, y, a)| Event::Track { r, y, a }),
+        1 => Just(Event::Reset),
+        1 => settings(full).prop_map(Event::Retune),
+    ];
+    prop::collection::vec(event, 1..150)
+}
+
+fn same_bits<L: Layout>(s: &Settings, events: &[Event]) -> Result<(), TestCaseError> {
+    // Only settings whose natural shifts are the layout's.
+    prop_assume!(Shape::of(s).ok() == L::SHAPE);
+    let run_time = Config::<I16F16>::try_new(s).expect("valid: it has a shape");
+    let laid_out = Config::<I16F16, L>::try_new(s).expect("fits its own shape");
+    let mut a = Controller::new(run_time);
+    let mut b = Controller::new(laid_out);
+    let q = I16F16::saturating_from_num;
+    for (k, event) in events.iter().enumerate() {
+        let (x, y) = match *event {
+            Event::Step { r, y, ff, applied } => {
+                let mut input = Input::new(q(r), q(y)).with_feed_forward(q(ff));
+                if let Some(v) = applied {
+                    input = input.with_applied(q(v));
+                }
+                (a.step_with(&input), b.step_with(&input))
+            }
+            Event::Engage(v) => {
+                a.engage(q(v));
+                b.engage(q(v));
+                continue;
+            }
+            Event::Track { r, y, a: v } => {
+                let input = Input::new(q(r), q(y));
+                (a.track(&input, q(v)), b.track(&input, q(v)))
+            }
+            Event::Reset => {
+                a.reset();
+                b.reset();
+                continue;
+            }
+            Event::Retune(ref t) => {
+                if Shape::of(t).ok() == L::SHAPE {
+                    a.retune(Config::try_new(t).expect("valid"));
+                    b.retune(Config::try_new(t).expect("fits"));
+                }
+                continue;
+            }
+        };
+        prop_assert_eq!(x, y, "event {}: {:?}", k, event);
+        prop_assert_eq!(a.integral(), b.integral());
+    }
+    Ok(())
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 300, ..ProptestConfig::default() })]
+
+    #[test]
+    fn full_layout_gives_the_run_time_bits(s in settings(true), e in events(true)) {
+        same_bits::<Full>(&s, &e)?;
+    }
+
+    #[test]
+    fn minimal_layout_gives_the_run_time_bits(s in settings(false), e in events(false)) {
+        same_bits::<Minimal>(&s, &e)?;
+    }
+}
+
+/// A gain outside the layout's format is refused with an error that says
+/// so; a configuration with other features too.
+#[test]
+fn configurations_outside_the_layout_are_refused() {
+    use evenkeel::{ConfigError, Setting};
+    let strong = Settings {
+        kp: 40.0,
+        ..MINIMAL
+    }; // needs shift 25, the layout has 29
+    assert_eq!(
+        Config::<I16F16, Minimal>::try_new(&strong),
+        Err(ConfigError::Layout(Setting::Kp))
+    );
+    assert_eq!(
+        Config::<I16F16, Minimal>::try_new(&FULL),
+        Err(ConfigError::Layout(Setting::Features))
+    );
+    // Within the format but coarser than the natural shift: stored with
+    // fewer bits, still within the 2⁻²⁰ promise, so accepted.
+    let weak = Settings { kp: 0.9, ..MINIMAL }; // natural shift 31
+    let c = Config::<I16F16, Minimal>::try_new(&weak).expect("fits shift 29");
+    assert_eq!(c.kp().shift(), 29);
+    assert!((c.kp().to_f64() - 0.9).abs() <= 0.9 / 1_048_576.0);
+    // A compile-time layout with gain room takes both.
+    evenkeel::layout!(Roomy: match Shape::of(&MINIMAL) {
+        Ok(s) => s.with_gain_room(50.0, 10.0, 0.01),
+        Err(e) => Err(e),
+    });
+    assert!(Config::<I16F16, Roomy>::try_new(&strong).is_ok());
+}
