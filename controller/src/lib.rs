@@ -45,6 +45,7 @@ pub mod log;
 pub mod monitor;
 #[allow(clippy::float_arithmetic)] // const conversions from f64, run once
 pub mod q;
+pub mod record;
 #[allow(clippy::float_arithmetic)] // schedule construction, run once
 mod schedule;
 #[allow(clippy::float_arithmetic)] // configuration, run once

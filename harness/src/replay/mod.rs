@@ -410,7 +410,7 @@ pub fn synthesize<B: Raw>(s: &crate::Scenario) -> Result<String, String> {
         let o = pi.step_with(&input);
         let _ = writeln!(
             out,
-            "{MARKER} step k={k} r={} y={} a=- f=- u={} s={:#06x}",
+            "{MARKER} step k={k} r={} y={} a=- f=0 u={} s={:#06x}",
             input.setpoint.raw(),
             input.measurement.raw(),
             o.command.raw(),
