@@ -2,15 +2,16 @@
 //! `evenkeel_harness::sweep`.
 
 use std::io::IsTerminal;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
+use evenkeel_harness::files::safe_stem;
 use evenkeel_harness::sweep::{self, Method, Shard, SweepPlan, SweepResult};
 use evenkeel_harness::{BackendKind, Scenario};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
-use super::output::{self, write};
+use super::output::{self, Outputs};
 
 #[derive(Args)]
 pub struct SweepArgs {
@@ -69,7 +70,8 @@ struct ReportArgs {
     /// Write the sweep report as JSON to PATH (`-`: standard output).
     #[arg(long, value_name = "PATH")]
     json: Option<PathBuf>,
-    /// Write JUnit XML (one test case per criterion) to PATH.
+    /// Write JUnit XML (one test case per criterion) to PATH (`-`:
+    /// standard output).
     #[arg(long, value_name = "PATH")]
     junit: Option<PathBuf>,
     /// Envelope plot (min/max band over the variants, worst highlighted),
@@ -83,14 +85,39 @@ struct ReportArgs {
 }
 
 impl ReportArgs {
-    /// The report paths and `--save` (`save`) can be written (see
-    /// [`output::check_report_paths`]); `--worst-dir` is created if missing.
-    fn check_paths(&self, save: Option<&std::path::Path>) -> anyhow::Result<()> {
-        output::check_report_paths(
-            &[self.json.as_deref(), self.junit.as_deref(), save],
-            self.plot.as_deref(),
-        )
+    /// Checks the report paths and `--save` (`save`) before anything
+    /// runs (see [`Outputs`]); `--worst-dir` is created if missing.
+    fn plan(&self, inputs: &[&Path], save: Option<&Path>) -> anyhow::Result<Outputs> {
+        let mut out = Outputs::new(inputs);
+        out.file("--json", self.json.as_deref())?;
+        out.file("--junit", self.junit.as_deref())?;
+        out.plot("--plot", self.plot.as_deref())?;
+        out.file("--save", save)?;
+        out.directory("--worst-dir", self.worst_dir.as_deref())?;
+        Ok(out)
     }
+
+    /// The files `--worst-dir` may write for `scenario`'s criteria, each
+    /// checked (inside the directory, not an input, no collision).
+    fn plan_worst(&self, out: &mut Outputs, scenario: &Scenario) -> anyhow::Result<()> {
+        if let Some(dir) = &self.worst_dir {
+            for c in &scenario.criteria {
+                let file = worst_file(dir, &scenario.name, c.metric.name(), c.bound.name());
+                out.derived(&format!("--worst-dir for {}", c.metric.name()), &file)?;
+            }
+        }
+        Ok(())
+    }
+}
+
+/// `DIR/STEM-worst-METRIC.toml` (`…-METRIC-min.toml` for a lower bound),
+/// the stem reduced by [`safe_stem`].
+fn worst_file(dir: &Path, scenario: &str, metric: &str, bound: &str) -> PathBuf {
+    let suffix = if bound == "min" { "-min" } else { "" };
+    dir.join(format!(
+        "{}-worst-{metric}{suffix}.toml",
+        safe_stem(scenario)
+    ))
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -121,8 +148,11 @@ impl OneBackend {
 
 /// `evenkeel sweep`: `Ok(all variants passed)`.
 pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
-    args.out.check_paths(args.save.as_deref())?;
+    let mut out = args
+        .out
+        .plan(&[args.scenario.as_path()], args.save.as_deref())?;
     let scenario = Scenario::from_path(&args.scenario)?;
+    args.out.plan_worst(&mut out, &scenario)?;
     if scenario.uncertainty.is_empty() {
         anyhow::bail!(
             "{}: no [uncertainty] table: nothing to sweep (see docs/SCENARIO.md)",
@@ -178,14 +208,18 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
     .with_context(|| format!("{}: scenario `{}`", scenario.source, scenario.name))?;
     bar.finish_and_clear();
     if let Some(path) = &args.save {
-        write(path, serde_json::to_string(&result)?.as_bytes())?;
+        out.bytes(path, serde_json::to_string(&result)?.as_bytes())?;
     }
-    report(&scenario, &result, &args.out)
+    report(out, &scenario, &result, &args.out)
 }
 
 /// `evenkeel merge`: `Ok(all variants passed)`.
 pub fn merge(args: &MergeArgs) -> anyhow::Result<bool> {
-    args.out.check_paths(args.save.as_deref())?;
+    let mut inputs = output::paths(&args.results);
+    if let Some(s) = &args.scenario {
+        inputs.push(s);
+    }
+    let mut out = args.out.plan(&inputs, args.save.as_deref())?;
     let mut parts = Vec::with_capacity(args.results.len());
     for path in &args.results {
         let text =
@@ -199,28 +233,28 @@ pub fn merge(args: &MergeArgs) -> anyhow::Result<bool> {
         .scenario
         .clone()
         .unwrap_or_else(|| PathBuf::from(&result.source));
+    out.input(&source);
     let scenario = Scenario::from_path(&source)?;
+    args.out.plan_worst(&mut out, &scenario)?;
     anyhow::ensure!(
         sweep::fingerprint(&scenario) == result.fingerprint,
         "{}: the scenario changed since the shards ran (fingerprint differs)",
         source.display()
     );
     if let Some(path) = &args.save {
-        write(path, serde_json::to_string(&result)?.as_bytes())?;
+        out.bytes(path, serde_json::to_string(&result)?.as_bytes())?;
     }
-    report(&scenario, &result, &args.out)
+    report(out, &scenario, &result, &args.out)
 }
 
-fn report(scenario: &Scenario, result: &SweepResult, out: &ReportArgs) -> anyhow::Result<bool> {
-    output::summary(
-        &sweep::table(result),
-        out.json.as_deref(),
-        || sweep::json(result),
-        out.junit.as_deref(),
-        || sweep::junit(result),
-    )?;
+fn report(
+    mut out: Outputs,
+    scenario: &Scenario,
+    result: &SweepResult,
+    args: &ReportArgs,
+) -> anyhow::Result<bool> {
     let summary = sweep::summarise(result);
-    if let Some(path) = &out.plot {
+    if let Some(path) = &args.plot {
         let backend = BackendKind::from_name(&result.backend).unwrap_or(BackendKind::Fixed);
         let worst = summary
             .worst_index
@@ -228,10 +262,12 @@ fn report(scenario: &Scenario, result: &SweepResult, out: &ReportArgs) -> anyhow
             .map(|s| s.run_on(&[backend]))
             .transpose()?
             .and_then(|o| o.runs.into_iter().next());
-        sweep::plot_envelope(scenario, result, worst.as_ref(), path)?;
+        out.drawn(path, |p| {
+            Ok(sweep::plot_envelope(scenario, result, worst.as_ref(), p)?)
+        })?;
     }
-    if let Some(dir) = &out.worst_dir {
-        std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+    if let Some(dir) = &args.worst_dir {
+        out.make_directory(dir)?;
         let text = std::fs::read_to_string(&scenario.source)
             .with_context(|| format!("reading {}", scenario.source))?;
         let mut done = Vec::new();
@@ -239,15 +275,15 @@ fn report(scenario: &Scenario, result: &SweepResult, out: &ReportArgs) -> anyhow
             if done.contains(&c.worst_index) && c.passed == c.total {
                 continue;
             }
-            let file = dir.join(format!(
-                "{}-worst-{}.toml",
-                result.scenario, c.criterion.metric
-            ));
+            let file = worst_file(dir, &scenario.name, &c.criterion.metric, &c.criterion.bound);
             let body = sweep::variant_toml(&text, scenario, result, c.worst_index)
                 .map_err(anyhow::Error::msg)?;
-            write(&file, body.as_bytes())?;
+            out.bytes(&file, body.as_bytes())?;
             done.push(c.worst_index);
         }
     }
+    out.json(args.json.as_deref(), || sweep::json(result))?;
+    out.text(args.junit.as_deref(), || sweep::junit(result))?;
+    out.finish(&sweep::table(result))?;
     Ok(summary.all_passed())
 }
