@@ -141,6 +141,9 @@ impl BackendRun {
                 metrics.rise_time_s = m.rise_time_s;
                 metrics.settling_time_s = m.settling_time_s;
                 metrics.overshoot_pct = m.overshoot_pct;
+                metrics.undefined.rise_time_s = m.undefined.rise_time_s;
+                metrics.undefined.settling_time_s = m.undefined.settling_time_s;
+                metrics.undefined.overshoot_pct = m.undefined.overshoot_pct;
             }
         }
         let verdicts = evaluate(&scenario.criteria, &metrics);
