@@ -44,6 +44,22 @@ pub enum Undefined {
 }
 
 impl Undefined {
+    /// Every reason.
+    pub const ALL: [Self; 12] = [
+        Self::NoStep,
+        Self::NeverMoved,
+        Self::NotReached,
+        Self::NotSettled,
+        Self::NoLimits,
+        Self::Empty,
+        Self::NoFaults,
+        Self::OnlyPayload,
+        Self::NoBand,
+        Self::NotRecovered,
+        Self::FaultAtEnd,
+        Self::NotFinite,
+    ];
+
     /// The reason in words, as the reports print it.
     #[must_use]
     pub const fn reason(self) -> &'static str {
@@ -88,6 +104,12 @@ impl Undefined {
             Self::FaultAtEnd => "fault_at_end",
             Self::NotFinite => "not_finite",
         }
+    }
+
+    /// The reason whose [`Undefined::key`] is `key`.
+    #[must_use]
+    pub fn from_key(key: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|u| u.key() == key)
     }
 
     /// `true` when a criterion on a metric undefined for this reason
