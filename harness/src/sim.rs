@@ -331,7 +331,10 @@ pub fn simulate<B: Backend>(
         // firmware's guard refuses it before conversion and holds.
         let guarded = !measured.is_finite() && input.measurement.is_finite();
         let mut expected = Status::NONE;
-        if !measured.is_finite() {
+        // What the backend holds decides: a finite reading beyond its
+        // range (1e300 in f32) arrives as infinity and is non-finite there.
+        let unrepresentable = !input.measurement.is_finite() || !input.setpoint.is_finite();
+        if !measured.is_finite() || unrepresentable {
             if !guarded {
                 expected = Status::NON_FINITE;
             }

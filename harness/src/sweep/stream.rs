@@ -127,22 +127,12 @@ pub struct Streamed {
 
 /// Refuses settings `backend` cannot hold, once for all variants.
 fn backend_accepts(scenario: &Scenario, backend: BackendKind) -> Result<(), SweepError> {
-    let refused = |backend_name, error| crate::RunError::Config {
-        backend: backend_name,
-        error,
+    let result = match backend {
+        BackendKind::Fixed => Config::<I16F16>::try_new(&scenario.controller).map(drop),
+        BackendKind::F32 => Config::<f32>::try_new(&scenario.controller).map(drop),
+        BackendKind::F64 => Config::<f64>::try_new(&scenario.controller).map(drop),
     };
-    match backend {
-        BackendKind::Fixed => Config::<I16F16>::try_new(&scenario.controller)
-            .map(drop)
-            .map_err(|e| refused("fixed", e))?,
-        BackendKind::F32 => Config::<f32>::try_new(&scenario.controller)
-            .map(drop)
-            .map_err(|e| refused("f32", e))?,
-        BackendKind::F64 => Config::<f64>::try_new(&scenario.controller)
-            .map(drop)
-            .map_err(|e| refused("f64", e))?,
-    }
-    Ok(())
+    result.map_err(|e| SweepError::Run(scenario.refused(backend.name(), e)))
 }
 
 /// Runs the variants of `scenario.uncertainty` chosen by `plan` (all, or
