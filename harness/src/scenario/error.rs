@@ -183,25 +183,32 @@ pub(crate) fn number_text(x: f64) -> String {
     }
 }
 
-/// Edit distance (insertions, deletions, substitutions) between `a` and
-/// `b`, by the usual dynamic programme over one row (Levenshtein, 1965;
-/// from memory).
+/// Edit distance (insertions, deletions, substitutions and swaps of two
+/// neighbours) between `a` and `b`: the optimal-string-alignment form of
+/// the Damerau–Levenshtein distance (Damerau, 1964; from memory).
 #[must_use]
 pub(crate) fn edit_distance(a: &str, b: &str) -> usize {
-    let b: Vec<char> = b.chars().collect();
-    let mut row: Vec<usize> = (0..=b.len()).collect();
-    for (i, ca) in a.chars().enumerate() {
-        let mut diagonal = row[0];
-        row[0] = i + 1;
-        for (j, &cb) in b.iter().enumerate() {
-            let above = row[j + 1];
-            row[j + 1] = (above + 1)
-                .min(row[j] + 1)
-                .min(diagonal + usize::from(ca != cb));
-            diagonal = above;
+    let (a, b): (Vec<char>, Vec<char>) = (a.chars().collect(), b.chars().collect());
+    let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
+    for (i, row) in d.iter_mut().enumerate() {
+        row[0] = i;
+    }
+    for j in 0..=b.len() {
+        d[0][j] = j;
+    }
+    for i in 1..=a.len() {
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            let mut best = (d[i - 1][j] + 1)
+                .min(d[i][j - 1] + 1)
+                .min(d[i - 1][j - 1] + cost);
+            if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
+                best = best.min(d[i - 2][j - 2] + 1);
+            }
+            d[i][j] = best;
         }
     }
-    row[b.len()]
+    d[a.len()][b.len()]
 }
 
 /// The candidate closest to `word` if it is close enough to be a slip
@@ -257,6 +264,7 @@ mod tests {
     fn did_you_mean() {
         assert_eq!(edit_distance("mass_kgs", "mass_kg"), 1);
         assert_eq!(edit_distance("", "abc"), 3);
+        assert_eq!(edit_distance("gian", "gain"), 1);
         assert_eq!(
             closest("mass_kgs", &["model", "mass_kg", "crr"]),
             Some("mass_kg")

@@ -18,6 +18,7 @@ pub const ENVELOPE_BUCKETS: usize = MAX_POINTS / 2;
 /// Min and max are exact and order-free, so shards merge into the same
 /// envelope as one run.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Envelope {
     /// Controller period, s (sample `k` is at `k·dt_s`).
     pub dt_s: f64,

@@ -24,6 +24,7 @@ const CHUNK: usize = 1024;
 /// What a sweep is: everything but its variants' results. The first line
 /// of a result file.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct SweepHeader {
     /// Always [`HEADER_FORMAT`].
     pub format: String,

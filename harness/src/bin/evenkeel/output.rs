@@ -95,6 +95,10 @@ impl Outputs {
                 self.plan.file(flag, base)?;
                 continue;
             }
+            if base.as_os_str() == "-" {
+                self.plan
+                    .named_file(flag, base, &format!("{} runs, one file each", runs.len()))?;
+            }
             for (scenario, source, label) in runs {
                 let path = per_run_path(base, scenario, label, false);
                 let what = format!(
@@ -179,7 +183,22 @@ impl Outputs {
         } else {
             print!("{tables}");
         }
+        pause_for_tests(self.staging.len());
         self.staging.commit().context("writing the reports")
+    }
+}
+
+/// Test hook (DEVELOPERS.md): with `EVENKEEL_TEST_PAUSE_BEFORE_COMMIT_MS`
+/// set, waits that long once every output is staged and before any is
+/// renamed into place, and says so on standard error, so that a test can
+/// interrupt a run at exactly that point. Without it, nothing.
+fn pause_for_tests(staged: usize) {
+    if let Some(ms) = std::env::var("EVENKEEL_TEST_PAUSE_BEFORE_COMMIT_MS")
+        .ok()
+        .and_then(|v| v.parse::<u64>().ok())
+    {
+        eprintln!("test hook: {staged} outputs staged, pausing {ms} ms before renaming them");
+        std::thread::sleep(std::time::Duration::from_millis(ms));
     }
 }
 
