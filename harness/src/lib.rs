@@ -14,7 +14,9 @@
 //! - [`compare`]: fixed point against `f64`, back to back, with tolerances from the formats
 //! - [`fault`]: fault injection (sensor, actuator, payload) and its checks
 //! - [`sweep`]: uncertain parameters, parallel sweeps, shards, envelopes
-//! - [`design`]: gain and limit design (SIMC, pole placement), margins at every corner
+//! - [`design`]: gains and limits that pass at every corner, or why none can
+//! - [`fit`]: the plant and its uncertainty box from logged tests
+//! - [`map`]: the robustness map over two uncertain parameters
 //!
 //! In a project's own tests, check a loop in a few lines:
 //!
@@ -38,6 +40,8 @@ pub mod criteria;
 pub mod design;
 pub mod fault;
 pub mod files;
+pub mod fit;
+pub mod map;
 pub mod metrics;
 pub mod outcome;
 pub mod plant;

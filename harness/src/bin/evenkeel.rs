@@ -18,6 +18,8 @@ use evenkeel_harness::{BackendKind, Outcome, Scenario, plot};
 mod compare;
 #[path = "evenkeel/design.rs"]
 mod design;
+#[path = "evenkeel/fit.rs"]
+mod fit;
 #[path = "evenkeel/output.rs"]
 mod output;
 #[path = "evenkeel/robust.rs"]
@@ -45,6 +47,10 @@ enum Command {
     /// of the real controller over corners and a Latin-hypercube sample,
     /// and a search while anything fails.
     Design(design::DesignArgs),
+    /// Fit a plant model to logged tests (step tests, closed-loop runs):
+    /// parameters with confidence intervals per log, the nominal plant
+    /// and the `[uncertainty]` box across the logs.
+    Fit(fit::FitArgs),
     /// Run scenarios with the fixed-point (Q16.16) and the f64 controller
     /// side by side and judge the difference against `[compare]`
     /// tolerances (derived from the formats when absent).
@@ -129,6 +135,7 @@ fn main() -> ExitCode {
         Command::Sweep(args) => robust::sweep(args),
         Command::Merge(args) => robust::merge(args),
         Command::Design(args) => design::run(args),
+        Command::Fit(args) => fit::run(args),
         Command::Compare(args) => compare::run(args),
     };
     match result {

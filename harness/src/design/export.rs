@@ -6,7 +6,7 @@ use serde_json::{Map, Value, json as j};
 
 use super::edit::{DesignedValue, designed_values};
 use super::{Severity, Tuned, point_label, verdict};
-use crate::report::{CAUTION, Failure, JunitXml, format_number};
+use crate::report::{CAUTION, Failure, HtmlPage, JunitXml, format_number};
 use crate::scenario::Scenario;
 
 fn number(x: f64) -> Value {
@@ -309,4 +309,142 @@ pub fn junit(s: &Scenario, t: &Tuned) -> String {
     }
     x.close_suite();
     x.finish()
+}
+
+/// The HTML report of `design`: verdict, what design changed that the user
+/// wrote, feasibility findings, the proposal, the per-criterion margins
+/// and constraints as tables, the design plot (`svg`, if drawn) and the
+/// full text report.
+#[must_use]
+pub fn html(s: &Scenario, t: &Tuned, svg: Option<&str>) -> String {
+    let mut p = HtmlPage::new(&format!("evenkeel design: {}", s.name), Some(t.passed()));
+    p.verdict(t.passed(), &verdict(t));
+    for n in &t.notices {
+        p.paragraph(&format!("NOTICE: {n}"));
+    }
+    p.heading(2, "Feasibility");
+    if t.feasibility.findings.is_empty() {
+        p.paragraph("feasible: no finding");
+    } else {
+        let rows: Vec<Vec<String>> = t
+            .feasibility
+            .findings
+            .iter()
+            .map(|f| {
+                vec![
+                    f.criterion.map_or("-".into(), |c| c.name().to_owned()),
+                    if f.severity == Severity::Infeasible {
+                        "FAIL".into()
+                    } else {
+                        "warning".into()
+                    },
+                    f.message.clone(),
+                    f.remedy.clone().unwrap_or_default(),
+                ]
+            })
+            .collect();
+        p.table(
+            &["criterion", "verdict", "finding", "would make it feasible"],
+            &rows,
+        );
+    }
+    p.heading(2, "Proposal");
+    let rows: Vec<Vec<String>> = designed_values(&t.settings)
+        .into_iter()
+        .map(|(k, v)| {
+            vec![
+                k.to_owned(),
+                match v {
+                    Some(DesignedValue::Number(x)) => format_number(Some(x)),
+                    Some(DesignedValue::Text(x)) => x.to_owned(),
+                    None => "none".into(),
+                },
+            ]
+        })
+        .collect();
+    p.table(&["[controller] key", "value"], &rows);
+    if let Some(v) = &t.verification {
+        p.heading(2, "Verification over the sample");
+        let rows: Vec<Vec<String>> = v
+            .criteria
+            .iter()
+            .map(|c| {
+                let pt = &v.points[c.binding];
+                vec![
+                    c.criterion.metric.name().to_owned(),
+                    format!(
+                        "{} {}",
+                        c.criterion.bound.symbol(),
+                        format_number(Some(c.criterion.limit))
+                    ),
+                    format_number(c.worst_value),
+                    format!("{:+.3}", c.worst_margin),
+                    if c.worst_margin >= 0.0 {
+                        "pass".into()
+                    } else {
+                        "FAIL".into()
+                    },
+                    format!("{}/{}", c.failing, v.variants.len()),
+                    format!(
+                        "#{} {} {}",
+                        c.binding,
+                        pt.origin.name(),
+                        point_label(s, &pt.values)
+                    ),
+                ]
+            })
+            .collect();
+        p.table(
+            &[
+                "criterion",
+                "limit",
+                "worst",
+                "margin",
+                "verdict",
+                "failing",
+                "binding variant",
+            ],
+            &rows,
+        );
+    }
+    p.heading(2, "Robustness constraints");
+    let rows: Vec<Vec<String>> = t
+        .constraints
+        .iter()
+        .map(|k| {
+            vec![
+                k.name.to_owned(),
+                format!("{} {}", k.bound.symbol(), format_number(Some(k.limit))),
+                format_number(Some(k.worst)),
+                format!("{:+.3}", k.margin),
+                if k.margin >= 0.0 {
+                    "pass".into()
+                } else {
+                    "FAIL".into()
+                },
+                k.corner.clone(),
+            ]
+        })
+        .collect();
+    p.table(
+        &[
+            "constraint",
+            "limit",
+            "worst",
+            "margin",
+            "verdict",
+            "corner",
+        ],
+        &rows,
+    );
+    if let Some(svg) = svg {
+        p.heading(2, "Loop at every corner, speed trade-off");
+        p.svg(
+            svg,
+            "frequency responses (magnitude, phase), Nyquist curves with the Ms circle, and the speed trade-off",
+        );
+    }
+    p.heading(2, "Full report");
+    p.preformatted(&super::report(s, t));
+    p.finish()
 }

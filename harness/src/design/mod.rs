@@ -61,7 +61,7 @@ use evenkeel::{Config, ConfigError, Settings};
 
 pub use analytic::design;
 pub use edit::{DesignedValue, HEADER_MARK, designed_values, rust_snippet, scenario_toml, snippet};
-pub use export::{json, junit};
+pub use export::{html, json, junit};
 pub use feasibility::{Feasibility, Finding, Severity, feasibility};
 pub use margins::{
     LinearPlant, LoopCoefficients, Margins, ResponsePoint, SampledLoop, frequency_response, margins,
@@ -71,7 +71,7 @@ pub use model::{
     reference_rate,
 };
 pub use output::{report, verdict};
-pub use plot::plot;
+pub use plot::{plot, plot_svg};
 pub use search::{Score, Stop};
 pub use tune::{
     DEFAULT_BUDGET, DEFAULT_COUNT, Options, SearchLog, StartPoint, TRADE_FACTORS, TradeOff,

@@ -10,7 +10,7 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::{LoopCoefficients, ResponsePoint, SampledLoop, TradeOff, Tuned, frequency_response};
-use crate::plot::{Figure, PlotError, draw_error, draw_page, write_figure};
+use crate::plot::{Figure, PlotError, draw_error, draw_page, render_svg, write_figure};
 use crate::scenario::Scenario;
 
 /// Family name of the vendored font (as in `crate::plot`).
@@ -24,6 +24,18 @@ const POINTS: usize = 600;
 /// # Errors
 /// [`PlotError`] for a wrong extension, a drawing or a writing failure.
 pub fn plot(s: &Scenario, t: &Tuned, trade: &TradeOff, path: &Path) -> Result<(), PlotError> {
+    write_figure(&figure(s, t, trade), path)
+}
+
+/// The design plot as an SVG document (for the HTML report).
+///
+/// # Errors
+/// [`PlotError::Draw`] for a drawing failure.
+pub fn plot_svg(s: &Scenario, t: &Tuned, trade: &TradeOff) -> Result<String, PlotError> {
+    render_svg(&figure(s, t, trade))
+}
+
+fn figure<'a>(s: &'a Scenario, t: &'a Tuned, trade: &'a TradeOff) -> DesignFigure<'a> {
     let coeffs = super::loop_coefficients(&t.settings);
     let curves: Vec<(String, f64, Vec<ResponsePoint>)> = coeffs
         .map(|c: LoopCoefficients| {
@@ -39,15 +51,12 @@ pub fn plot(s: &Scenario, t: &Tuned, trade: &TradeOff, path: &Path) -> Result<()
                 .collect()
         })
         .unwrap_or_default();
-    write_figure(
-        &DesignFigure {
-            s,
-            t,
-            trade,
-            curves,
-        },
-        path,
-    )
+    DesignFigure {
+        s,
+        t,
+        trade,
+        curves,
+    }
 }
 
 struct DesignFigure<'a> {

@@ -28,16 +28,19 @@ pub enum Origin {
     Centre,
     /// A Latin-hypercube draw.
     Hypercube,
+    /// A point of a regular grid (the robustness map).
+    Grid,
 }
 
 impl Origin {
-    /// `corner`, `centre` or `hypercube`.
+    /// `corner`, `centre`, `hypercube` or `grid`.
     #[must_use]
     pub const fn name(self) -> &'static str {
         match self {
             Self::Corner => "corner",
             Self::Centre => "centre",
             Self::Hypercube => "hypercube",
+            Self::Grid => "grid",
         }
     }
 }

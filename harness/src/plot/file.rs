@@ -14,6 +14,21 @@ pub(crate) trait Figure {
     fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError>;
 }
 
+/// Draws `figure` as an SVG document in memory (for the HTML report).
+///
+/// # Errors
+/// [`PlotError::Draw`] for a drawing failure.
+pub(crate) fn render_svg(figure: &impl Figure) -> Result<String, PlotError> {
+    register();
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+        figure.draw(&root)?;
+        root.present().map_err(|e| PlotError::Draw(e.to_string()))?;
+    }
+    Ok(svg)
+}
+
 /// Draws `figure` into `path` (`.svg` or `.png`), atomically.
 ///
 /// # Errors

@@ -30,7 +30,7 @@ mod page;
 mod run;
 mod series;
 
-pub(crate) use file::{Figure, write_figure};
+pub(crate) use file::{Figure, render_svg, write_figure};
 pub(crate) use page::{
     LabelledLine, draw_error, draw_grid, draw_labelled_line, draw_legend_box, draw_limit_lines,
     draw_page, time_panel,

@@ -4,6 +4,7 @@
 //! Every report except the CSV time series carries [`CAUTION`].
 
 mod csv;
+mod html;
 mod json;
 mod junit;
 mod table;
@@ -12,6 +13,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 pub use csv::{trace_csv, write_trace_csv};
+pub use html::{HtmlPage, html_escape};
 pub use json::json;
 pub(crate) use junit::{Failure, JunitXml};
 pub use junit::{junit, xml_escape};

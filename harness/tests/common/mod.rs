@@ -75,3 +75,52 @@ pub fn assert_exit(out: &Output, code: i32) {
         text(&out.stderr)
     );
 }
+
+/// Debian's Chromium, if installed (`.ci/run` installs it).
+pub fn chromium() -> Option<PathBuf> {
+    ["/usr/bin/chromium", "/usr/bin/chromium-browser"]
+        .into_iter()
+        .map(PathBuf::from)
+        .find(|p| p.exists())
+}
+
+/// Renders `page` (an HTML file) in headless Chromium: the screenshot's
+/// path and the console messages the page caused (errors and warnings).
+/// `None` (with a message on standard error) when no browser is installed.
+pub fn render_in_browser(page: &Path, out_dir: &Path) -> Option<(PathBuf, Vec<String>)> {
+    let Some(browser) = chromium() else {
+        eprintln!(
+            "SKIP: no Chromium at /usr/bin/chromium (apt-get install chromium); the page was not rendered"
+        );
+        return None;
+    };
+    let shot = out_dir.join("screenshot.png");
+    let profile = out_dir.join("chromium-profile");
+    let url = format!("file://{}", page.canonicalize().unwrap().display());
+    let out = Command::new(browser)
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-quic",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+            "--enable-logging=stderr",
+            "--v=0",
+            "--window-size=1250,2000",
+        ])
+        .arg(format!("--user-data-dir={}", profile.display()))
+        .arg(format!("--screenshot={}", shot.display()))
+        .arg(&url)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "chromium: {}", text(&out.stderr));
+    let console = text(&out.stderr)
+        .lines()
+        .filter(|l| l.contains(":CONSOLE"))
+        .map(str::to_owned)
+        .collect();
+    Some((shot, console))
+}

@@ -59,6 +59,10 @@ pub struct DesignArgs {
     /// trade-off, SVG or PNG by extension.
     #[arg(long, value_name = "PATH")]
     plot: Option<PathBuf>,
+    /// One self-contained HTML report (verdict, tables, the design plot
+    /// inline, the caution) to PATH.
+    #[arg(long, value_name = "PATH")]
+    html: Option<PathBuf>,
     /// Write the scenario with the designed values put in (the file as
     /// written otherwise) to PATH; refuses the input file itself.
     #[arg(long, value_name = "PATH", conflicts_with = "in_place")]
@@ -86,6 +90,7 @@ fn plan_outputs(args: &DesignArgs) -> anyhow::Result<Outputs> {
     out.file("--json", args.json.as_deref())?;
     out.file("--junit", args.junit.as_deref())?;
     out.plot("--plot", args.plot.as_deref())?;
+    out.file("--html", args.html.as_deref())?;
     if let Some(p) = args.scenario_out.as_deref() {
         out.file("--scenario-out", Some(p)).map_err(|e| {
             if e.to_string().contains("is an input") {
@@ -191,9 +196,14 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
             }
         ));
     }
-    if let Some(path) = &args.plot {
-        let trade = design::trade_off(&scenario, &tuned.settings, options.backend, options.seed);
-        out.drawn(path, |p| Ok(design::plot(&scenario, &tuned, &trade, p)?))?;
+    let trade = (args.plot.is_some() || args.html.is_some())
+        .then(|| design::trade_off(&scenario, &tuned.settings, options.backend, options.seed));
+    if let (Some(path), Some(trade)) = (&args.plot, &trade) {
+        out.drawn(path, |p| Ok(design::plot(&scenario, &tuned, trade, p)?))?;
+    }
+    if let (Some(path), Some(trade)) = (&args.html, &trade) {
+        let svg = design::plot_svg(&scenario, &tuned, trade)?;
+        out.bytes(path, design::html(&scenario, &tuned, Some(&svg)).as_bytes())?;
     }
     out.json(args.json.as_deref(), || design::json(&scenario, &tuned))?;
     out.text(args.junit.as_deref(), || design::junit(&scenario, &tuned))?;

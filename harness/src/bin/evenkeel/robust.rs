@@ -26,9 +26,19 @@ pub struct SweepArgs {
     /// Variants for random and latin-hypercube sampling.
     #[arg(long)]
     count: Option<usize>,
-    /// Values per parameter for grid sampling.
+    /// Values per parameter for grid sampling (and for --map, default 21).
     #[arg(long)]
     levels: Option<usize>,
+    /// Also draw the robustness map over two uncertain parameters
+    /// (`X,Y`, keys of `[uncertainty]`; the others at their centre): the
+    /// worst criterion margin as colour, the pass boundary, the binding
+    /// criterion per region. Its points count in the exit status.
+    #[arg(long, value_name = "X,Y")]
+    map: Option<String>,
+    /// Where the map goes (SVG or PNG by extension); without it the map is
+    /// summarised in the table only.
+    #[arg(long, value_name = "PATH", requires = "map")]
+    map_plot: Option<PathBuf>,
     /// Seed of the draws and of every variant's sensor noise.
     #[arg(long)]
     seed: Option<u64>,
@@ -183,6 +193,16 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
         plan.seed = s;
     }
     let backend = args.backend.kind();
+    let map = match &args.map {
+        Some(spec) => {
+            let (x, y) = spec.split_once(',').with_context(|| {
+                format!("--map {spec}: expected two parameters X,Y, e.g. mass_kg,actuator_gain_n")
+            })?;
+            Some((x.trim().to_owned(), y.trim().to_owned()))
+        }
+        None => None,
+    };
+    out.plot("--map-plot", args.map_plot.as_deref())?;
     let total = plan.size(scenario.uncertainty.len())?;
     let todo = args.shard.map_or(total, |s| s.range(total).len());
     if let Some(t) = args.threads {
@@ -228,7 +248,34 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
     }
     progress.finish();
     let streamed = streamed.context("the sweep did not run")?;
-    report(out, &scenario, &streamed, &args.out)
+    let map_passed = match &map {
+        Some((x, y)) => {
+            let m = evenkeel_harness::map::robustness_map(
+                &scenario,
+                x,
+                y,
+                args.levels.unwrap_or(21),
+                backend,
+            )?;
+            let total = m.xs.len() * m.ys.len();
+            eprintln!(
+                "map over {} and {} ({} x {} points, the other parameters at their centre): {} of {total} pass",
+                m.x,
+                m.y,
+                m.xs.len(),
+                m.ys.len(),
+                m.passing()
+            );
+            if let Some(p) = &args.map_plot {
+                out.drawn(p, |path| {
+                    Ok(evenkeel_harness::map::plot(&scenario, &m, path)?)
+                })?;
+            }
+            m.passing() == total
+        }
+        None => true,
+    };
+    Ok(report(out, &scenario, &streamed, &args.out)? && map_passed)
 }
 
 /// Prints the estimated duration of a sweep that will take a while
