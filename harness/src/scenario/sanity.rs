@@ -14,8 +14,9 @@
 //!   `tanh(v/v_ε)`) `λ = C_rr·g/v_ε`;
 //! - rotor: `λ = (b + 2·c·|ω|)/J`.
 //!
-//! The speed bound is the larger of the reference, the initial output and
-//! the speed at which drag balances the full command (full authority).
+//! The speed bound is twice the largest speed the reference or the initial
+//! output asks for (at least 1), capped by the speed at which drag balances
+//! the full command (full authority).
 //! The integrator and the first-order lag are solved exactly: no bound.
 
 use super::error::number_text;
@@ -50,6 +51,15 @@ fn asked_speed(s: &Scenario) -> f64 {
     lo.abs().max(hi.abs()).max(s.initial_output.abs())
 }
 
+/// The speed the check assumes the loop can reach: twice the largest
+/// the reference asks for (at least 1 in the output's unit: a loop can
+/// overshoot), but no more than full authority gives (`terminal`, where
+/// drag balances the full command; 0 when unknown).
+fn reach(asked: f64, terminal: f64) -> f64 {
+    let v = (2.0 * asked).max(1.0);
+    if terminal > 0.0 { v.min(terminal) } else { v }
+}
+
 /// RK4 step of the plant, s.
 fn step_s(s: &Scenario, substeps: u32) -> f64 {
     let outer = s.actuator.map_or(1, |a| a.substeps.max(1));
@@ -76,7 +86,7 @@ pub(crate) fn physical(s: &Scenario) -> Result<(), Insane> {
             let drag = p.air_density_kg_m3 * p.cda_m2;
             if drag > 0.0 {
                 let force = p.actuator_gain_n.abs() * authority(s);
-                let v = asked_speed(s).max((2.0 * force / drag).sqrt());
+                let v = reach(asked_speed(s), (2.0 * force / drag).sqrt());
                 let min_mass = drag * v * h / RK4_LIMIT;
                 if !(p.mass_kg >= min_mass) {
                     return Err(Insane {
@@ -111,7 +121,7 @@ pub(crate) fn physical(s: &Scenario) -> Result<(), Insane> {
             } else {
                 0.0
             };
-            let w = asked_speed(s).max(terminal);
+            let w = reach(asked_speed(s), terminal);
             let stiffness = b + 2.0 * c * w;
             let min_inertia = stiffness * h / RK4_LIMIT;
             if stiffness > 0.0 && !(p.inertia_kg_m2 >= min_inertia) {
