@@ -62,7 +62,7 @@ pub enum RunError {
         /// The controller's reason.
         error: evenkeel::ConfigError,
         /// Where the setting is written, with the message.
-        location: crate::scenario::ScenarioError,
+        location: Box<crate::scenario::ScenarioError>,
     },
     /// The plant's state stopped being a finite number: the model is
     /// meaningless for these values (or the loop drove it there).

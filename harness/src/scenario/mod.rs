@@ -318,7 +318,7 @@ impl Scenario {
             Some(location) => RunError::Refused {
                 backend,
                 error,
-                location,
+                location: Box::new(location),
             },
             None => RunError::Config { backend, error },
         }

@@ -88,7 +88,7 @@ pub(crate) fn physical(s: &Scenario) -> Result<(), Insane> {
                 let force = p.actuator_gain_n.abs() * authority(s);
                 let v = reach(asked_speed(s), (2.0 * force / drag).sqrt());
                 let min_mass = drag * v * h / RK4_LIMIT;
-                if !(p.mass_kg >= min_mass) {
+                if p.mass_kg.is_nan() || p.mass_kg < min_mass {
                     return Err(Insane {
                         key: "mass_kg",
                         message: format!(
@@ -124,7 +124,7 @@ pub(crate) fn physical(s: &Scenario) -> Result<(), Insane> {
             let w = reach(asked_speed(s), terminal);
             let stiffness = b + 2.0 * c * w;
             let min_inertia = stiffness * h / RK4_LIMIT;
-            if stiffness > 0.0 && !(p.inertia_kg_m2 >= min_inertia) {
+            if stiffness > 0.0 && (p.inertia_kg_m2.is_nan() || p.inertia_kg_m2 < min_inertia) {
                 return Err(Insane {
                     key: "inertia_kg_m2",
                     message: format!(

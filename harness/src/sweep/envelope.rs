@@ -190,7 +190,11 @@ impl Envelope {
                     band[1].len()
                 ));
             }
-            if let Some(b) = (0..buckets).find(|&b| !(band[0][b] <= band[1][b])) {
+            if let Some(b) = (0..buckets).find(|&b| {
+                band[0][b]
+                    .partial_cmp(&band[1][b])
+                    .is_none_or(std::cmp::Ordering::is_gt)
+            }) {
                 return Err(format!(
                     "envelope `{name}`: bucket {b} has lower bound {} above upper bound {}",
                     band[0][b], band[1][b]
