@@ -59,6 +59,12 @@ pub fn register_temp(
     Ok((path, file))
 }
 
+/// Removes the temporary file `temp` and forgets it.
+fn discard(temp: &Path) {
+    let _ = std::fs::remove_file(temp);
+    unregister_temp(temp);
+}
+
 /// Forgets `path` (renamed into place or removed).
 pub fn unregister_temp(path: &Path) {
     live().retain(|p| p != path);
@@ -223,8 +229,7 @@ impl Staging {
         match write(&temp) {
             Ok(()) if to_stdout => {
                 let read = std::fs::read(&temp);
-                let _ = std::fs::remove_file(&temp);
-                unregister_temp(&temp);
+                discard(&temp);
                 self.stdout.push(read?);
                 Ok(())
             }
@@ -233,8 +238,7 @@ impl Staging {
                 Ok(())
             }
             Err(e) => {
-                let _ = std::fs::remove_file(&temp);
-                unregister_temp(&temp);
+                discard(&temp);
                 Err(e)
             }
         }
@@ -258,17 +262,12 @@ impl Staging {
         target: &Path,
         result: std::io::Result<()>,
     ) -> std::io::Result<()> {
-        match result {
-            Ok(()) => {
-                self.push(temp, target);
-                Ok(())
-            }
-            Err(e) => {
-                let _ = std::fs::remove_file(&temp);
-                unregister_temp(&temp);
-                Err(e)
-            }
+        if result.is_ok() {
+            self.push(temp, target);
+        } else {
+            discard(&temp);
         }
+        result
     }
 
     fn push(&mut self, temp: PathBuf, target: &Path) {
