@@ -3,6 +3,7 @@
 use std::fmt;
 
 use crate::metrics::Metrics;
+use crate::undefined::Undefined;
 
 /// One metric of [`Metrics`], by its serialised key.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -121,6 +122,30 @@ impl MetricKey {
     }
 }
 
+impl MetricKey {
+    /// Why the metric is undefined for `m`, when [`MetricKey::value`] is
+    /// `None` or not a finite number.
+    #[must_use]
+    pub fn undefined(self, m: &Metrics) -> Option<Undefined> {
+        let why = match self {
+            Self::RiseTime => m.undefined.rise_time_s,
+            Self::SettlingTime => m.undefined.settling_time_s,
+            Self::Overshoot => m.undefined.overshoot_pct,
+            Self::SteadyStateError => m.undefined.steady_state_error,
+            Self::TimeSaturated => m.undefined.time_saturated_s,
+            Self::FaultRecovery => m.faults.undefined.fault_recovery_s,
+            Self::FaultReturnJump => m.faults.undefined.fault_return_jump,
+            Self::FaultOvershoot => m.faults.undefined.fault_overshoot,
+            _ => None,
+        };
+        match self.value(m) {
+            Some(v) if v.is_nan() => Some(Undefined::NotFinite),
+            Some(_) => None,
+            None => Some(why.unwrap_or(Undefined::Empty)),
+        }
+    }
+}
+
 impl fmt::Display for MetricKey {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         f.write_str(self.name())
@@ -205,15 +230,37 @@ impl Criterion {
     /// ```
     #[must_use]
     pub fn evaluate(&self, metrics: &Metrics) -> Verdict {
-        let measured = self.metric.value(metrics);
-        let pass = measured.is_some_and(|m| match self.bound {
-            Bound::Max => m <= self.limit,
-            Bound::Min => m >= self.limit,
-        });
+        let undefined = self.metric.undefined(metrics);
+        let measured = self.metric.value(metrics).filter(|_| undefined.is_none());
         Verdict {
             criterion: self.clone(),
             measured,
-            pass,
+            pass: self.passes(measured, undefined),
+            undefined,
+        }
+    }
+
+    /// Whether `measured` meets the limit; an undefined value (`None`)
+    /// fails unless its reason says the metric does not apply
+    /// ([`Undefined::passes`]). This is the one rule every verdict uses,
+    /// `merge` included.
+    ///
+    /// ```
+    /// use evenkeel_harness::criteria::{Criterion, MetricKey};
+    /// use evenkeel_harness::undefined::Undefined;
+    /// let c = Criterion::max(MetricKey::FaultReturnJump, 0.1);
+    /// assert!(c.passes(Some(0.05), None));
+    /// assert!(!c.passes(None, Some(Undefined::NotRecovered)));
+    /// assert!(c.passes(None, Some(Undefined::OnlyPayload)));
+    /// ```
+    #[must_use]
+    pub fn passes(&self, measured: Option<f64>, undefined: Option<Undefined>) -> bool {
+        match measured {
+            Some(m) if !m.is_nan() => match self.bound {
+                Bound::Max => m <= self.limit,
+                Bound::Min => m >= self.limit,
+            },
+            _ => undefined.is_some_and(Undefined::passes),
         }
     }
 }
@@ -267,6 +314,8 @@ pub struct Verdict {
     pub measured: Option<f64>,
     /// `true` when the requirement is met.
     pub pass: bool,
+    /// Why the metric is undefined, when it is.
+    pub undefined: Option<Undefined>,
 }
 
 /// Evaluates every criterion.

@@ -28,7 +28,9 @@
 use evenkeel::Status;
 use evenkeel::monitor::{Diagnostics, MonitorSettings};
 
+use crate::profile::Windows;
 use crate::sim::Recording;
+use crate::undefined::Undefined;
 
 /// What goes wrong.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -100,11 +102,17 @@ impl Fault {
 }
 
 /// Applies faults sample by sample (keeps the value a dropout holds).
+///
+/// The faults active at the time of the last [`Injector::sensor`] call are
+/// kept by [`Windows`] (a list that moves with time), so a run of `n`
+/// samples over `m` faults costs `O(n·a + m log m)` with `a` faults
+/// active at once, not `O(n·m)`. Faults act in file order, as written.
 #[derive(Debug, Clone)]
 pub struct Injector<'a> {
     faults: &'a [Fault],
     last_reading: f64,
     held: Vec<Option<f64>>,
+    windows: Windows,
 }
 
 impl<'a> Injector<'a> {
@@ -115,23 +123,37 @@ impl<'a> Injector<'a> {
             faults,
             last_reading: 0.0,
             held: vec![None; faults.len()],
+            windows: Windows::new(faults.iter().map(|f| (f.start_s, f.duration_s))),
+        }
+    }
+
+    /// The faults active at `t_s`, in file order: from the window list
+    /// when it is at `t_s`, else by a scan.
+    fn each_active(&self, t_s: f64, mut f: impl FnMut(&Fault)) {
+        match self.windows.active_if_at(t_s) {
+            Some(active) => active.iter().for_each(|&i| f(&self.faults[i])),
+            None => self.faults.iter().filter(|x| x.active(t_s)).for_each(f),
         }
     }
 
     /// `true` if a sensor or actuator fault is active at `t_s`.
     #[must_use]
     pub fn any_active(&self, t_s: f64) -> bool {
-        self.faults
-            .iter()
-            .any(|f| f.active(t_s) && !matches!(f.kind, FaultKind::PayloadChange(_)))
+        let mut any = false;
+        self.each_active(t_s, |f| {
+            any |= !matches!(f.kind, FaultKind::PayloadChange(_))
+        });
+        any
     }
 
     /// `true` if a payload change is in force at `t_s`.
     #[must_use]
     pub fn payload_changed(&self, t_s: f64) -> bool {
-        self.faults
-            .iter()
-            .any(|f| f.active(t_s) && matches!(f.kind, FaultKind::PayloadChange(_)))
+        let mut any = false;
+        self.each_active(t_s, |f| {
+            any |= matches!(f.kind, FaultKind::PayloadChange(_))
+        });
+        any
     }
 
     /// `true` if the scenario has an actuator fault (the harness then
@@ -144,13 +166,12 @@ impl<'a> Injector<'a> {
 
     /// The reading the controller gets at `t_s` instead of `reading`.
     pub fn sensor(&mut self, t_s: f64, reading: f64) -> f64 {
+        let held = &mut self.held;
+        let active = self.windows.active_at(t_s, |i| held[i] = None);
         let mut out = reading;
-        for (fault, held) in self.faults.iter().zip(self.held.iter_mut()) {
-            if !fault.active(t_s) {
-                *held = None;
-                continue;
-            }
-            out = match fault.kind {
+        for &i in active {
+            let held = &mut self.held[i];
+            out = match self.faults[i].kind {
                 FaultKind::NonFinite => f64::NAN,
                 FaultKind::Stuck(v) | FaultKind::OutOfRange(v) => v,
                 FaultKind::Dropout => *held.get_or_insert(self.last_reading),
@@ -167,26 +188,27 @@ impl<'a> Injector<'a> {
     /// What the actuator applies at `t_s` when `drive` is commanded.
     #[must_use]
     pub fn actuator(&self, t_s: f64, drive: f64) -> f64 {
-        self.faults
-            .iter()
-            .filter(|f| f.active(t_s))
-            .fold(drive, |u, f| match f.kind {
+        let mut u = drive;
+        self.each_active(t_s, |f| {
+            u = match f.kind {
                 FaultKind::ActuatorOverride(v) => v,
                 FaultKind::ActuatorClip { min, max } => u.clamp(min, max),
                 _ => u,
-            })
+            };
+        });
+        u
     }
 
     /// Factor on the plant's command gain at `t_s`.
     #[must_use]
     pub fn gain_factor(&self, t_s: f64) -> f64 {
-        self.faults
-            .iter()
-            .filter(|f| f.active(t_s))
-            .fold(1.0, |g, f| match f.kind {
-                FaultKind::PayloadChange(k) => g * k,
-                _ => g,
-            })
+        let mut g = 1.0;
+        self.each_active(t_s, |f| {
+            if let FaultKind::PayloadChange(k) = f.kind {
+                g *= k;
+            }
+        });
+        g
     }
 }
 
@@ -242,7 +264,8 @@ pub struct FaultMetrics {
     /// a payload change, both sudden changes of the plant) until the true
     /// output is back within the error band of the reference for good
     /// (until the next fault or the end); `None` without faults, without a
-    /// band, or when a fault is never recovered from.
+    /// band, when a fault is never recovered from, or when a sensor or
+    /// actuator fault is still active at the end of the run.
     pub fault_recovery_s: Option<f64>,
     /// `fault_return_jump`: the largest jump, over the sensor and actuator
     /// faults, from the actuator's last value in a fault to the first
@@ -254,6 +277,19 @@ pub struct FaultMetrics {
     /// either way), measurement units. A payload change is a disturbance,
     /// judged by the recovery time only.
     pub fault_overshoot: Option<f64>,
+    /// Why each of the above is `None`, when it is.
+    pub undefined: FaultReasons,
+}
+
+/// Why the fault metrics of [`FaultMetrics`] are undefined.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct FaultReasons {
+    /// For [`FaultMetrics::fault_recovery_s`].
+    pub fault_recovery_s: Option<Undefined>,
+    /// For [`FaultMetrics::fault_return_jump`].
+    pub fault_return_jump: Option<Undefined>,
+    /// For [`FaultMetrics::fault_overshoot`].
+    pub fault_overshoot: Option<Undefined>,
 }
 
 /// Fault episodes: `(first, end)` sample ranges where a fault was active
@@ -310,25 +346,42 @@ pub fn assess(rec: &Recording, band: Option<f64>) -> FaultMetrics {
     let eps = episodes(&f.active);
     let loads = episodes(&f.payload);
     if eps.is_empty() && loads.is_empty() {
+        m.undefined = FaultReasons {
+            fault_recovery_s: Some(Undefined::NoFaults),
+            fault_return_jump: Some(Undefined::NoFaults),
+            fault_overshoot: Some(Undefined::NoFaults),
+        };
         return m;
     }
     let n = rec.time_s.len();
     // Where a disturbance begins: a fault, or either edge of a payload change.
     let mut starts: Vec<usize> = eps.iter().map(|e| e.0).collect();
     starts.extend(loads.iter().flat_map(|&(s, e)| [s, e]));
+    starts.sort_unstable();
+    // A sensor or actuator fault still active at the last sample never
+    // ended: there is no recovery to measure (a payload change in force
+    // at the end is judged from its onset).
+    let fault_at_end = eps.iter().any(|e| e.1 >= n);
     // Events to recover from: (sample, judge the return for a kick).
     let mut events: Vec<(usize, bool)> = eps.iter().map(|e| (e.1, true)).collect();
     events.extend(loads.iter().flat_map(|&(s, e)| [(s, false), (e, false)]));
     events.retain(|e| e.0 < n);
     events.sort_unstable();
     let (mut recovery, mut jump, mut overshoot) = (Some(0.0_f64), 0.0_f64, 0.0_f64);
+    let mut recovery_why = if band.is_none() {
+        Some(Undefined::NoBand)
+    } else if fault_at_end {
+        recovery = None;
+        Some(Undefined::FaultAtEnd)
+    } else {
+        None
+    };
     let mut kicks = false;
     for &(end, kick) in &events {
+        // The next disturbance after `end` (bisection over the sorted starts).
         let until = starts
-            .iter()
+            .get(starts.partition_point(|&s| s <= end))
             .copied()
-            .filter(|&s| s > end)
-            .min()
             .unwrap_or(n);
         let err = |k: usize| rec.reference[k] - rec.output[k];
         if kick {
@@ -351,11 +404,31 @@ pub fn assess(rec: &Recording, band: Option<f64>) -> FaultMetrics {
                 let back = last_out.map_or(end, |k| k + 1);
                 #[allow(clippy::cast_precision_loss)]
                 let t = (back - end) as f64 * rec.dt_s;
-                (back < until).then_some(worst.max(t))
+                let back_in_time = back < until;
+                if !back_in_time {
+                    recovery_why = Some(Undefined::NotRecovered);
+                }
+                back_in_time.then_some(worst.max(t))
             }
             _ => None,
         };
     }
+    if recovery.is_none() && recovery_why.is_none() {
+        recovery_why = Some(Undefined::NotRecovered);
+    }
+    let kick_why = if kicks {
+        None
+    } else if eps.is_empty() {
+        Some(Undefined::OnlyPayload)
+    } else {
+        // Every sensor or actuator fault lasts to the end.
+        Some(Undefined::FaultAtEnd)
+    };
+    m.undefined = FaultReasons {
+        fault_recovery_s: recovery_why,
+        fault_return_jump: kick_why,
+        fault_overshoot: kick_why,
+    };
     m.fault_recovery_s = recovery;
     if kicks {
         m.fault_return_jump = Some(jump);

@@ -7,9 +7,10 @@
 //! - [`profile`]: piecewise references and disturbances
 //! - [`sim`]: the closed loop, zero-order hold, override windows
 //! - [`metrics`]: step-response, effort and saturation metrics of a trace
-//! - [`criteria`]: limits on metrics, evaluated into verdicts
+//! - [`criteria`]: limits on metrics, evaluated into verdicts; [`undefined`]: why a metric has no value
 //! - [`outcome`]: runs per backend, [`Outcome::assert_pass`]
 //! - [`report`]: table, JSON, JUnit XML, CSV; [`plot`]: SVG/PNG
+//! - [`files`]: derived file names, output checks, all-or-nothing writing
 //! - [`compare`]: fixed point against `f64`, back to back, with tolerances from the formats
 //! - [`fault`]: fault injection (sensor, actuator, payload) and its checks
 //! - [`sweep`]: uncertain parameters, parallel sweeps, shards, envelopes
@@ -39,6 +40,7 @@ pub mod compare;
 pub mod criteria;
 pub mod design;
 pub mod fault;
+pub mod files;
 pub mod fit;
 pub mod map;
 pub mod metrics;
@@ -51,6 +53,7 @@ pub mod report;
 pub mod scenario;
 pub mod sim;
 pub mod sweep;
+pub mod undefined;
 
 pub use outcome::{BackendKind, BackendRun, Outcome, RunError};
 pub use report::CAUTION;

@@ -8,7 +8,10 @@
 //! use the rectangle rule with each sample held for `dt_s`, matching the
 //! zero-order hold of the simulation; crossing instants are interpolated
 //! linearly between samples; a metric that is undefined for the trace (no
-//! step, no limits given, …) is `None`.
+//! step, no limits given, …) is `None`, and [`Metrics::undefined`] says
+//! why ([`Undefined`]).
+
+use crate::undefined::Undefined;
 
 /// A uniformly sampled closed-loop trace: all slices have the same length.
 #[derive(Debug, Clone, Copy)]
@@ -133,6 +136,45 @@ pub struct Metrics {
     /// Fault checks ([`crate::fault::assess`]); left empty by [`compute`],
     /// filled in by [`crate::outcome::BackendRun::assess`].
     pub faults: crate::fault::FaultMetrics,
+    /// Why each optional metric above is `None`, when it is.
+    pub undefined: Reasons,
+}
+
+/// Why the optional metrics of [`Metrics`] are undefined (`None` where
+/// the metric has a value).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Reasons {
+    /// For [`Metrics::rise_time_s`].
+    pub rise_time_s: Option<Undefined>,
+    /// For [`Metrics::settling_time_s`].
+    pub settling_time_s: Option<Undefined>,
+    /// For [`Metrics::overshoot_pct`].
+    pub overshoot_pct: Option<Undefined>,
+    /// For [`Metrics::steady_state_error`].
+    pub steady_state_error: Option<Undefined>,
+    /// For [`Metrics::time_saturated_s`].
+    pub time_saturated_s: Option<Undefined>,
+}
+
+/// `true` when the output reaches `level` of the step (normalised) at
+/// some sample from the step on.
+fn reaches(output: &[f64], step: &Step, level: f64) -> bool {
+    step.size() != 0.0 && normalised(output, step).any(|(_, p)| p >= level)
+}
+
+/// Why a step metric that came out `None` is undefined: no step, the
+/// loop never moved, or `otherwise`.
+fn step_reason(output: &[f64], step: Option<&Step>, otherwise: Undefined) -> Undefined {
+    match step {
+        Some(s) if s.size() != 0.0 => {
+            if reaches(output, s, 0.1) {
+                otherwise
+            } else {
+                Undefined::NeverMoved
+            }
+        }
+        _ => Undefined::NoStep,
+    }
 }
 
 /// A trace or option that [`compute`] cannot use.
@@ -248,11 +290,33 @@ pub fn compute(trace: &Trace<'_>, options: &MetricOptions) -> Result<Metrics, Me
     let error_band = options
         .error_band
         .or_else(|| step.map(|s| band * s.size().abs()).filter(|b| *b > 0.0));
+    let rise = step.and_then(|s| rise_time_s(y, dt, &s));
+    let settling = step.and_then(|s| settling_time_s(y, dt, &s, band));
+    // A loop that never reached 10 % of its step has no overshoot to speak
+    // of: undefined (it would pass as 0).
+    let overshoot = step
+        .filter(|s| reaches(y, s, 0.1))
+        .and_then(|s| overshoot_pct(y, &s));
+    let steady = steady_state_error(r, y, dt, window);
+    let why = |value: Option<f64>, reason: Undefined| value.is_none().then_some(reason);
+    let undefined = Reasons {
+        rise_time_s: why(rise, step_reason(y, step.as_ref(), Undefined::NotReached)),
+        settling_time_s: why(
+            settling,
+            step_reason(y, step.as_ref(), Undefined::NotSettled),
+        ),
+        overshoot_pct: why(
+            overshoot,
+            step_reason(y, step.as_ref(), Undefined::NeverMoved),
+        ),
+        steady_state_error: why(steady, Undefined::Empty),
+        time_saturated_s: options.saturation.is_none().then_some(Undefined::NoLimits),
+    };
     Ok(Metrics {
-        rise_time_s: step.and_then(|s| rise_time_s(y, dt, &s)),
-        settling_time_s: step.and_then(|s| settling_time_s(y, dt, &s, band)),
-        overshoot_pct: step.and_then(|s| overshoot_pct(y, &s)),
-        steady_state_error: steady_state_error(r, y, dt, window),
+        rise_time_s: rise,
+        settling_time_s: settling,
+        overshoot_pct: overshoot,
+        steady_state_error: steady,
         iae: iae(r, y, dt),
         ise: ise(r, y, dt),
         peak_command: peak_abs(u),
@@ -266,6 +330,7 @@ pub fn compute(trace: &Trace<'_>, options: &MetricOptions) -> Result<Metrics, Me
             _ => None,
         },
         faults: crate::fault::FaultMetrics::default(),
+        undefined,
     })
 }
 

@@ -53,6 +53,32 @@ pub enum RunError {
         /// The controller's reason.
         error: evenkeel::ConfigError,
     },
+    /// The backend refused the controller settings; `location` names the
+    /// file, line, column and key of the setting in the scenario file.
+    #[error("{location}")]
+    Refused {
+        /// Backend name.
+        backend: &'static str,
+        /// The controller's reason.
+        error: evenkeel::ConfigError,
+        /// Where the setting is written, with the message.
+        location: Box<crate::scenario::ScenarioError>,
+    },
+    /// The plant's state stopped being a finite number: the model is
+    /// meaningless for these values (or the loop drove it there).
+    #[error(
+        "the plant's {state} is {value} at t = {time_s} s on the {backend} backend: the run is meaningless from there (check the plant parameters, plant.substeps and the output limits)"
+    )]
+    NonFinite {
+        /// Backend name.
+        backend: &'static str,
+        /// The state (with its unit) or `output`.
+        state: String,
+        /// Its value (NaN or infinite).
+        value: f64,
+        /// When, s.
+        time_s: f64,
+    },
     /// A plant, actuator or sensor parameter is out of range.
     #[error("{0}")]
     Param(#[from] ParamError),
@@ -141,6 +167,9 @@ impl BackendRun {
                 metrics.rise_time_s = m.rise_time_s;
                 metrics.settling_time_s = m.settling_time_s;
                 metrics.overshoot_pct = m.overshoot_pct;
+                metrics.undefined.rise_time_s = m.undefined.rise_time_s;
+                metrics.undefined.settling_time_s = m.undefined.settling_time_s;
+                metrics.undefined.overshoot_pct = m.undefined.overshoot_pct;
             }
         }
         let verdicts = evaluate(&scenario.criteria, &metrics);

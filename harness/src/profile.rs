@@ -126,22 +126,25 @@ impl Profile {
     }
 
     /// The value at time `t_s` (before 0: the initial value).
+    ///
+    /// The segment in force is found by bisection over the start times
+    /// (which never decrease), so a run of `n` samples over `m` segments
+    /// costs `O(n log m)`, not `O(n m)`.
     #[must_use]
     pub fn at(&self, t_s: f64) -> f64 {
-        let mut value = self.initial;
-        for &(start, from, s) in &self.pieces {
-            if t_s < start {
-                break;
-            }
-            let to = s.to.unwrap_or(from);
-            let ramp = s.ramp_s.max(0.0);
-            value = if ramp > 0.0 && t_s < start + ramp {
-                from + (to - from) * (t_s - start) / ramp
-            } else {
-                to
-            };
+        // The last segment that has started by `t_s` decides the value.
+        let started = self.pieces.partition_point(|&(start, _, _)| start <= t_s);
+        let Some(&(start, from, s)) = started.checked_sub(1).and_then(|i| self.pieces.get(i))
+        else {
+            return self.initial;
+        };
+        let to = s.to.unwrap_or(from);
+        let ramp = s.ramp_s.max(0.0);
+        if ramp > 0.0 && t_s < start + ramp {
+            from + (to - from) * (t_s - start) / ramp
+        } else {
+            to
         }
-        value
     }
 
     /// Multiplies every value of the profile by `factor` (a sweep's
@@ -226,6 +229,106 @@ impl Profile {
     }
 }
 
+/// Time windows `[start_s, start_s + duration_s)` (fault or override
+/// windows) and the ones active at a time, found by a cursor that moves
+/// with time: each window enters the active list once and leaves it
+/// once, so sampling `n` times over `m` windows costs `O(n·a + m log m)`
+/// with `a` windows active at once.
+///
+/// ```
+/// use evenkeel_harness::profile::Windows;
+/// let mut w = Windows::new([(2.0, 1.0), (0.0, 10.0), (2.5, 0.1)]);
+/// assert_eq!(w.active_at(1.0, |_| {}), &[1]);
+/// assert_eq!(w.active_at(2.5, |_| {}), &[0, 1, 2]);
+/// let mut left = Vec::new();
+/// assert_eq!(w.active_at(3.0, |i| left.push(i)), &[1]);
+/// assert_eq!(left, [0, 2]);
+/// ```
+#[derive(Debug, Clone)]
+pub struct Windows {
+    /// `(start_s, end_s)` in the order given.
+    spans: Vec<(f64, f64)>,
+    /// Window indices by start time.
+    by_start: Vec<usize>,
+    /// Next entry of `by_start` not yet started.
+    next: usize,
+    /// Indices active at `at_s`, in the order given.
+    active: Vec<usize>,
+    /// Time `active` holds for (NaN before the first call).
+    at_s: f64,
+}
+
+impl Windows {
+    /// Windows from `(start_s, duration_s)` pairs, in the order given.
+    #[must_use]
+    pub fn new(windows: impl IntoIterator<Item = (f64, f64)>) -> Self {
+        let spans: Vec<(f64, f64)> = windows
+            .into_iter()
+            .map(|(start, duration)| (start, start + duration))
+            .collect();
+        let mut by_start: Vec<usize> = (0..spans.len()).collect();
+        by_start.sort_by(|&a, &b| spans[a].0.total_cmp(&spans[b].0));
+        Self {
+            spans,
+            by_start,
+            next: 0,
+            active: Vec::new(),
+            at_s: f64::NAN,
+        }
+    }
+
+    /// `true` when window `i` holds `t_s`.
+    fn holds(&self, i: usize, t_s: f64) -> bool {
+        let (start, end) = self.spans[i];
+        t_s >= start && t_s < end
+    }
+
+    /// The windows active at `t_s`, in the order given; `left` is called
+    /// with each window that was active at the previous time and is not
+    /// now. Time going backwards starts over (`left` is then called for
+    /// every window not active at `t_s`).
+    pub fn active_at(&mut self, t_s: f64, mut left: impl FnMut(usize)) -> &[usize] {
+        if t_s == self.at_s {
+            return &self.active;
+        }
+        if t_s < self.at_s {
+            self.next = 0;
+            self.active.clear();
+            for i in 0..self.spans.len() {
+                if !self.holds(i, t_s) {
+                    left(i);
+                }
+            }
+        }
+        self.at_s = t_s;
+        while let Some(&i) = self.by_start.get(self.next) {
+            if self.spans[i].0 > t_s {
+                break;
+            }
+            self.next += 1;
+            self.active.push(i);
+        }
+        let spans = &self.spans;
+        self.active.retain(|&i| {
+            let (start, end) = spans[i];
+            let keep = t_s >= start && t_s < end;
+            if !keep {
+                left(i);
+            }
+            keep
+        });
+        self.active.sort_unstable();
+        &self.active
+    }
+
+    /// The windows active at the time of the last [`Windows::active_at`]
+    /// call, if that was `t_s`.
+    #[must_use]
+    pub fn active_if_at(&self, t_s: f64) -> Option<&[usize]> {
+        (t_s == self.at_s).then_some(self.active.as_slice())
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -256,6 +359,57 @@ mod tests {
         }
         assert_eq!(p.duration_s(), 4.5);
         assert_eq!(p.first_change(), Some((1.0, 4.0, 1.0, 3.0)));
+    }
+
+    /// The bisection gives the value the segments give walked one by one,
+    /// bit for bit, including zero-length segments and steps at equal times.
+    #[test]
+    fn bisection_matches_a_walk_over_the_segments() {
+        let walk = |p: &Profile, t: f64| {
+            let mut value = p.initial;
+            for &(start, from, s) in &p.pieces {
+                if t < start {
+                    break;
+                }
+                let to = s.to.unwrap_or(from);
+                let ramp = s.ramp_s.max(0.0);
+                value = if ramp > 0.0 && t < start + ramp {
+                    from + (to - from) * (t - start) / ramp
+                } else {
+                    to
+                };
+            }
+            value
+        };
+        let p = Profile::new(
+            0.5,
+            vec![
+                Segment::step(1.0, 0.0),
+                Segment::step(2.0, 0.0),
+                Segment::ramp(-3.0, 0.7, 0.3),
+                Segment::hold(0.1),
+                Segment::ramp(4.0, 0.0, 1.0),
+                Segment::ramp(4.0, 2.5, 0.0),
+            ],
+        );
+        for k in -10..800 {
+            let t = f64::from(k) * 0.00731;
+            assert_eq!(p.at(t).to_bits(), walk(&p, t).to_bits(), "t = {t}");
+        }
+    }
+
+    /// A million segments: the values at both ends and in between (with
+    /// a walk over the segments per sample this test would not finish).
+    #[test]
+    fn a_million_segments() {
+        let segments: Vec<Segment> = (0..1_000_000)
+            .map(|i| Segment::step(f64::from(i % 7), 0.001))
+            .collect();
+        let p = Profile::new(0.0, segments);
+        assert_eq!(p.at(0.0005), 0.0);
+        assert_eq!(p.at(999.9995), f64::from(999_999 % 7));
+        let sum: f64 = (0..100_000).map(|k| p.at(f64::from(k) * 0.01)).sum();
+        assert!(sum > 0.0);
     }
 
     #[test]

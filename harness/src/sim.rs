@@ -22,7 +22,7 @@ use evenkeel::{Backend, Config, ConfigError, Controller, Input, Output, Settings
 use crate::fault::{Fault, FaultTrace, Injector};
 use crate::metrics::Trace;
 use crate::plant::{Environment, Plant, Sensor};
-use crate::profile::Profile;
+use crate::profile::{Profile, Windows};
 
 /// Disturbance profiles over time, sampled at each controller period.
 #[derive(Debug, Clone, PartialEq)]
@@ -278,6 +278,7 @@ pub fn simulate<B: Backend>(
     }
     // (window index, actuator value when it began)
     let mut taken_over: Option<(usize, f64)> = None;
+    let mut windows = Windows::new(setup.overrides.iter().map(|o| (o.start_s, o.duration_s)));
     for k in 0..n {
         #[allow(clippy::cast_precision_loss)] // k < 2^53
         let t = k as f64 * ts;
@@ -330,7 +331,10 @@ pub fn simulate<B: Backend>(
         // firmware's guard refuses it before conversion and holds.
         let guarded = !measured.is_finite() && input.measurement.is_finite();
         let mut expected = Status::NONE;
-        if !measured.is_finite() {
+        // What the backend holds decides: a finite reading beyond its
+        // range (1e300 in f32) arrives as infinity and is non-finite there.
+        let unrepresentable = !input.measurement.is_finite() || !input.setpoint.is_finite();
+        if !measured.is_finite() || unrepresentable {
             if !guarded {
                 expected = Status::NON_FINITE;
             }
@@ -345,11 +349,10 @@ pub fn simulate<B: Backend>(
                 expected |= Status::DOWNSTREAM;
             }
         }
-        let active = setup
-            .overrides
-            .iter()
-            .enumerate()
-            .find(|(_, o)| t >= o.start_s && t < o.start_s + o.duration_s);
+        let active = windows
+            .active_at(t, |_| {})
+            .first()
+            .map(|&i| (i, &setup.overrides[i]));
         let out = match active {
             Some((i, o)) => {
                 let from = match taken_over {

@@ -241,7 +241,7 @@ fn bad_logs_are_refused_with_file_line_and_column() {
         &["fit", &file, "--model", "first-order-lag", "--json", &file],
     );
     assert_exit(&out, 2);
-    assert!(text(&out.stderr).contains("that is an input"));
+    assert!(text(&out.stderr).contains("is an input of this run"));
 }
 
 #[test]

@@ -11,7 +11,7 @@ use std::process::ExitCode;
 
 use anyhow::Context;
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use evenkeel_harness::report::{json, junit, trace_csv};
+use evenkeel_harness::report::{json, junit, write_trace_csv};
 use evenkeel_harness::{BackendKind, Outcome, Scenario, plot};
 
 #[path = "evenkeel/compare.rs"]
@@ -72,15 +72,18 @@ struct CheckArgs {
     /// Write machine-readable results as JSON to PATH (`-`: standard output).
     #[arg(long, value_name = "PATH")]
     json: Option<PathBuf>,
-    /// Write JUnit XML (one test case per criterion) to PATH.
+    /// Write JUnit XML (one test case per criterion) to PATH (`-`:
+    /// standard output).
     #[arg(long, value_name = "PATH")]
     junit: Option<PathBuf>,
     /// Write the time series as CSV to PATH (one file per scenario and
-    /// backend when there are several: PATH-SCENARIO-BACKEND.csv).
+    /// backend when there are several: PATH-SCENARIO-BACKEND.csv; `-`:
+    /// standard output for a single run).
     #[arg(long, value_name = "PATH.csv")]
     trace: Option<PathBuf>,
     /// Plot to PATH, SVG or PNG by extension (one file per scenario and
-    /// backend when there are several).
+    /// backend when there are several; `-`: SVG on standard output for a
+    /// single run).
     #[arg(long, value_name = "PATH")]
     plot: Option<PathBuf>,
 }
@@ -108,7 +111,23 @@ const PASS: u8 = 0;
 const FAIL: u8 = 1;
 const BAD_INPUT: u8 = 2;
 
+/// On SIGINT, SIGTERM or SIGHUP: removes the temporary files of outputs
+/// not yet in place (a set of renames under way finishes first), then
+/// exits with 128 + the signal number.
+fn remove_temporaries_on_signals() {
+    use signal_hook::consts::{SIGHUP, SIGINT, SIGTERM};
+    if let Ok(mut signals) = signal_hook::iterator::Signals::new([SIGINT, SIGTERM, SIGHUP]) {
+        std::thread::spawn(move || {
+            if let Some(signal) = signals.forever().next() {
+                evenkeel_harness::files::abandon_staged();
+                std::process::exit(128 + signal);
+            }
+        });
+    }
+}
+
 fn main() -> ExitCode {
+    remove_temporaries_on_signals();
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
@@ -137,47 +156,57 @@ fn main() -> ExitCode {
 
 /// Runs everything; `Ok(passed)`, or an error for bad input.
 fn check(args: &CheckArgs) -> anyhow::Result<bool> {
-    output::check_report_paths(
-        &[
-            args.json.as_deref(),
-            args.junit.as_deref(),
-            args.trace.as_deref(),
-        ],
-        args.plot.as_deref(),
-    )?;
+    let mut out = output::Outputs::new(&output::paths(&args.scenarios));
+    out.file("--json", args.json.as_deref())?;
+    out.file("--junit", args.junit.as_deref())?;
+    output::base_ok("--trace", args.trace.as_deref(), false)?;
+    output::base_ok("--plot", args.plot.as_deref(), true)?;
     let scenarios = load_scenarios(&args.scenarios)?;
     let backends = args.backend.kinds();
-    let mut outcomes = Vec::with_capacity(scenarios.len());
-    for s in &scenarios {
-        let outcome = s
-            .run_on(&backends)
-            .with_context(|| format!("{}: scenario `{}`", s.source, s.name))?;
-        outcomes.push(outcome);
-    }
-
-    let tables: String = outcomes.iter().map(ToString::to_string).collect();
-    output::summary(
-        &tables,
-        args.json.as_deref(),
-        || json(&outcomes),
-        args.junit.as_deref(),
-        || junit(&outcomes),
-    )?;
     let files = output::PerRun {
         trace: args.trace.as_deref(),
         plot: args.plot.as_deref(),
-        only: outcomes.iter().map(|o| o.runs.len()).sum::<usize>() == 1,
+        only: scenarios.len() * backends.len() == 1,
     };
-    for o in &outcomes {
-        for run in &o.runs {
+    let names: Vec<(&str, &str, &str)> = scenarios
+        .iter()
+        .flat_map(|s| {
+            backends
+                .iter()
+                .map(|b| (s.name.as_str(), s.source.as_str(), b.name()))
+        })
+        .collect();
+    out.per_run(&files, &names)?;
+    let mut outcomes = Vec::with_capacity(scenarios.len());
+    for s in &scenarios {
+        let mut outcome = Outcome {
+            scenario: s.clone(),
+            runs: Vec::with_capacity(backends.len()),
+        };
+        // One run at a time: its per-run files are staged, then its
+        // samples dropped, so memory holds one recording at most.
+        for b in &backends {
+            let mut run = s
+                .run_on(&[*b])
+                .with_context(|| format!("{}: scenario `{}`", s.source, s.name))?
+                .runs
+                .remove(0);
             files.write(
-                &o.scenario.name,
+                &mut out,
+                &s.name,
                 run.backend,
-                || trace_csv(&run.recording),
-                |path| Ok(plot::plot(&o.scenario, run, path)?),
+                |w| write_trace_csv(&run.recording, w),
+                |path| Ok(plot::plot(s, &run, path)?),
             )?;
+            output::drop_samples(&mut run.recording);
+            outcome.runs.push(run);
         }
+        outcomes.push(outcome);
     }
+    out.json(args.json.as_deref(), || json(&outcomes))?;
+    out.text(args.junit.as_deref(), || junit(&outcomes))?;
+    let tables: String = outcomes.iter().map(ToString::to_string).collect();
+    out.finish(&tables)?;
     Ok(outcomes.iter().all(Outcome::passed))
 }
 

@@ -1,6 +1,6 @@
 //! The time series of one run as CSV.
 
-use std::fmt::Write;
+use std::io::Write;
 
 use crate::sim::Recording;
 
@@ -11,16 +11,29 @@ use crate::sim::Recording;
 /// joined by `|` (`-` when none), so no field needs quoting.
 #[must_use]
 pub fn trace_csv(rec: &Recording) -> String {
-    let mut out = String::with_capacity(rec.time_s.len() * 120);
-    out.push_str("t_s,reference,measurement,output,command,applied,accel,jerk,status");
+    let mut out = Vec::with_capacity(rec.time_s.len() * 120);
+    // Writing into memory cannot fail.
+    let _ = write_trace_csv(rec, &mut out);
+    String::from_utf8_lossy(&out).into_owned()
+}
+
+/// [`trace_csv`] written row by row into `out` (no copy of the whole text
+/// in memory).
+///
+/// # Errors
+/// The I/O error of `out`.
+pub fn write_trace_csv(rec: &Recording, out: &mut dyn Write) -> std::io::Result<()> {
+    out.write_all(b"t_s,reference,measurement,output,command,applied,accel,jerk,status")?;
     for (name, _) in &rec.states {
-        out.push(',');
-        out.push_str(name);
+        write!(out, ",{name}")?;
     }
-    out.push_str(",fault,monitor\n");
-    let jerk = rec.jerk();
+    out.write_all(b",fault,monitor\n")?;
+    let mut last_accel = rec.accel.first().copied().unwrap_or(0.0);
     for i in 0..rec.time_s.len() {
-        let _ = write!(
+        // As `Recording::jerk`, one sample at a time.
+        let jerk = (rec.accel[i] - last_accel) / rec.dt_s;
+        last_accel = rec.accel[i];
+        write!(
             out,
             "{},{},{},{},{},{},{},{},{}",
             rec.time_s[i],
@@ -30,17 +43,16 @@ pub fn trace_csv(rec: &Recording) -> String {
             rec.command[i],
             rec.applied[i],
             rec.accel[i],
-            jerk[i],
+            jerk,
             rec.status[i]
-        );
+        )?;
         for (_, column) in &rec.states {
-            let _ = write!(out, ",{}", column[i]);
+            write!(out, ",{}", column[i])?;
         }
         let fault = rec.faults.active.get(i).copied().unwrap_or(false)
             || rec.faults.payload.get(i).copied().unwrap_or(false);
         let monitor = rec.faults.monitor.get(i).copied().unwrap_or_default();
-        let _ = write!(out, ",{},{monitor}", u8::from(fault));
-        out.push('\n');
+        writeln!(out, ",{},{monitor}", u8::from(fault))?;
     }
-    out
+    Ok(())
 }

@@ -13,11 +13,13 @@ use crate::outcome::Outcome;
 ///   "scenarios": [ { "name", "source", "passed",
 ///     "runs": [ { "backend", "passed", "load_shifts",
 ///       "metrics": { "rise_time_s": number|null, … 17 keys },
-///       "criteria": [ { "name", "bound", "limit", "measured", "pass", "source" } ] } ] } ] }
+///       "undefined": { "rise_time_s": "reason", … one per undefined metric },
+///       "criteria": [ { "name", "bound", "limit", "measured", "pass",
+///                       "undefined": key|null, "reason": text|null, "source" } ] } ] } ] }
 /// ```
 ///
 /// `metrics` has exactly the keys of [`MetricKey::ALL`]; an undefined
-/// metric is `null`.
+/// metric is `null` there and has its reason in `undefined`.
 #[must_use]
 pub fn json(outcomes: &[Outcome]) -> Value {
     let scenarios: Vec<Value> = outcomes
@@ -28,8 +30,12 @@ pub fn json(outcomes: &[Outcome]) -> Value {
                 .iter()
                 .map(|r| {
                     let mut metrics = Map::new();
+                    let mut undefined = Map::new();
                     for k in MetricKey::ALL {
                         metrics.insert(k.name().into(), number(k.value(&r.metrics)));
+                        if let Some(u) = k.undefined(&r.metrics) {
+                            undefined.insert(k.name().into(), Value::from(u.reason()));
+                        }
                     }
                     let criteria: Vec<Value> = r
                         .verdicts
@@ -41,6 +47,8 @@ pub fn json(outcomes: &[Outcome]) -> Value {
                                 "limit": v.criterion.limit,
                                 "measured": number(v.measured),
                                 "pass": v.pass,
+                                "undefined": v.undefined.map(|u| u.key()),
+                                "reason": v.undefined.map(|u| u.reason()),
                                 "source": v.criterion.source,
                             })
                         })
@@ -50,6 +58,7 @@ pub fn json(outcomes: &[Outcome]) -> Value {
                         "passed": r.passed(),
                         "load_shifts": r.recording.load_shifts,
                         "metrics": metrics,
+                        "undefined": undefined,
                         "criteria": criteria,
                     })
                 })

@@ -52,13 +52,21 @@ pub fn junit(outcomes: &[Outcome]) -> String {
             for v in &r.verdicts {
                 let c = &v.criterion;
                 let limit = format!("{} {}", c.bound.symbol(), format_number(Some(c.limit)));
+                let why = v
+                    .undefined
+                    .map_or_else(String::new, |u| format!(" ({})", u.reason()));
                 let msg = format!(
-                    "{} measured {}, required {limit}",
+                    "{} measured {}{why}, required {limit}",
                     c.metric.name(),
                     format_number(v.measured)
                 );
-                let failure = (!v.pass).then(|| Failure::new("criterion", &msg));
-                x.case(&class, &format!("{} {limit}", c.metric.name()), failure);
+                let name = format!("{} {limit}", c.metric.name());
+                if v.pass && v.undefined.is_some() {
+                    x.skipped(&class, &name, &msg);
+                } else {
+                    let failure = (!v.pass).then(|| Failure::new("criterion", &msg));
+                    x.case(&class, &name, failure);
+                }
             }
             x.close_suite();
         }
@@ -150,6 +158,17 @@ impl JunitXml {
                 );
             }
         }
+    }
+
+    /// A test case that does not apply to the run (passes), with why.
+    pub(crate) fn skipped(&mut self, class: &str, name: &str, message: &str) {
+        let _ = writeln!(
+            self.0,
+            "    <testcase classname=\"{}\" name=\"{}\">\n      <skipped message=\"{}\"/>\n    </testcase>",
+            xml_escape(class),
+            xml_escape(name),
+            xml_escape(message)
+        );
     }
 
     /// Closes the open suite, with the caution as its output.

@@ -11,9 +11,8 @@ mod table;
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicU32, Ordering};
 
-pub use csv::trace_csv;
+pub use csv::{trace_csv, write_trace_csv};
 pub use html::{HtmlPage, html_escape};
 pub use json::json;
 pub(crate) use junit::{Failure, JunitXml};
@@ -33,21 +32,12 @@ pub const CAUTION: &str = "Engineering aid, not a certified safety function; ISO
 /// # Errors
 /// The I/O error of creating, writing or renaming.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
-    static COUNTER: AtomicU32 = AtomicU32::new(0);
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
         _ => PathBuf::from("."),
     };
-    let name = path
-        .file_name()
-        .map_or_else(|| "report".into(), |n| n.to_string_lossy().into_owned());
-    let tmp = dir.join(format!(
-        ".{name}.{}-{}.tmp",
-        std::process::id(),
-        COUNTER.fetch_add(1, Ordering::Relaxed)
-    ));
+    let (tmp, mut f) = crate::files::register_temp(&dir, None)?;
     let result = (|| {
-        let mut f = std::fs::File::create_new(&tmp)?;
         f.write_all(bytes)?;
         f.sync_all()?;
         drop(f);
@@ -56,12 +46,14 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     if result.is_err() {
         let _ = std::fs::remove_file(&tmp);
     }
+    crate::files::unregister_temp(&tmp);
     result
 }
 
 /// The file for one run when a report that holds one run (CSV, plot) is
 /// asked for several: `base` itself when `only` is true, else
-/// `STEM-SCENARIO-BACKEND.EXT` beside it.
+/// `STEM-SCENARIO-BACKEND.EXT` beside it, `SCENARIO` reduced by
+/// [`safe_stem`](crate::files::safe_stem).
 ///
 /// ```
 /// use std::path::Path;
@@ -78,16 +70,7 @@ pub fn per_run_path(base: &Path, scenario: &str, backend: &str, only: bool) -> P
     let stem = base
         .file_stem()
         .map_or_else(String::new, |s| s.to_string_lossy().into_owned());
-    let safe: String = scenario
-        .chars()
-        .map(|c| {
-            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
-                c
-            } else {
-                '_'
-            }
-        })
-        .collect();
+    let safe = crate::files::safe_stem(scenario);
     let mut name = format!("{stem}-{safe}-{backend}");
     if let Some(ext) = base.extension() {
         name.push('.');

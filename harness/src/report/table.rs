@@ -34,7 +34,8 @@ pub fn format_number(x: Option<f64>) -> String {
 }
 
 /// One table per scenario and backend: criterion, limit, measured value,
-/// verdict; a summary line; the caution.
+/// verdict (with the reason when the value is undefined); a summary line;
+/// the caution.
 #[must_use]
 pub fn table(outcome: &Outcome) -> String {
     let s = &outcome.scenario;
@@ -63,9 +64,12 @@ pub fn table(outcome: &Outcome) -> String {
         for v in &run.verdicts {
             let c = &v.criterion;
             let limit = format!("{} {}", c.bound.symbol(), format_number(Some(c.limit)));
+            let why = v
+                .undefined
+                .map_or_else(String::new, |u| format!("  ({})", u.reason()));
             let _ = writeln!(
                 out,
-                "    {:<24} {:>14} {:>12}  {}",
+                "    {:<24} {:>14} {:>12}  {}{why}",
                 c.metric.name(),
                 limit,
                 format_number(v.measured),

@@ -103,7 +103,10 @@ pub(crate) fn parse(
             Err(src.error(
                 Some(v.span()),
                 Some(format!("design.{key}")),
-                format!("{x} is not allowed: must be {allowed}"),
+                format!(
+                    "{} is not allowed: must be {allowed}",
+                    super::error::number_text(x)
+                ),
             ))
         }
     };

@@ -123,9 +123,18 @@ impl Source<'_> {
         // or `k = { … }`), or a multi-line array opened above (`k = [`).
         let mut path = Vec::new();
         let mut header = None;
+        // The `=` the key itself came from: an array or inline table
+        // opened after it is the key's own value, not a table around it.
+        let own_eq = if word.is_empty() {
+            prefix.rfind('=')
+        } else {
+            None
+        };
         if let Some(brace) = prefix.rfind(['{', '[']) {
             let outer = prefix.get(..brace)?;
-            if let Some(eq) = outer.rfind('=') {
+            if let Some(eq) = outer.rfind('=')
+                && Some(eq) != own_eq
+            {
                 path.push(word_before(outer.get(..eq)?));
             } else if outer.trim().is_empty() {
                 for line in before.get(..line_start)?.lines().rev() {
@@ -157,11 +166,120 @@ impl Source<'_> {
     }
 }
 
+/// A number for an error message: as written for ordinary magnitudes,
+/// in scientific notation for very large or very small ones (so `1e-300`
+/// is not printed with 300 zeros).
+///
+/// ```text
+/// 0.5 -> "0.5", 1e-300 -> "1e-300", 4e4 -> "40000", 1e300 -> "1e300"
+/// ```
+#[must_use]
+pub(crate) fn number_text(x: f64) -> String {
+    let a = x.abs();
+    if a == 0.0 || !a.is_finite() || (1e-4..1e7).contains(&a) {
+        format!("{x}")
+    } else {
+        format!("{x:e}")
+    }
+}
+
+/// Edit distance (insertions, deletions, substitutions and swaps of two
+/// neighbours) between `a` and `b`: the optimal-string-alignment form of
+/// the Damerau–Levenshtein distance (Damerau, 1964; from memory).
+#[must_use]
+pub(crate) fn edit_distance(a: &str, b: &str) -> usize {
+    let (a, b): (Vec<char>, Vec<char>) = (a.chars().collect(), b.chars().collect());
+    let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
+    for (i, row) in d.iter_mut().enumerate() {
+        row[0] = i;
+    }
+    for (j, cell) in d[0].iter_mut().enumerate() {
+        *cell = j;
+    }
+    for i in 1..=a.len() {
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            let mut best = (d[i - 1][j] + 1)
+                .min(d[i][j - 1] + 1)
+                .min(d[i - 1][j - 1] + cost);
+            if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
+                best = best.min(d[i - 2][j - 2] + 1);
+            }
+            d[i][j] = best;
+        }
+    }
+    d[a.len()][b.len()]
+}
+
+/// The candidate closest to `word` if it is close enough to be a slip
+/// (at most a third of the word's length away, at least 1 edit, at most 3).
+#[must_use]
+pub fn closest<'a>(word: &str, candidates: &[&'a str]) -> Option<&'a str> {
+    let allowed = (word.chars().count() / 3).clamp(1, 3);
+    candidates
+        .iter()
+        .map(|c| (edit_distance(word, c), *c))
+        .filter(|(d, _)| *d <= allowed)
+        .min()
+        .map(|(_, c)| c)
+}
+
+/// An unknown-key message of the TOML reader (`unknown field `x`,
+/// expected one of `a`, `b``) with the keys that apply (`allowed`, when
+/// the reader listed more) and a "did you mean" when one is close.
+pub(crate) fn unknown_key(message: &str, allowed: Option<&[&str]>) -> Option<String> {
+    let rest = message.strip_prefix("unknown field `")?;
+    let (word, tail) = rest.split_once('`')?;
+    let listed: Vec<&str> = tail.split('`').skip(1).step_by(2).collect();
+    let keys: Vec<&str> = allowed.map_or(listed, <[&str]>::to_vec);
+    let mut out = format!(
+        "unknown field `{word}`, expected one of {}",
+        keys.iter()
+            .map(|k| format!("`{k}`"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    );
+    if let Some(near) = closest(word, &keys) {
+        out.push_str(&format!(" (did you mean `{near}`?)"));
+    }
+    Some(out)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
 
     const TEXT: &str = "[scenario]\nname = \"x\"\n\n[plant]\nmodel = \"vehicle\"\nmass_kg = -3\n\n[reference]\nsegments = [\n  { to = 1.0, ramp = 2 },\n]\nother = { a = 1 }\n";
+
+    #[test]
+    fn numbers_in_messages() {
+        assert_eq!(number_text(0.5), "0.5");
+        assert_eq!(number_text(1e-300), "1e-300");
+        assert_eq!(number_text(40000.0), "40000");
+        assert_eq!(number_text(1e300), "1e300");
+        assert_eq!(number_text(f64::NAN), "NaN");
+    }
+
+    #[test]
+    fn did_you_mean() {
+        assert_eq!(edit_distance("mass_kgs", "mass_kg"), 1);
+        assert_eq!(edit_distance("", "abc"), 3);
+        assert_eq!(edit_distance("gian", "gain"), 1);
+        assert_eq!(
+            closest("mass_kgs", &["model", "mass_kg", "crr"]),
+            Some("mass_kg")
+        );
+        assert_eq!(closest("zzzz", &["model", "mass_kg"]), None);
+        let m = unknown_key(
+            "unknown field `kpp`, expected one of `period_s`, `kp`, `ki_per_s`",
+            None,
+        )
+        .unwrap();
+        assert_eq!(
+            m,
+            "unknown field `kpp`, expected one of `period_s`, `kp`, `ki_per_s` (did you mean `kp`?)"
+        );
+    }
 
     #[test]
     fn locates_lines_columns_and_keys() {

@@ -63,7 +63,10 @@ fn number(
         Err(src.error(
             Some(v.span()),
             Some(key.to_owned()),
-            format!("{x} is not allowed: must be {allowed}"),
+            format!(
+                "{} is not allowed: must be {allowed}",
+                super::error::number_text(x)
+            ),
         ))
     }
 }

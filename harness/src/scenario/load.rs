@@ -15,9 +15,13 @@ use crate::sim::{Disturbances, LoadShift, Override, Setup};
 
 type Res<T> = Result<T, ScenarioError>;
 
-/// Most samples one run may have (`duration_s / period_s`): ten million
-/// rows of a dozen series, about 1 GB.
-const MAX_SAMPLES: f64 = 1.0e7;
+/// Most samples one run may have (`duration_s / period_s`): a run keeps
+/// about 100 bytes per sample (a dozen series), so five million samples
+/// keep `check` below 1 GB (measured: BENCHMARKS.md).
+pub const MAX_SAMPLES: f64 = 5.0e6;
+
+/// Longest scenario name, characters.
+pub const MAX_NAME_CHARS: usize = 256;
 
 /// Parses and validates `text`; `file` names it in errors.
 pub(crate) fn parse(text: &str, file: &str) -> Res<Scenario> {
@@ -25,7 +29,21 @@ pub(crate) fn parse(text: &str, file: &str) -> Res<Scenario> {
     let raw: RawScenario = toml::from_str(text).map_err(|e| {
         let span = e.span();
         let key = span.as_ref().and_then(|s| src.key_at(s.start));
-        src.error(span, key, e.message().trim_end().to_owned())
+        let message = e.message().trim_end();
+        // In [plant], list the keys of the model chosen, not of all four.
+        let plant_keys = key
+            .as_deref()
+            .filter(|k| k.starts_with("plant."))
+            .and_then(|_| toml::from_str::<toml::Table>(text).ok())
+            .and_then(|t| {
+                let model = t.get("plant")?.get("model")?.as_str()?.to_owned();
+                let mut keys = vec!["model", "initial_output"];
+                keys.extend(model_keys(&model)?);
+                Some(keys)
+            });
+        let message = super::error::unknown_key(message, plant_keys.as_deref())
+            .unwrap_or_else(|| message.to_owned());
+        src.error(span, key, message)
     })?;
     Check { src }.scenario(&raw, file)
 }
@@ -48,7 +66,10 @@ impl Check<'_> {
             Err(self.fail(
                 v.span(),
                 key,
-                format!("{x} is not allowed: must be {allowed}"),
+                format!(
+                    "{} is not allowed: must be {allowed}",
+                    super::error::number_text(x)
+                ),
             ))
         }
     }
@@ -100,6 +121,34 @@ impl Check<'_> {
                 "scenario.name",
                 "must not be empty".into(),
             ));
+        }
+        if name.chars().count() > MAX_NAME_CHARS {
+            return Err(self.fail(
+                meta.name.span(),
+                "scenario.name",
+                format!(
+                    "is {} characters long: at most {MAX_NAME_CHARS} are allowed",
+                    name.chars().count()
+                ),
+            ));
+        }
+        for (text, key) in [
+            (Some(&meta.name), "scenario.name"),
+            (meta.output_unit.as_ref(), "scenario.output_unit"),
+            (meta.command_unit.as_ref(), "scenario.command_unit"),
+        ] {
+            if let Some(t) = text
+                && let Some(c) = t.get_ref().chars().find(|c| c.is_control())
+            {
+                return Err(self.fail(
+                    t.span(),
+                    key,
+                    format!(
+                        "contains the control character U+{:04X}: not allowed in a name or unit",
+                        u32::from(c)
+                    ),
+                ));
+            }
         }
         let duration_s = self.num(
             &meta.duration_s,
@@ -358,6 +407,7 @@ impl Check<'_> {
         let mut setup = setup;
         setup.monitor =
             super::faults::monitor(&self.src, raw.monitor.as_ref(), &controller, &setup)?;
+        self.within_run(raw, &setup)?;
         let mut scenario = Scenario {
             name,
             description: meta
@@ -381,6 +431,14 @@ impl Check<'_> {
             sweep: None,
             design: super::design_table::parse(&self.src, raw.design.as_ref())?,
         };
+        if let Err(e) = super::sanity::physical(&scenario) {
+            let span = plant_fields(&raw.plant)
+                .into_iter()
+                .find(|(k, _)| *k == e.key)
+                .and_then(|(_, span)| span)
+                .unwrap_or_else(|| raw.plant.model.span());
+            return Err(self.fail(span, &format!("plant.{}", e.key), e.message));
+        }
         (scenario.uncertainty, scenario.sweep) = super::uncertainty::parse(
             &self.src,
             raw.uncertainty.as_ref(),
@@ -388,6 +446,69 @@ impl Check<'_> {
             &scenario,
         )?;
         Ok(scenario)
+    }
+
+    /// Refuses what the run never reaches: a profile segment, a fault or
+    /// an override window that starts at or after `scenario.duration_s`
+    /// (samples are taken at `k·period_s < duration_s`).
+    fn within_run(&self, raw: &RawScenario, setup: &Setup) -> Res<()> {
+        let end = setup.duration_s;
+        let after = |start: f64, what: &str| {
+            format!(
+                "{what} starts at {start} s, at or after the end of the run (scenario.duration_s = {end} s): it would never act"
+            )
+        };
+        let mut profiles: Vec<(&str, &RawProfile, &Profile)> =
+            vec![("reference", &raw.reference, &setup.reference)];
+        if let Some(d) = &raw.disturbance {
+            let s = &setup.disturbances;
+            for (key, rp, p) in [
+                ("disturbance.grade_pct", &d.grade_pct, &s.grade_pct),
+                ("disturbance.force_n", &d.force_n, &s.force_n),
+                ("disturbance.load", &d.load, &s.load),
+                ("disturbance.gain_factor", &d.gain_factor, &s.gain_factor),
+            ] {
+                if let Some(rp) = rp {
+                    profiles.push((key, rp, p));
+                }
+            }
+        }
+        for (key, rp, p) in profiles {
+            for (i, (piece, seg)) in p.pieces().zip(&rp.segments).enumerate() {
+                if piece.start_s >= end {
+                    let span = [&seg.to, &seg.ramp_s, &seg.hold_s]
+                        .into_iter()
+                        .flatten()
+                        .map(Spanned::span)
+                        .next()
+                        .unwrap_or_else(|| raw.scenario.duration_s.span());
+                    return Err(self.fail(
+                        span,
+                        &format!("{key}.segments[{i}]"),
+                        after(piece.start_s, "this segment"),
+                    ));
+                }
+            }
+        }
+        for (i, (f, rf)) in setup.faults.iter().zip(&raw.faults).enumerate() {
+            if f.start_s >= end {
+                return Err(self.fail(
+                    rf.start_s.span(),
+                    &format!("fault[{i}].start_s"),
+                    after(f.start_s, "the fault"),
+                ));
+            }
+        }
+        for (i, (o, ro)) in setup.overrides.iter().zip(&raw.overrides).enumerate() {
+            if o.start_s >= end {
+                return Err(self.fail(
+                    ro.start_s.span(),
+                    &format!("override[{i}].start_s"),
+                    after(o.start_s, "the override window"),
+                ));
+            }
+        }
+        Ok(())
     }
 
     /// `[compare]`: every tolerance finite and > 0 when given.
@@ -524,34 +645,16 @@ impl Check<'_> {
     fn plant(&self, p: &RawPlant) -> Res<(PlantModel, f64)> {
         let model = p.model.get_ref().as_str();
         let k = |name: &str| format!("plant.{name}");
-        let allowed: &[&str] = match model {
-            "integrator" => &["gain"],
-            "first_order_lag" => &["gain", "tau_s", "dead_time_s"],
-            "vehicle" => &[
-                "mass_kg",
-                "actuator_gain_n",
-                "crr",
-                "air_density_kg_m3",
-                "cda_m2",
-                "creep_speed_m_s",
-                "substeps",
-            ],
-            "rotor" => &[
-                "inertia_kg_m2",
-                "torque_gain_n_m",
-                "viscous_n_m_s",
-                "drag_n_m_s2",
-                "substeps",
-            ],
-            other => {
-                return Err(self.fail(
-                    p.model.span(),
-                    "plant.model",
-                    format!(
-                        "\"{other}\" is not allowed: must be \"integrator\", \"first_order_lag\", \"vehicle\" or \"rotor\""
-                    ),
-                ));
-            }
+        let Some(allowed) = model_keys(model) else {
+            let near = super::error::closest(model, &MODELS)
+                .map_or_else(String::new, |m| format!(" (did you mean \"{m}\"?)"));
+            return Err(self.fail(
+                p.model.span(),
+                "plant.model",
+                format!(
+                    "\"{model}\" is not allowed: must be \"integrator\", \"first_order_lag\", \"vehicle\" or \"rotor\"{near}"
+                ),
+            ));
         };
         for (name, span) in plant_fields(p) {
             if let Some(span) = span
@@ -718,6 +821,54 @@ impl Check<'_> {
 }
 
 use toml::Spanned;
+
+/// The refusal of `backend` (`error`) located at the controller key it
+/// names in the scenario `text` (`file`): line, column, key.
+pub(crate) fn locate_refusal(
+    text: &str,
+    file: &str,
+    backend: &str,
+    error: &evenkeel::ConfigError,
+) -> Option<ScenarioError> {
+    let raw: RawScenario = toml::from_str(text).ok()?;
+    let message = error.to_string();
+    let name = message.split(' ').next().unwrap_or("");
+    let span = controller_span(&raw.controller, name);
+    let src = Source { file, text };
+    Some(src.error(
+        span,
+        Some(format!("controller.{name}")),
+        format!("refused by the {backend} backend: {message}"),
+    ))
+}
+
+/// The plant models.
+const MODELS: [&str; 4] = ["integrator", "first_order_lag", "vehicle", "rotor"];
+
+/// The model-specific keys of `[plant]` for `model`.
+fn model_keys(model: &str) -> Option<&'static [&'static str]> {
+    Some(match model {
+        "integrator" => &["gain"],
+        "first_order_lag" => &["gain", "tau_s", "dead_time_s"],
+        "vehicle" => &[
+            "mass_kg",
+            "actuator_gain_n",
+            "crr",
+            "air_density_kg_m3",
+            "cda_m2",
+            "creep_speed_m_s",
+            "substeps",
+        ],
+        "rotor" => &[
+            "inertia_kg_m2",
+            "torque_gain_n_m",
+            "viscous_n_m_s",
+            "drag_n_m_s2",
+            "substeps",
+        ],
+        _ => return None,
+    })
+}
 
 /// Every model-specific plant key with its span when present.
 fn plant_fields(p: &RawPlant) -> [(&'static str, Option<Range<usize>>); 13] {

@@ -30,9 +30,11 @@ mod design_table;
 mod error;
 mod faults;
 mod load;
+mod sanity;
 mod schema;
 mod uncertainty;
 
+use std::io::Read;
 use std::path::Path;
 
 use evenkeel::fixed::types::I16F16;
@@ -40,6 +42,7 @@ use evenkeel::{Backend, Settings};
 
 pub use design_table::{DesignSpec, LimitChoice};
 pub use error::ScenarioError;
+pub use load::{MAX_NAME_CHARS, MAX_SAMPLES};
 
 use crate::criteria::Criterion;
 use crate::outcome::{BackendKind, BackendRun, Outcome, RunError};
@@ -49,6 +52,10 @@ use crate::plant::{
 };
 use crate::sim::{Setup, simulate};
 use crate::sweep::{SweepPlan, Uncertain};
+
+/// Largest scenario file read, bytes (8 MiB): a file of 100 000
+/// reference segments is about 3 MiB.
+pub const MAX_SCENARIO_BYTES: usize = 8 << 20;
 
 /// The built-in demo scenario (airport baggage tug), as shipped in
 /// `shared/scenarios/baggage_tug.toml`.
@@ -159,13 +166,42 @@ impl Scenario {
     /// line, column and key, and what is allowed.
     pub fn from_path(path: impl AsRef<Path>) -> Result<Self, ScenarioError> {
         let path = path.as_ref();
-        let file = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| ScenarioError {
+        let file = crate::files::shown(path);
+        let refuse = |message: String| ScenarioError {
             file: file.clone(),
             line: None,
             column: None,
             key: None,
-            message: format!("cannot read the file: {e}"),
+            message,
+        };
+        let f =
+            std::fs::File::open(path).map_err(|e| refuse(format!("cannot read the file: {e}")))?;
+        let meta = f
+            .metadata()
+            .map_err(|e| refuse(format!("cannot read the file: {e}")))?;
+        if !meta.is_file() {
+            return Err(refuse(
+                "not a regular file (a directory, device or pipe): give a scenario file".into(),
+            ));
+        }
+        // Bounded memory: never read more than the limit (a file can grow
+        // while it is read).
+        let mut bytes = Vec::new();
+        let limit = u64::try_from(MAX_SCENARIO_BYTES).unwrap_or(u64::MAX);
+        std::io::Read::take(f, limit + 1)
+            .read_to_end(&mut bytes)
+            .map_err(|e| refuse(format!("cannot read the file: {e}")))?;
+        if bytes.len() > MAX_SCENARIO_BYTES {
+            return Err(refuse(format!(
+                "the file is larger than {MAX_SCENARIO_BYTES} bytes ({} MiB), the most a scenario may have",
+                MAX_SCENARIO_BYTES >> 20
+            )));
+        }
+        let text = String::from_utf8(bytes).map_err(|e| {
+            refuse(format!(
+                "not UTF-8 text (invalid byte at offset {})",
+                e.utf8_error().valid_up_to()
+            ))
         })?;
         Self::from_toml(&text, &file)
     }
@@ -252,11 +288,40 @@ impl Scenario {
             plant.as_mut(),
             sensor.as_mut(),
         )
-        .map_err(|error| RunError::Config {
-            backend: B::NAME,
-            error,
-        })?;
+        .map_err(|error| self.refused(B::NAME, error))?;
+        if let Some((state, k)) = first_non_finite(&rec) {
+            let value = if state == "output" {
+                rec.output[k]
+            } else {
+                rec.states
+                    .iter()
+                    .find(|(n, _)| *n == state)
+                    .map_or(f64::NAN, |(_, c)| c[k])
+            };
+            return Err(RunError::NonFinite {
+                backend: B::NAME,
+                state: state.to_owned(),
+                value,
+                time_s: rec.time_s[k],
+            });
+        }
         BackendRun::assess(self, rec)
+    }
+
+    /// The refusal of `backend`, located at the setting in the scenario
+    /// file when the file can be read again.
+    pub(crate) fn refused(&self, backend: &'static str, error: evenkeel::ConfigError) -> RunError {
+        let location = std::fs::read_to_string(&self.source)
+            .ok()
+            .and_then(|text| load::locate_refusal(&text, &self.source, backend, &error));
+        match location {
+            Some(location) => RunError::Refused {
+                backend,
+                error,
+                location: Box::new(location),
+            },
+            None => RunError::Config { backend, error },
+        }
     }
 
     /// Runs on each of `backends`.
@@ -285,6 +350,19 @@ impl Scenario {
     pub fn run_all(&self) -> Result<Outcome, RunError> {
         self.run_on(&BackendKind::ALL)
     }
+}
+
+/// The first sample at which the plant's output or one of its states is
+/// not a finite number: the state's name (or `output`) and the index.
+fn first_non_finite(rec: &crate::sim::Recording) -> Option<(&'static str, usize)> {
+    let output = rec.output.iter().position(|v| !v.is_finite());
+    let states = rec
+        .states
+        .iter()
+        .filter_map(|(name, c)| c.iter().position(|v| !v.is_finite()).map(|k| (*name, k)));
+    states
+        .chain(output.map(|k| ("output", k)))
+        .min_by_key(|&(_, k)| k)
 }
 
 #[cfg(test)]

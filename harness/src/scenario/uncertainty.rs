@@ -64,6 +64,15 @@ pub(crate) fn parse(
             }
             let dist = distribution(src, value.get_ref(), &key)?;
             let (lo, hi) = dist.support();
+            let keeps_sign = matches!(
+                param,
+                Param::Gain | Param::ActuatorGainN | Param::TorqueGain
+            );
+            if keeps_sign && lo <= 0.0 && hi >= 0.0 {
+                return Err(fail(format!(
+                    "the range [{lo}, {hi}] includes 0: a command gain must keep its sign over the whole range (a loop cannot be tuned for both signs)"
+                )));
+            }
             for end in [lo, hi] {
                 let mut s = scenario.clone();
                 param.set(&mut s, end);
@@ -78,11 +87,54 @@ pub(crate) fn parse(
             space.push(Uncertain { param, dist });
         }
     }
+    corners_sane(src, raw, &space, scenario)?;
     let plan = match sweep {
         None => None,
         Some(r) => Some(plan(src, r)?),
     };
     Ok((space, plan))
+}
+
+/// Every corner of the box of supports must give a meaningful model
+/// ([`super::sanity::physical`]): a light mass at the top gain is where
+/// the integrator is stiffest.
+fn corners_sane(
+    src: &Source<'_>,
+    raw: Option<&RawUncertainty>,
+    space: &[Uncertain],
+    scenario: &Scenario,
+) -> Res<()> {
+    // 16 parameters at most: 65 536 corners, each a few multiplications.
+    let corners = 1usize << space.len().min(16);
+    for c in 0..corners {
+        let mut s = scenario.clone();
+        let mut at = Vec::with_capacity(space.len());
+        for (j, u) in space.iter().enumerate() {
+            let (lo, hi) = u.dist.support();
+            let v = if (c >> j) & 1 == 1 { hi } else { lo };
+            u.param.set(&mut s, v);
+            at.push(format!("{}={v}", u.param.key()));
+        }
+        if let Err(e) = super::sanity::physical(&s) {
+            let span = raw.and_then(|t| {
+                t.iter()
+                    .find(|(k, _)| k.as_str() == e.key)
+                    .or_else(|| t.iter().min_by_key(|(_, v)| v.span().start))
+                    .map(|(_, v)| v.span())
+            });
+            return Err(src.error(
+                span,
+                Some("uncertainty".into()),
+                format!(
+                    "at the corner {}: plant.{}: {}",
+                    at.join(", "),
+                    e.key,
+                    e.message
+                ),
+            ));
+        }
+    }
+    Ok(())
 }
 
 fn number(src: &Source<'_>, v: &Num, key: &str) -> Res<f64> {
@@ -93,7 +145,10 @@ fn number(src: &Source<'_>, v: &Num, key: &str) -> Res<f64> {
         Err(src.error(
             Some(v.span()),
             Some(key.to_owned()),
-            format!("{x} is not allowed: must be a finite number"),
+            format!(
+                "{} is not allowed: must be a finite number",
+                super::error::number_text(x)
+            ),
         ))
     }
 }

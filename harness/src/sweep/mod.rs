@@ -5,8 +5,12 @@
 //!
 //! - [`space`](self::Param): uncertain parameters, distributions, designs
 //!   (grid, corners, random, Latin hypercube) and seeding
-//! - `run`: the parallel run ([`run`]) and the envelope
-//! - `merge`: shards ([`Shard`]) and [`merge`] of their results
+//! - `run`: one variant ([`apply_variant`]), whole results kept in memory ([`run`])
+//! - `stream`: the parallel run aggregated as results arrive ([`stream`])
+//! - `tally`: the aggregate (pass counts, worst variants), order-free
+//! - `envelope`: min/max of the signals at plot resolution
+//! - `file`: result files with a SHA-256 digest ([`ResultWriter`], [`ResultReader`])
+//! - `merge`: shards ([`Shard`]), [`merge`] of results, [`merge_files`] with every check
 //! - `report`: per-criterion summary, table, JSON, JUnit, worst-case files
 //! - `plot`: the envelope plot
 //!
@@ -27,31 +31,53 @@
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 
+mod envelope;
+mod file;
 mod merge;
 mod plot;
 mod report;
 mod run;
 mod space;
+mod stream;
+mod tally;
 
-pub use merge::{Shard, fingerprint, merge};
-pub use plot::plot_envelope;
+pub use envelope::{ENVELOPE_BUCKETS, Envelope, samples_of};
+pub use file::{MAX_LINE_BYTES, ResultReader, ResultWriter};
+pub use merge::{Shard, fingerprint, merge, merge_files};
+pub use plot::{plot_envelope, plot_envelope_of};
 pub use report::{
-    CriterionSummary, SweepSummary, json, junit, summarise, table, variant_scenario, variant_toml,
+    CriterionSummary, SweepSummary, json, json_of, junit, junit_of, summarise, summary_of, table,
+    table_of, tally, variant_scenario, variant_toml, variant_toml_of,
 };
 pub(crate) use run::noise_seed;
-pub use run::{CriterionRecord, Envelope, SweepResult, VariantResult, apply_variant, run};
+pub use run::{CriterionRecord, SweepResult, VariantResult, apply_variant, run};
 pub use space::{
-    Distribution, MAX_VARIANTS, Method, NORMAL_TRUNCATION, Param, SweepPlan, Uncertain,
-    design_points, normal_cdf, splitmix64, variant_seed,
+    Design, Distribution, MAX_LATIN_HYPERCUBE, MAX_VARIANTS, Method, NORMAL_TRUNCATION, Param,
+    SweepPlan, Uncertain, design_points, normal_cdf, splitmix64, variant_seed,
 };
+pub use stream::{HEADER_FORMAT, Streamed, SweepHeader, criteria_records, stream};
+pub use tally::{CriterionTally, Tally, VariantPoint, Worst, excess};
 
 /// Why a sweep could not run or its results could not be merged.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[non_exhaustive]
 pub enum SweepError {
-    /// The design has more variants than [`MAX_VARIANTS`].
-    #[error("the sweep would have more than {MAX_VARIANTS} variants")]
-    TooLarge,
+    /// The design has more variants than allowed ([`MAX_VARIANTS`],
+    /// [`MAX_LATIN_HYPERCUBE`]).
+    #[error(
+        "the design is too large: {design} has {variants} variants, at most {limit} are allowed"
+    )]
+    TooLarge {
+        /// The design in words.
+        design: String,
+        /// How many variants it has.
+        variants: String,
+        /// How many are allowed.
+        limit: usize,
+    },
+    /// The result file of a sweep could not be written.
+    #[error("writing the result file: {0}")]
+    Write(String),
     /// The scenario cannot run at all (e.g. the backend refuses the settings).
     #[error("{0}")]
     Run(#[from] crate::RunError),

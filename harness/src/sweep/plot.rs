@@ -11,8 +11,12 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
+use super::envelope::Envelope;
 use super::run::SweepResult;
+use super::stream::SweepHeader;
+use super::tally::Tally;
 use crate::criteria::MetricKey;
+use crate::files::printable;
 use crate::outcome::BackendRun;
 use crate::plot::{
     Figure, MAX_POINTS, PlotError, derivative_units, draw_error, draw_grid, draw_labelled_line,
@@ -48,9 +52,28 @@ pub fn plot_envelope(
     worst: Option<&BackendRun>,
     path: &Path,
 ) -> Result<(), PlotError> {
+    let header = result.header();
+    let tally = super::report::tally(result);
+    plot_envelope_of(scenario, &header, &tally, &result.envelope, worst, path)
+}
+
+/// [`plot_envelope`] of a sweep given by its header, tally and envelope.
+///
+/// # Errors
+/// As [`plot_envelope`].
+pub fn plot_envelope_of(
+    scenario: &Scenario,
+    header: &SweepHeader,
+    tally: &Tally,
+    envelope: &Envelope,
+    worst: Option<&BackendRun>,
+    path: &Path,
+) -> Result<(), PlotError> {
     let figure = EnvelopeFigure {
         scenario,
-        result,
+        header,
+        tally,
+        envelope,
         worst,
     };
     write_figure(&figure, path)
@@ -59,13 +82,15 @@ pub fn plot_envelope(
 /// The envelope of a sweep with its worst variant, as a page.
 struct EnvelopeFigure<'a> {
     scenario: &'a Scenario,
-    result: &'a SweepResult,
+    header: &'a SweepHeader,
+    tally: &'a Tally,
+    envelope: &'a Envelope,
     worst: Option<&'a BackendRun>,
 }
 
 impl Figure for EnvelopeFigure<'_> {
     fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
-        draw(root, self.scenario, self.result, self.worst)
+        draw(root, self)
     }
 }
 
@@ -80,16 +105,13 @@ struct Panel<'a> {
 
 fn draw<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
-    scenario: &Scenario,
-    result: &SweepResult,
-    worst: Option<&BackendRun>,
+    f: &EnvelopeFigure<'_>,
 ) -> Result<(), PlotError> {
-    let env = &result.envelope;
+    let (scenario, worst, env) = (f.scenario, f.worst, f.envelope);
+    let t = env.time_s();
     #[allow(clippy::cast_precision_loss)]
-    let t: Vec<f64> = (0..env.reference.len())
-        .map(|k| k as f64 * env.dt_s)
-        .collect();
-    let t_end = t.last().copied().unwrap_or(1.0).max(env.dt_s);
+    let t_end = ((env.samples.max(1) - 1) as f64 * env.dt_s).max(env.dt_s);
+    let reference_y: Vec<f64> = env.reference.iter().map(|p| p.1).collect();
     let unit = &scenario.output_unit;
     let (rate_unit, jerk_unit) = derivative_units(unit);
     let rec = worst.map(|w| &w.recording);
@@ -98,7 +120,7 @@ fn draw<DB: DrawingBackend>(
             y_desc: format!("output ({unit})"),
             band: &env.output,
             worst: rec.map(|r| r.output.clone()),
-            reference: Some(&env.reference),
+            reference: Some(&reference_y),
             limits: Vec::new(),
             limit_name: "",
         },
@@ -131,18 +153,18 @@ fn draw<DB: DrawingBackend>(
         },
     ];
 
-    let summary = super::summarise(result);
+    let (h, tally) = (f.header, f.tally);
     let title = format!(
         "{} — {} sweep, {} variants, backend {} — {} of {} pass",
-        result.scenario,
-        result.method,
-        result.variants.len(),
-        result.backend,
-        summary.passed,
-        summary.total
+        printable(&h.scenario),
+        h.method,
+        tally.total,
+        h.backend,
+        tally.passed,
+        tally.total
     );
     let body = draw_page(root, &title, 22)?;
-    let worst_label = summary.worst_index.map_or_else(
+    let worst_label = tally.worst.as_ref().map(|w| w.variant.index).map_or_else(
         || "worst variant".to_owned(),
         |i| format!("worst variant #{i}"),
     );
@@ -157,6 +179,13 @@ fn draw<DB: DrawingBackend>(
             &[&panel.band[0], &panel.band[1], &worst_series, reference],
             &panel.limits,
         );
+        let worst_t: Vec<f64> = (0..worst_series.len())
+            .map(|k| {
+                #[allow(clippy::cast_precision_loss)]
+                let x = k as f64 * env.dt_s;
+                x
+            })
+            .collect();
         let mut chart = time_panel(area, t_end, range, 80)?;
         draw_grid(&mut chart, &panel.y_desc, None)?;
         let band = reduce_band(&t, &panel.band[0], &panel.band[1]);
@@ -180,10 +209,15 @@ fn draw<DB: DrawingBackend>(
             RGBColor(90, 90, 90),
         )?;
         if !reference.is_empty() {
-            draw_labelled_line(&mut chart, reduce(&t, reference), "reference", orange)?;
+            draw_labelled_line(&mut chart, env.reference.clone(), "reference", orange)?;
         }
         if !worst_series.is_empty() {
-            draw_labelled_line(&mut chart, reduce(&t, &worst_series), &worst_label, red)?;
+            draw_labelled_line(
+                &mut chart,
+                reduce(&worst_t, &worst_series),
+                &worst_label,
+                red,
+            )?;
         }
         draw_legend_box(&mut chart)?;
     }

@@ -6,10 +6,14 @@ use std::fmt::Write;
 
 use serde_json::{Value, json as j};
 
-use super::run::{CriterionRecord, SweepResult, VariantResult};
+use super::run::{CriterionRecord, SweepResult};
 use super::space::Param;
+use super::stream::SweepHeader;
+use super::tally::{Tally, VariantPoint};
+use crate::files::printable;
 use crate::report::{CAUTION, Failure, JunitXml, format_number};
 use crate::scenario::Scenario;
+use crate::undefined::Undefined;
 
 /// One criterion over all variants.
 #[derive(Debug, Clone, PartialEq)]
@@ -23,6 +27,8 @@ pub struct CriterionSummary {
     /// Worst measured value (largest for `max`, smallest for `min`);
     /// `None` if it was undefined in the worst variant.
     pub worst: Option<f64>,
+    /// Why the worst value is undefined, when it is.
+    pub worst_reason: Option<Undefined>,
     /// Index of the variant with the worst value (lowest index on ties).
     pub worst_index: usize,
 }
@@ -41,7 +47,7 @@ impl CriterionSummary {
     }
 }
 
-/// The summary of a [`SweepResult`].
+/// The summary of a sweep.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SweepSummary {
     /// Per criterion, in scenario order.
@@ -63,75 +69,48 @@ impl SweepSummary {
     }
 }
 
-/// How far `measured` lies beyond `c`'s limit, relative to the limit
-/// (negative: inside). Undefined is +∞.
-fn excess(c: &CriterionRecord, measured: Option<f64>) -> f64 {
-    let Some(m) = measured else {
-        return f64::INFINITY;
-    };
-    let scale = c.limit.abs().max(1e-12);
-    if c.bound == "min" {
-        (c.limit - m) / scale
-    } else {
-        (m - c.limit) / scale
-    }
+/// The tally of every variant of `result`.
+#[must_use]
+pub fn tally(result: &SweepResult) -> Tally {
+    let mut t = Tally::new(&result.criteria);
+    result.variants.iter().for_each(|v| t.add(v));
+    t
 }
 
-/// Aggregates `result` in index order.
+/// The summary of a tally.
 #[must_use]
-pub fn summarise(result: &SweepResult) -> SweepSummary {
-    let criteria = result
-        .criteria
-        .iter()
-        .enumerate()
-        .map(|(k, c)| {
-            let mut worst: Option<(f64, &VariantResult)> = None;
-            let mut passed = 0;
-            for v in &result.variants {
-                if v.error.is_none() && v.pass.get(k).copied().unwrap_or(false) {
-                    passed += 1;
-                }
-                let e = excess(c, v.measured.get(k).copied().flatten());
-                if worst.is_none_or(|(w, _)| e > w) {
-                    worst = Some((e, v));
-                }
-            }
-            CriterionSummary {
-                criterion: c.clone(),
-                passed,
-                total: result.variants.len(),
-                worst: worst.and_then(|(_, v)| v.measured.get(k).copied().flatten()),
-                worst_index: worst.map_or(0, |(_, v)| v.index),
-            }
-        })
-        .collect();
-    let mut worst: Option<(f64, usize)> = None;
-    for v in &result.variants {
-        let e = result
+pub fn summary_of(tally: &Tally) -> SweepSummary {
+    SweepSummary {
+        criteria: tally
             .criteria
             .iter()
-            .enumerate()
-            .map(|(k, c)| excess(c, v.measured.get(k).copied().flatten()))
-            .fold(f64::NEG_INFINITY, f64::max);
-        if worst.is_none_or(|(w, _)| e > w) {
-            worst = Some((e, v.index));
-        }
-    }
-    SweepSummary {
-        criteria,
-        passed: result.variants.iter().filter(|v| v.passed()).count(),
-        total: result.variants.len(),
-        worst_index: worst.map(|(_, i)| i),
+            .map(|c| CriterionSummary {
+                criterion: c.criterion.clone(),
+                passed: c.passed,
+                total: c.total,
+                worst: c.worst.as_ref().and_then(|w| w.measured),
+                worst_reason: c
+                    .worst
+                    .as_ref()
+                    .and_then(|w| w.reason.as_deref())
+                    .and_then(Undefined::from_key),
+                worst_index: c.worst.as_ref().map_or(0, |w| w.variant.index),
+            })
+            .collect(),
+        passed: tally.passed,
+        total: tally.total,
+        worst_index: tally.worst.as_ref().map(|w| w.variant.index),
     }
 }
 
-fn variant(result: &SweepResult, index: usize) -> Option<&VariantResult> {
-    result.variants.iter().find(|v| v.index == index)
+/// Aggregates `result`.
+#[must_use]
+pub fn summarise(result: &SweepResult) -> SweepSummary {
+    summary_of(&tally(result))
 }
 
-fn params_text(result: &SweepResult, v: &VariantResult) -> String {
-    let mut s: Vec<String> = result
-        .params
+fn params_text(params: &[String], v: &VariantPoint) -> String {
+    let mut s: Vec<String> = params
         .iter()
         .zip(&v.values)
         .map(|(k, x)| format!("{k}={}", format_number(Some(*x))))
@@ -140,28 +119,52 @@ fn params_text(result: &SweepResult, v: &VariantResult) -> String {
     s.join(" ")
 }
 
+/// The worst variant of criterion `k`, if any variant ran.
+fn worst_of(t: &Tally, k: usize) -> Option<&VariantPoint> {
+    t.criteria.get(k)?.worst.as_ref().map(|w| &w.variant)
+}
+
+/// A worst value for humans: the number, or `undefined (reason)`.
+fn worst_text(c: &CriterionSummary) -> String {
+    match (c.worst, c.worst_reason) {
+        (None, Some(u)) => format!("undefined ({})", u.reason()),
+        (w, _) => format_number(w),
+    }
+}
+
 /// The readable report: plan, per-criterion pass fraction and worst value
 /// with the variant that produced it, the caution.
 #[must_use]
 pub fn table(result: &SweepResult) -> String {
-    let summary = summarise(result);
+    table_of(&result.header(), &tally(result))
+}
+
+/// [`table`] of a sweep given by its header and tally.
+#[must_use]
+pub fn table_of(h: &SweepHeader, t: &Tally) -> String {
+    let summary = summary_of(t);
     let mut out = String::new();
-    let _ = writeln!(out, "sweep {} ({})", result.scenario, result.source);
-    let shard = result
+    let _ = writeln!(
+        out,
+        "sweep {} ({})",
+        printable(&h.scenario),
+        printable(&h.source)
+    );
+    let shard = h
         .shard
         .map_or_else(String::new, |(i, n)| format!(", shard {i}/{n}"));
     let _ = writeln!(
         out,
         "  backend {}, method {}, seed {}, {} of {} variants{shard}; parameters: {}",
-        result.backend,
-        result.method,
-        result.seed,
-        result.variants.len(),
-        result.total,
-        if result.params.is_empty() {
+        h.backend,
+        h.method,
+        h.seed,
+        t.total,
+        h.total,
+        if h.params.is_empty() {
             "none".to_owned()
         } else {
-            result.params.join(", ")
+            h.params.join(", ")
         }
     );
     let _ = writeln!(
@@ -176,12 +179,12 @@ pub fn table(result: &SweepResult) -> String {
         "    {:<24} {:>14} {:>8} {:>12}  worst variant",
         "criterion", "limit", "pass %", "worst"
     );
-    for c in &summary.criteria {
+    for (k, c) in summary.criteria.iter().enumerate() {
         let r = &c.criterion;
         let symbol = if r.bound == "min" { ">=" } else { "<=" };
         let limit = format!("{symbol} {}", format_number(Some(r.limit)));
-        let who = variant(result, c.worst_index).map_or_else(String::new, |v| {
-            format!("#{} {}", v.index, params_text(result, v))
+        let who = worst_of(t, k).map_or_else(String::new, |v| {
+            format!("#{} {}", v.index, params_text(&h.params, v))
         });
         let _ = writeln!(
             out,
@@ -189,14 +192,17 @@ pub fn table(result: &SweepResult) -> String {
             r.metric,
             limit,
             100.0 * c.pass_fraction(),
-            format_number(c.worst)
+            worst_text(c)
         );
     }
-    let errors = result.variants.iter().filter(|v| v.error.is_some()).count();
-    if errors > 0 {
+    if t.errors > 0 {
+        let first = t.first_error.as_ref().map_or_else(String::new, |(i, e)| {
+            format!("; first, #{i}: {}", printable(e))
+        });
         let _ = writeln!(
             out,
-            "  {errors} variants could not run (counted as failing)"
+            "  {} variants could not run (counted as failing){first}",
+            t.errors
         );
     }
     let _ = writeln!(out, "  {CAUTION}");
@@ -207,33 +213,40 @@ fn number(x: Option<f64>) -> Value {
     x.filter(|v| v.is_finite()).map_or(Value::Null, Value::from)
 }
 
-fn variant_json(result: &SweepResult, v: &VariantResult) -> Value {
-    let params: serde_json::Map<String, Value> = result
-        .params
+fn variant_json(params: &[String], v: &VariantPoint) -> Value {
+    let map: serde_json::Map<String, Value> = params
         .iter()
         .zip(&v.values)
         .map(|(k, x)| (k.clone(), Value::from(*x)))
         .collect();
-    j!({ "index": v.index, "seed": v.seed, "params": params, "passed": v.passed() })
+    j!({ "index": v.index, "seed": v.seed, "params": map, "passed": v.passed })
 }
 
 /// The sweep report as JSON:
 ///
 /// ```text
 /// { "caution", "scenario", "source", "backend", "method", "seed", "total",
-///   "passed": bool, "variants_passed": n, "params": [..],
+///   "passed": bool, "variants_passed": n, "variants_failed_to_run": n, "params": [..],
 ///   "worst": { "index", "seed", "params": {..}, "passed" } | null,
 ///   "criteria": [ { "name", "bound", "limit", "source", "pass_fraction",
-///                   "passed", "worst": number|null,
+///                   "passed", "worst": number|null, "worst_undefined": key|null,
+///                   "worst_reason": text|null,
 ///                   "worst_variant": { "index", "seed", "params", "passed" } } ] }
 /// ```
 #[must_use]
 pub fn json(result: &SweepResult) -> Value {
-    let summary = summarise(result);
+    json_of(&result.header(), &tally(result))
+}
+
+/// [`json`] of a sweep given by its header and tally.
+#[must_use]
+pub fn json_of(h: &SweepHeader, t: &Tally) -> Value {
+    let summary = summary_of(t);
     let criteria: Vec<Value> = summary
         .criteria
         .iter()
-        .map(|c| {
+        .enumerate()
+        .map(|(k, c)| {
             let r = &c.criterion;
             j!({
                 "name": r.metric,
@@ -243,23 +256,26 @@ pub fn json(result: &SweepResult) -> Value {
                 "pass_fraction": c.pass_fraction(),
                 "passed": c.passed,
                 "worst": number(c.worst),
-                "worst_variant": variant(result, c.worst_index).map(|v| variant_json(result, v)),
+                "worst_undefined": c.worst_reason.map(Undefined::key),
+                "worst_reason": c.worst_reason.map(Undefined::reason),
+                "worst_variant": worst_of(t, k).map(|v| variant_json(&h.params, v)),
             })
         })
         .collect();
     j!({
         "caution": CAUTION,
-        "scenario": result.scenario,
-        "source": result.source,
-        "backend": result.backend,
-        "method": result.method,
-        "seed": result.seed,
-        "total": result.total,
-        "shard": result.shard.map(|(i, n)| format!("{i}/{n}")),
+        "scenario": h.scenario,
+        "source": h.source,
+        "backend": h.backend,
+        "method": h.method,
+        "seed": h.seed,
+        "total": h.total,
+        "shard": h.shard.map(|(i, n)| format!("{i}/{n}")),
         "passed": summary.all_passed(),
         "variants_passed": summary.passed,
-        "params": result.params,
-        "worst": summary.worst_index.and_then(|i| variant(result, i)).map(|v| variant_json(result, v)),
+        "variants_failed_to_run": t.errors,
+        "params": h.params,
+        "worst": t.worst.as_ref().map(|w| variant_json(&h.params, &w.variant)),
         "criteria": criteria,
     })
 }
@@ -268,7 +284,13 @@ pub fn json(result: &SweepResult) -> Value {
 /// failing with the pass fraction and the worst variant.
 #[must_use]
 pub fn junit(result: &SweepResult) -> String {
-    let summary = summarise(result);
+    junit_of(&result.header(), &tally(result))
+}
+
+/// [`junit`] of a sweep given by its header and tally.
+#[must_use]
+pub fn junit_of(h: &SweepHeader, t: &Tally) -> String {
+    let summary = summary_of(t);
     let failures = summary
         .criteria
         .iter()
@@ -276,24 +298,21 @@ pub fn junit(result: &SweepResult) -> String {
         .count();
     let n = summary.criteria.len();
     let mut x = JunitXml::new("evenkeel sweep", n, failures);
-    let suite = format!(
-        "{} [{} sweep, {}]",
-        result.scenario, result.method, result.backend
-    );
+    let suite = format!("{} [{} sweep, {}]", h.scenario, h.method, h.backend);
     x.open_suite(&suite, n, failures, None);
-    let class = format!("{}.sweep", result.scenario);
-    for c in &summary.criteria {
+    let class = format!("{}.sweep", h.scenario);
+    for (k, c) in summary.criteria.iter().enumerate() {
         let r = &c.criterion;
         let symbol = if r.bound == "min" { ">=" } else { "<=" };
         let name = format!("{} {symbol} {}", r.metric, format_number(Some(r.limit)));
-        let who = variant(result, c.worst_index).map_or_else(String::new, |v| {
-            format!(" at variant #{} ({})", v.index, params_text(result, v))
+        let who = worst_of(t, k).map_or_else(String::new, |v| {
+            format!(" at variant #{} ({})", v.index, params_text(&h.params, v))
         });
         let msg = format!(
             "{} of {} variants met {name}; worst {}{who}",
             c.passed,
             c.total,
-            format_number(c.worst)
+            worst_text(c)
         );
         let passed = c.total > 0 && c.passed == c.total;
         let failure = (!passed).then(|| Failure::new("criterion", &msg));
@@ -311,15 +330,12 @@ pub fn variant_scenario(
     result: &SweepResult,
     index: usize,
 ) -> Option<Scenario> {
-    let v = variant(result, index)?;
+    let v = result.variants.iter().find(|v| v.index == index)?;
     Some(super::run::apply_variant(scenario, &v.values, v.seed))
 }
 
 /// The scenario file `text` (of `scenario`) rewritten to variant `index`
-/// of `result`: the parameter values put in, `scenario.seed` set to the
-/// variant's noise seed, the initial command as the variant ran it,
-/// `[uncertainty]` and `[sweep]` removed. `evenkeel check` on it
-/// re-runs that single variant. (Comments are not kept.)
+/// of `result`: see [`variant_toml_of`].
 ///
 /// # Errors
 /// A message if `text` is not TOML or the variant does not exist.
@@ -329,12 +345,40 @@ pub fn variant_toml(
     result: &SweepResult,
     index: usize,
 ) -> Result<String, String> {
-    let v = variant(result, index).ok_or_else(|| format!("no variant #{index} in the result"))?;
+    let v = result
+        .variants
+        .iter()
+        .find(|v| v.index == index)
+        .ok_or_else(|| format!("no variant #{index} in the result"))?;
+    let point = VariantPoint {
+        index: v.index,
+        seed: v.seed,
+        values: v.values.clone(),
+        passed: v.passed(),
+    };
+    variant_toml_of(text, scenario, &result.header(), &point)
+}
+
+/// The scenario file `text` (of `scenario`) rewritten to the variant
+/// `v` of the sweep `h`: the parameter values put in, `scenario.seed` set
+/// to the variant's noise seed, the initial command as the variant ran
+/// it, `[uncertainty]` and `[sweep]` removed. `evenkeel check` on it
+/// re-runs that single variant. (Comments are not kept.)
+///
+/// # Errors
+/// A message if `text` is not TOML.
+pub fn variant_toml_of(
+    text: &str,
+    scenario: &Scenario,
+    h: &SweepHeader,
+    v: &VariantPoint,
+) -> Result<String, String> {
+    let index = v.index;
     let ran = super::run::apply_variant(scenario, &v.values, v.seed);
     let mut doc: toml::Table = toml::from_str(text).map_err(|e| e.to_string())?;
     doc.remove("uncertainty");
     doc.remove("sweep");
-    for (key, &x) in result.params.iter().zip(&v.values) {
+    for (key, &x) in h.params.iter().zip(&v.values) {
         let param = Param::from_key(key).ok_or_else(|| format!("unknown parameter `{key}`"))?;
         let (path, name): (&[&str], &str) = match param {
             Param::ActuatorTauS => (&["actuator"], "tau_s"),
@@ -383,9 +427,9 @@ pub fn variant_toml(
     );
     let head = format!(
         "# Variant #{index} of the {} sweep of `{}` ({}), written by `evenkeel sweep`.\n# {}\n\n",
-        result.method,
-        result.scenario,
-        params_text(result, v),
+        h.method,
+        printable(&h.scenario).replace('\n', " "),
+        params_text(&h.params, v),
         CAUTION
     );
     Ok(head + &toml::to_string(&doc).map_err(|e| e.to_string())?)

@@ -1,13 +1,13 @@
-//! The parallel run of a sweep and the envelope of its signals.
+//! One variant of a sweep, and the results kept for sweeps that fit in
+//! memory.
 
-use evenkeel::Config;
 use evenkeel::fixed::types::I16F16;
-use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 use super::SweepError;
-use super::merge::{Shard, fingerprint};
-use super::space::{SweepPlan, design_points, variant_seed};
+use super::envelope::Envelope;
+use super::merge::Shard;
+use super::space::{SweepPlan, variant_seed};
 use crate::outcome::{BackendKind, BackendRun};
 use crate::scenario::Scenario;
 
@@ -22,107 +22,9 @@ pub(crate) fn noise_seed(plan_seed: u64, index: usize) -> u64 {
     variant_seed(plan_seed ^ NOISE_SALT, index as u64) >> 1
 }
 
-/// Per-sample minimum and maximum of the signals over all variants run.
-///
-/// Min and max are exact and order-free, so shards merge into the same
-/// envelope as one run.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Envelope {
-    /// Controller period, s (sample `k` is at `k·dt_s`).
-    pub dt_s: f64,
-    /// Reference (the same in every variant).
-    pub reference: Vec<f64>,
-    /// True plant output, lower and upper bound.
-    pub output: [Vec<f64>; 2],
-    /// Command.
-    pub command: [Vec<f64>; 2],
-    /// Plant rate (acceleration).
-    pub accel: [Vec<f64>; 2],
-    /// Jerk.
-    pub jerk: [Vec<f64>; 2],
-    /// Variants that contributed.
-    pub runs: usize,
-}
-
-impl Envelope {
-    fn empty(dt_s: f64, reference: Vec<f64>) -> Self {
-        let n = reference.len();
-        let band = || [vec![f64::INFINITY; n], vec![f64::NEG_INFINITY; n]];
-        Self {
-            dt_s,
-            reference,
-            output: band(),
-            command: band(),
-            accel: band(),
-            jerk: band(),
-            runs: 0,
-        }
-    }
-
-    fn add(&mut self, run: &BackendRun) {
-        let rec = &run.recording;
-        let jerk = rec.jerk();
-        self.runs += 1;
-        for (band, x) in [
-            (&mut self.output, &rec.output),
-            (&mut self.command, &rec.command),
-            (&mut self.accel, &rec.accel),
-            (&mut self.jerk, &jerk),
-        ] {
-            let [lo, hi] = band;
-            for ((l, h), &v) in lo.iter_mut().zip(hi.iter_mut()).zip(x) {
-                if v.is_finite() {
-                    *l = l.min(v);
-                    *h = h.max(v);
-                }
-            }
-        }
-    }
-
-    /// Widens `self` to cover `other` too.
-    pub(crate) fn combine(&mut self, other: &Self) {
-        if other.runs == 0 {
-            return;
-        }
-        if self.runs == 0 {
-            *self = other.clone();
-            return;
-        }
-        self.runs += other.runs;
-        for (a, b) in [
-            (&mut self.output, &other.output),
-            (&mut self.command, &other.command),
-            (&mut self.accel, &other.accel),
-            (&mut self.jerk, &other.jerk),
-        ] {
-            for (x, y) in a[0].iter_mut().zip(&b[0]) {
-                *x = x.min(*y);
-            }
-            for (x, y) in a[1].iter_mut().zip(&b[1]) {
-                *x = x.max(*y);
-            }
-        }
-    }
-
-    /// Replaces bounds no variant touched (±∞) by 0, so JSON can hold them.
-    fn finish(&mut self) {
-        for band in [
-            &mut self.output,
-            &mut self.command,
-            &mut self.accel,
-            &mut self.jerk,
-        ] {
-            for v in band.iter_mut().flatten() {
-                if !v.is_finite() {
-                    *v = 0.0;
-                }
-            }
-        }
-    }
-}
-
 /// One variant's result.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct VariantResult {
     /// Index in the sweep (0-based).
     pub index: usize,
@@ -134,6 +36,10 @@ pub struct VariantResult {
     pub measured: Vec<Option<f64>>,
     /// Pass per criterion.
     pub pass: Vec<bool>,
+    /// Per criterion, why its measured value is undefined
+    /// ([`Undefined::key`](crate::undefined::Undefined::key)), when it is.
+    #[serde(default)]
+    pub reasons: Vec<Option<String>>,
     /// Towed-load shifts.
     pub load_shifts: usize,
     /// Why the variant could not run (counts as failing every criterion).
@@ -141,6 +47,12 @@ pub struct VariantResult {
 }
 
 impl VariantResult {
+    /// Why criterion `k`'s value is undefined (its key), when it is.
+    #[must_use]
+    pub fn reason(&self, k: usize) -> Option<String> {
+        self.reasons.get(k).cloned().flatten()
+    }
+
     /// `true` when every criterion passed.
     #[must_use]
     pub fn passed(&self) -> bool {
@@ -150,6 +62,7 @@ impl VariantResult {
 
 /// A criterion as recorded in a result file.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct CriterionRecord {
     /// Metric key.
     pub metric: String,
@@ -164,12 +77,13 @@ pub struct CriterionRecord {
 /// The result of a sweep or of one shard of it; what `--save` writes and
 /// `merge` reads.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct SweepResult {
     /// Scenario name.
     pub scenario: String,
     /// Scenario source (file path).
     pub source: String,
-    /// [`fingerprint`] of the scenario: shards of different scenarios do
+    /// [`fingerprint`](super::fingerprint) of the scenario: shards of different scenarios do
     /// not merge.
     pub fingerprint: String,
     /// Backend name (`fixed`, `f32`, `f64`).
@@ -178,6 +92,8 @@ pub struct SweepResult {
     pub method: String,
     /// Seed of the sweep.
     pub seed: u64,
+    /// Values per parameter (grid).
+    pub levels: usize,
     /// Variants of the whole sweep.
     pub total: usize,
     /// `(i, n)` for a shard, `None` for a whole sweep.
@@ -190,6 +106,28 @@ pub struct SweepResult {
     pub variants: Vec<VariantResult>,
     /// Envelope over the variants run.
     pub envelope: Envelope,
+}
+
+impl SweepResult {
+    /// What the sweep was, without its variants.
+    #[must_use]
+    pub fn header(&self) -> super::SweepHeader {
+        super::SweepHeader {
+            format: super::HEADER_FORMAT.to_owned(),
+            caution: crate::CAUTION.to_owned(),
+            scenario: self.scenario.clone(),
+            source: self.source.clone(),
+            fingerprint: self.fingerprint.clone(),
+            backend: self.backend.clone(),
+            method: self.method.clone(),
+            seed: self.seed,
+            levels: self.levels,
+            total: self.total,
+            shard: self.shard,
+            params: self.params.clone(),
+            criteria: self.criteria.clone(),
+        }
+    }
 }
 
 /// Largest mismatch, as a fraction of the output range, between the
@@ -231,7 +169,7 @@ pub fn apply_variant(scenario: &Scenario, point: &[f64], seed: u64) -> Scenario 
     s
 }
 
-fn run_one(
+pub(crate) fn run_one(
     scenario: &Scenario,
     backend: BackendKind,
     point: &[f64],
@@ -254,6 +192,11 @@ fn run_one(
                 values: point.to_vec(),
                 measured: run.verdicts.iter().map(|v| v.measured).collect(),
                 pass: run.verdicts.iter().map(|v| v.pass).collect(),
+                reasons: run
+                    .verdicts
+                    .iter()
+                    .map(|v| v.undefined.map(|u| u.key().to_owned()))
+                    .collect(),
                 load_shifts: run.recording.load_shifts,
                 error: None,
             },
@@ -266,6 +209,7 @@ fn run_one(
                 values: point.to_vec(),
                 measured: vec![None; n],
                 pass: vec![false; n],
+                reasons: vec![None; n],
                 load_shifts: 0,
                 error: Some(e.to_string()),
             },
@@ -276,7 +220,9 @@ fn run_one(
 
 /// Runs the variants of `scenario.uncertainty` chosen by `plan` (all of
 /// them, or the slice of `shard`) on `backend`, in parallel on the rayon
-/// thread pool; `progress` is called with 1 after each variant.
+/// thread pool; `progress` is called with 1 after each variant. Every
+/// variant's result is kept: for sweeps of a size that fits in memory
+/// (the CLI streams them through [`stream`](super::stream) instead).
 ///
 /// The result depends only on the scenario, the plan, the backend and the
 /// shard: variants are built from `(seed, index)` and collected in index
@@ -292,86 +238,25 @@ pub fn run(
     shard: Option<Shard>,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<SweepResult, SweepError> {
-    let total = plan
-        .variants(scenario.uncertainty.len())
-        .ok_or(SweepError::TooLarge)?;
-    // Settings the backend refuses fail every variant alike: say so once.
-    let refused = |backend_name, error| crate::RunError::Config {
-        backend: backend_name,
-        error,
-    };
-    match backend {
-        BackendKind::Fixed => Config::<I16F16>::try_new(&scenario.controller)
-            .map(drop)
-            .map_err(|e| refused("fixed", e))?,
-        BackendKind::F32 => Config::<f32>::try_new(&scenario.controller)
-            .map(drop)
-            .map_err(|e| refused("f32", e))?,
-        BackendKind::F64 => Config::<f64>::try_new(&scenario.controller)
-            .map(drop)
-            .map_err(|e| refused("f64", e))?,
-    }
-    let points = design_points(&scenario.uncertainty, plan, total);
-    let range = shard.map_or(0..total, |s| s.range(total));
-    let reference = {
-        let ts = scenario.controller.period_s;
-        #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
-        let n = (scenario.setup.duration_s / ts).round().max(1.0) as usize;
-        #[allow(clippy::cast_precision_loss)]
-        (0..n)
-            .map(|k| scenario.setup.reference.at(k as f64 * ts))
-            .collect::<Vec<_>>()
-    };
-    let empty = || Envelope::empty(scenario.controller.period_s, reference.clone());
-    let (mut variants, mut envelope) = range
-        .into_par_iter()
-        .fold(
-            || (Vec::new(), empty()),
-            |(mut list, mut env), i| {
-                let (v, run) = run_one(scenario, backend, &points[i], i, plan.seed);
-                if let Some(run) = &run {
-                    env.add(run);
-                }
-                list.push(v);
-                progress(1);
-                (list, env)
-            },
-        )
-        .reduce(
-            || (Vec::new(), empty()),
-            |(mut a, mut ea), (b, eb)| {
-                a.extend(b);
-                ea.combine(&eb);
-                (a, ea)
-            },
-        );
-    variants.sort_by_key(|v| v.index);
-    envelope.finish();
+    let mut variants = Vec::new();
+    let streamed = super::stream(scenario, plan, backend, shard, progress, &mut |v| {
+        variants.push(v.clone());
+        Ok(())
+    })?;
+    let h = streamed.header;
     Ok(SweepResult {
-        scenario: scenario.name.clone(),
-        source: scenario.source.clone(),
-        fingerprint: fingerprint(scenario),
-        backend: backend.name().to_owned(),
-        method: plan.method.name().to_owned(),
-        seed: plan.seed,
-        total,
-        shard: shard.map(|s| (s.index, s.count)),
-        params: scenario
-            .uncertainty
-            .iter()
-            .map(|u| u.param.key().to_owned())
-            .collect(),
-        criteria: scenario
-            .criteria
-            .iter()
-            .map(|c| CriterionRecord {
-                metric: c.metric.name().to_owned(),
-                bound: c.bound.name().to_owned(),
-                limit: c.limit,
-                source: c.source.clone(),
-            })
-            .collect(),
+        scenario: h.scenario,
+        source: h.source,
+        fingerprint: h.fingerprint,
+        backend: h.backend,
+        method: h.method,
+        seed: h.seed,
+        levels: h.levels,
+        total: h.total,
+        shard: h.shard,
+        params: h.params,
+        criteria: h.criteria,
         variants,
-        envelope,
+        envelope: streamed.envelope,
     })
 }

@@ -435,27 +435,67 @@ impl Default for SweepPlan {
 /// Largest number of variants a sweep accepts.
 pub const MAX_VARIANTS: usize = 100_000_000;
 
+/// Largest number of variants of a Latin hypercube: it keeps one
+/// permutation per parameter (4 bytes per variant each, 40 MB per
+/// parameter at this size).
+pub const MAX_LATIN_HYPERCUBE: usize = 10_000_000;
+
 impl SweepPlan {
     /// Number of variants over `dims` uncertain parameters; `None` if it
-    /// exceeds [`MAX_VARIANTS`].
+    /// exceeds [`MAX_VARIANTS`] (or [`MAX_LATIN_HYPERCUBE`]).
     #[must_use]
     pub fn variants(&self, dims: usize) -> Option<usize> {
-        let n = match self.method {
-            Method::Grid => {
-                let d = u32::try_from(dims).ok()?;
-                self.levels.checked_pow(d)?
-            }
-            Method::Corners => {
-                let d = u32::try_from(dims).ok()?;
+        self.size(dims).ok()
+    }
+
+    /// As [`SweepPlan::variants`], the refusal saying how many variants
+    /// the design has and how many are allowed.
+    ///
+    /// ```
+    /// use evenkeel_harness::sweep::{Method, SweepPlan};
+    /// let grid = SweepPlan { method: Method::Grid, levels: 1000, ..SweepPlan::default() };
+    /// let e = grid.size(4).unwrap_err().to_string();
+    /// assert!(e.contains("1000000000000 variants") && e.contains("at most 100000000"), "{e}");
+    /// ```
+    ///
+    /// # Errors
+    /// [`SweepError::TooLarge`](super::SweepError::TooLarge).
+    pub fn size(&self, dims: usize) -> Result<usize, super::SweepError> {
+        let d = u32::try_from(dims).unwrap_or(u32::MAX);
+        let (n, what, limit): (Option<u128>, String, usize) = match self.method {
+            Method::Grid => (
+                (self.levels as u128).checked_pow(d),
+                format!("a grid of {} levels over {dims} parameters", self.levels),
+                MAX_VARIANTS,
+            ),
+            Method::Corners => (
                 if dims == 0 {
-                    1
+                    Some(1)
                 } else {
-                    2usize.checked_pow(d)?.checked_add(1)?
-                }
-            }
-            Method::Random | Method::LatinHypercube => self.count,
+                    2u128.checked_pow(d).map(|c| c + 1)
+                },
+                format!("the corners of {dims} parameters and the centre"),
+                MAX_VARIANTS,
+            ),
+            Method::Random => (
+                Some(self.count as u128),
+                "a random sample".to_owned(),
+                MAX_VARIANTS,
+            ),
+            Method::LatinHypercube => (
+                Some(self.count as u128),
+                "a Latin hypercube (it keeps a permutation per parameter)".to_owned(),
+                MAX_LATIN_HYPERCUBE,
+            ),
         };
-        (n <= MAX_VARIANTS).then_some(n)
+        match n.and_then(|n| usize::try_from(n).ok()) {
+            Some(n) if n <= limit => Ok(n),
+            _ => Err(super::SweepError::TooLarge {
+                design: what,
+                variants: n.map_or_else(|| "more than 3.4e38".to_owned(), |n| n.to_string()),
+                limit,
+            }),
+        }
     }
 }
 
@@ -512,8 +552,8 @@ impl Stream {
 
 /// The design: every variant's parameter values, in index order.
 ///
-/// Built whole (cheap: `variants × dims` numbers) so that Latin hypercube
-/// permutations are the same for every shard.
+/// Built whole from [`Design`] (`variants × dims` numbers); a sweep run
+/// asks [`Design::point`] for one variant at a time instead.
 ///
 /// ```
 /// use evenkeel_harness::sweep::{Distribution, Method, Param, SweepPlan, Uncertain, design_points};
@@ -523,77 +563,114 @@ impl Stream {
 /// ```
 #[must_use]
 pub fn design_points(space: &[Uncertain], plan: &SweepPlan, variants: usize) -> Vec<Vec<f64>> {
-    let dims = space.len();
-    match plan.method {
-        Method::Grid => {
-            let levels = plan.levels.max(2);
-            (0..variants)
-                .map(|i| {
-                    let mut rest = i;
-                    space
-                        .iter()
-                        .map(|u| {
-                            let level = rest % levels;
-                            rest /= levels;
-                            let (lo, hi) = u.dist.support();
-                            // Exact for small integers.
-                            #[allow(clippy::cast_precision_loss)]
-                            let f = level as f64 / (levels - 1) as f64;
-                            if level + 1 == levels {
-                                hi
-                            } else {
-                                lo + f * (hi - lo)
-                            }
-                        })
-                        .collect()
+    let design = Design::new(space, plan, variants);
+    (0..variants).map(|i| design.point(i)).collect()
+}
+
+/// The variants of a sweep, computed one at a time from `(seed, index)`.
+///
+/// Grid, corners and random draws keep nothing per variant; a Latin
+/// hypercube keeps one stratum index (4 bytes) per variant and parameter,
+/// its permutations, so that every shard sees the same ones (at most
+/// [`MAX_LATIN_HYPERCUBE`] variants, 40 MB per parameter; 12 MB for 10⁶
+/// variants of three parameters).
+#[derive(Debug, Clone)]
+pub struct Design {
+    space: Vec<Uncertain>,
+    plan: SweepPlan,
+    variants: usize,
+    /// Latin hypercube only: per parameter, the stratum of each variant.
+    strata: Vec<Vec<u32>>,
+}
+
+impl Design {
+    /// The design of `plan` over `space` with `variants` variants.
+    #[must_use]
+    pub fn new(space: &[Uncertain], plan: &SweepPlan, variants: usize) -> Self {
+        let strata = if plan.method == Method::LatinHypercube {
+            (0..space.len())
+                .map(|j| {
+                    // One permutation of the strata per parameter, Fisher–Yates.
+                    let mut perm: Vec<u32> = (0..variants)
+                        .map(|i| u32::try_from(i).unwrap_or(u32::MAX))
+                        .collect();
+                    let mut s = Stream(variant_seed(plan.seed ^ 0x4C48_5300, j as u64));
+                    for k in (1..variants).rev() {
+                        let r = usize::try_from(s.below(k as u64 + 1)).unwrap_or(0);
+                        perm.swap(k, r);
+                    }
+                    perm
                 })
                 .collect()
+        } else {
+            Vec::new()
+        };
+        Self {
+            space: space.to_vec(),
+            plan: *plan,
+            variants,
+            strata,
         }
-        Method::Corners => {
-            let corners = variants.saturating_sub(1);
-            (0..variants)
-                .map(|i| {
-                    space
-                        .iter()
-                        .enumerate()
-                        .map(|(j, u)| {
-                            let (lo, hi) = u.dist.support();
-                            if i >= corners || dims == 0 {
-                                u.dist.centre()
-                            } else if (i >> j) & 1 == 1 {
-                                hi
-                            } else {
-                                lo
-                            }
-                        })
-                        .collect()
-                })
-                .collect()
-        }
-        Method::Random => (0..variants)
-            .map(|i| {
+    }
+
+    /// The parameter values of variant `i` (`i < variants`).
+    #[must_use]
+    pub fn point(&self, i: usize) -> Vec<f64> {
+        let (space, plan, variants) = (&self.space, &self.plan, self.variants);
+        let dims = space.len();
+        match plan.method {
+            Method::Grid => {
+                let levels = plan.levels.max(2);
+                let mut rest = i;
+                space
+                    .iter()
+                    .map(|u| {
+                        let level = rest % levels;
+                        rest /= levels;
+                        let (lo, hi) = u.dist.support();
+                        // Exact for small integers.
+                        #[allow(clippy::cast_precision_loss)]
+                        let f = level as f64 / (levels - 1) as f64;
+                        if level + 1 == levels {
+                            hi
+                        } else {
+                            lo + f * (hi - lo)
+                        }
+                    })
+                    .collect()
+            }
+            Method::Corners => {
+                let corners = variants.saturating_sub(1);
+                space
+                    .iter()
+                    .enumerate()
+                    .map(|(j, u)| {
+                        let (lo, hi) = u.dist.support();
+                        if i >= corners || dims == 0 {
+                            u.dist.centre()
+                        } else if (i >> j) & 1 == 1 {
+                            hi
+                        } else {
+                            lo
+                        }
+                    })
+                    .collect()
+            }
+            Method::Random => {
                 let mut s = Stream(variant_seed(plan.seed, i as u64));
                 space.iter().map(|u| u.dist.quantile(s.uniform())).collect()
-            })
-            .collect(),
-        Method::LatinHypercube => {
-            let mut points = vec![Vec::with_capacity(dims); variants];
-            for (j, u) in space.iter().enumerate() {
-                // One permutation of the strata per parameter, Fisher–Yates.
-                let mut perm: Vec<usize> = (0..variants).collect();
-                let mut s = Stream(variant_seed(plan.seed ^ 0x4C48_5300, j as u64));
-                for k in (1..variants).rev() {
-                    let r = usize::try_from(s.below(k as u64 + 1)).unwrap_or(0);
-                    perm.swap(k, r);
-                }
-                for (i, point) in points.iter_mut().enumerate() {
-                    let mut jitter = Stream(variant_seed(plan.seed, ((j as u64) << 40) ^ i as u64));
-                    #[allow(clippy::cast_precision_loss)]
-                    let p = (perm[i] as f64 + jitter.uniform()) / variants as f64;
-                    point.push(u.dist.quantile(p));
-                }
             }
-            points
+            Method::LatinHypercube => space
+                .iter()
+                .enumerate()
+                .map(|(j, u)| {
+                    let mut jitter = Stream(variant_seed(plan.seed, ((j as u64) << 40) ^ i as u64));
+                    let stratum = self.strata[j][i];
+                    #[allow(clippy::cast_precision_loss)]
+                    let p = (f64::from(stratum) + jitter.uniform()) / variants as f64;
+                    u.dist.quantile(p)
+                })
+                .collect(),
         }
     }
 }

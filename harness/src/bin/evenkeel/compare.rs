@@ -5,6 +5,8 @@ use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::Args;
+
+use super::output::{self, Outputs};
 use evenkeel_harness::compare::{self, Comparison};
 
 /// Options of `evenkeel compare` (those of `check` that apply).
@@ -15,7 +17,8 @@ pub(crate) struct CompareArgs {
     /// Write machine-readable results as JSON to PATH (`-`: standard output).
     #[arg(long, value_name = "PATH")]
     json: Option<PathBuf>,
-    /// Write JUnit XML (one test case per check) to PATH.
+    /// Write JUnit XML (one test case per check) to PATH (`-`: standard
+    /// output).
     #[arg(long, value_name = "PATH")]
     junit: Option<PathBuf>,
     /// Write both trajectories and their differences as CSV to PATH (one
@@ -30,42 +33,38 @@ pub(crate) struct CompareArgs {
 
 /// Runs every comparison; `Ok(passed)`, or an error for bad input.
 pub(crate) fn run(args: &CompareArgs) -> anyhow::Result<bool> {
-    super::output::check_report_paths(
-        &[
-            args.json.as_deref(),
-            args.junit.as_deref(),
-            args.trace.as_deref(),
-        ],
-        args.plot.as_deref(),
-    )?;
+    let mut out = Outputs::new(&output::paths(&args.scenarios));
+    out.file("--json", args.json.as_deref())?;
+    out.file("--junit", args.junit.as_deref())?;
+    output::base_ok("--trace", args.trace.as_deref(), false)?;
+    output::base_ok("--plot", args.plot.as_deref(), true)?;
     let scenarios = super::load_scenarios(&args.scenarios)?;
+    let files = output::PerRun {
+        trace: args.trace.as_deref(),
+        plot: args.plot.as_deref(),
+        only: scenarios.len() == 1,
+    };
+    let names: Vec<(&str, &str, &str)> = scenarios
+        .iter()
+        .map(|s| (s.name.as_str(), s.source.as_str(), "compare"))
+        .collect();
+    out.per_run(&files, &names)?;
     let mut comparisons: Vec<Comparison> = Vec::with_capacity(scenarios.len());
     for s in &scenarios {
         let c =
             compare::compare(s).with_context(|| format!("{}: scenario `{}`", s.source, s.name))?;
-        comparisons.push(c);
-    }
-
-    let tables: String = comparisons.iter().map(compare::table).collect();
-    super::output::summary(
-        &tables,
-        args.json.as_deref(),
-        || compare::json(&comparisons),
-        args.junit.as_deref(),
-        || compare::junit(&comparisons),
-    )?;
-    let files = super::output::PerRun {
-        trace: args.trace.as_deref(),
-        plot: args.plot.as_deref(),
-        only: comparisons.len() == 1,
-    };
-    for c in &comparisons {
         files.write(
+            &mut out,
             &c.scenario.name,
             "compare",
-            || compare::trace_csv(c),
-            |path| Ok(compare::plot(c, path)?),
+            |w| w.write_all(compare::trace_csv(&c).as_bytes()),
+            |path| Ok(compare::plot(&c, path)?),
         )?;
+        comparisons.push(c);
     }
+    out.json(args.json.as_deref(), || compare::json(&comparisons))?;
+    out.text(args.junit.as_deref(), || compare::junit(&comparisons))?;
+    let tables: String = comparisons.iter().map(compare::table).collect();
+    out.finish(&tables)?;
     Ok(comparisons.iter().all(Comparison::passed))
 }

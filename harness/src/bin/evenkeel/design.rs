@@ -7,7 +7,7 @@ use clap::{Args, ValueEnum};
 use evenkeel_harness::Scenario;
 use evenkeel_harness::design::{self, HEADER_MARK, Options, Request, Tuned};
 
-use super::output::{self, write};
+use super::output::{self, Outputs};
 use super::robust::OneBackend;
 
 #[derive(Args)]
@@ -52,7 +52,7 @@ pub struct DesignArgs {
     #[arg(long, value_name = "PATH")]
     json: Option<PathBuf>,
     /// Write JUnit XML (feasibility, one case per criterion and
-    /// constraint, fixed point) to PATH.
+    /// constraint, fixed point) to PATH (`-`: standard output).
     #[arg(long, value_name = "PATH")]
     junit: Option<PathBuf>,
     /// Frequency responses at every corner, Nyquist curves and the speed
@@ -71,7 +71,8 @@ pub struct DesignArgs {
     /// design passes).
     #[arg(long)]
     in_place: bool,
-    /// Write the firmware `const` configuration (Rust) to PATH.
+    /// Write the firmware `const` configuration (Rust) to PATH (`-`:
+    /// standard output).
     #[arg(long, value_name = "PATH")]
     rust_out: Option<PathBuf>,
 }
@@ -82,69 +83,37 @@ enum DesignMethod {
     PolePlacement,
 }
 
-/// `true` if `a` and `b` name the same file (both existing), or the same
-/// path.
-fn same_file(a: &Path, b: &Path) -> bool {
-    match (a.canonicalize(), b.canonicalize()) {
-        (Ok(x), Ok(y)) => x == y,
-        _ => a == b,
-    }
-}
-
-/// Output paths must differ from each other and from the input (except
-/// `--in-place`, which names the input on purpose).
-fn distinct_outputs(args: &DesignArgs) -> anyhow::Result<()> {
-    let outs: Vec<(&str, &Path)> = [
-        ("--json", args.json.as_deref()),
-        ("--junit", args.junit.as_deref()),
-        ("--plot", args.plot.as_deref()),
-        ("--html", args.html.as_deref()),
-        ("--scenario-out", args.scenario_out.as_deref()),
-        ("--rust-out", args.rust_out.as_deref()),
-    ]
-    .into_iter()
-    .filter_map(|(flag, p)| p.map(|p| (flag, p)))
-    .filter(|(_, p)| p.as_os_str() != "-")
-    .collect();
-    for (i, (flag, p)) in outs.iter().enumerate() {
-        if same_file(p, &args.scenario) {
-            if *flag == "--scenario-out" {
-                anyhow::bail!(
+/// Checks every output before anything runs: none is the input (but
+/// `--in-place`), none is another, each can be written.
+fn plan_outputs(args: &DesignArgs) -> anyhow::Result<Outputs> {
+    let mut out = Outputs::new(&[args.scenario.as_path()]);
+    out.file("--json", args.json.as_deref())?;
+    out.file("--junit", args.junit.as_deref())?;
+    out.plot("--plot", args.plot.as_deref())?;
+    out.file("--html", args.html.as_deref())?;
+    if let Some(p) = args.scenario_out.as_deref() {
+        out.file("--scenario-out", Some(p)).map_err(|e| {
+            if e.to_string().contains("is an input") {
+                anyhow::anyhow!(
                     "--scenario-out {}: that is the input scenario; refusing to overwrite it (give --in-place to write the design into it)",
-                    p.display()
-                );
+                    output::shown(p)
+                )
+            } else {
+                e
             }
-            anyhow::bail!(
-                "{flag} {}: that is the input scenario; refusing to overwrite it",
-                p.display()
-            );
-        }
-        for (other, q) in &outs[..i] {
-            anyhow::ensure!(
-                !same_file(p, q),
-                "{flag} {} and {other} {} name the same file",
-                p.display(),
-                q.display()
-            );
-        }
+        })?;
     }
-    Ok(())
+    out.file("--rust-out", args.rust_out.as_deref())?;
+    if args.in_place {
+        out.in_place("--in-place", &args.scenario)?;
+    }
+    Ok(out)
 }
 
 /// `evenkeel design`: `Ok(true)` only when the design passes
 /// ([`Tuned::passed`]).
 pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
-    output::check_report_paths(
-        &[
-            args.json.as_deref(),
-            args.junit.as_deref(),
-            args.rust_out.as_deref(),
-            args.scenario_out.as_deref(),
-            args.html.as_deref(),
-        ],
-        args.plot.as_deref(),
-    )?;
-    distinct_outputs(args)?;
+    let mut out = plan_outputs(args)?;
     anyhow::ensure!(
         args.count <= 100_000,
         "--count {}: at most 100000",
@@ -183,7 +152,7 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
     if let Some(path) = &args.rust_out
         && tuned.feasibility.feasible()
     {
-        write(path, snippet.as_bytes())?;
+        out.bytes(path, snippet.as_bytes())?;
     }
     // Nothing is written when nothing was tuned (infeasible); the input
     // itself only when the design passes.
@@ -199,7 +168,7 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
             .with_context(|| format!("reading {}", args.scenario.display()))?;
         let body = design::scenario_toml(&source, &tuned.settings, &header(&tuned))
             .map_err(|e| anyhow::anyhow!("{}: {e}", args.scenario.display()))?;
-        write(path, body.as_bytes())?;
+        out.bytes(path, body.as_bytes())?;
         text.push_str(&format!(
             "\nwrote {}{}\n",
             path.display(),
@@ -230,19 +199,15 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
     let trade = (args.plot.is_some() || args.html.is_some())
         .then(|| design::trade_off(&scenario, &tuned.settings, options.backend, options.seed));
     if let (Some(path), Some(trade)) = (&args.plot, &trade) {
-        design::plot(&scenario, &tuned, trade, path)?;
+        out.drawn(path, |p| Ok(design::plot(&scenario, &tuned, trade, p)?))?;
     }
     if let (Some(path), Some(trade)) = (&args.html, &trade) {
         let svg = design::plot_svg(&scenario, &tuned, trade)?;
-        write(path, design::html(&scenario, &tuned, Some(&svg)).as_bytes())?;
+        out.bytes(path, design::html(&scenario, &tuned, Some(&svg)).as_bytes())?;
     }
-    output::summary(
-        &text,
-        args.json.as_deref(),
-        || design::json(&scenario, &tuned),
-        args.junit.as_deref(),
-        || design::junit(&scenario, &tuned),
-    )?;
+    out.json(args.json.as_deref(), || design::json(&scenario, &tuned))?;
+    out.text(args.junit.as_deref(), || design::junit(&scenario, &tuned))?;
+    out.finish(&text)?;
     Ok(passed)
 }
 

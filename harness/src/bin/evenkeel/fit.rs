@@ -7,7 +7,7 @@ use clap::{Args, ValueEnum};
 use evenkeel_harness::Scenario;
 use evenkeel_harness::fit::{self, Columns, FitRequest, ModelKind};
 
-use super::output::{self, write};
+use super::output::{self, Outputs};
 
 #[derive(Args)]
 pub struct FitArgs {
@@ -74,45 +74,19 @@ enum ModelArg {
     Rotor,
 }
 
-fn same_file(a: &Path, b: &Path) -> bool {
-    match (a.canonicalize(), b.canonicalize()) {
-        (Ok(x), Ok(y)) => x == y,
-        _ => a == b,
-    }
-}
-
 /// `evenkeel fit`: `Ok(true)` when every log's fit can be handed over.
 pub fn run(args: &FitArgs) -> anyhow::Result<bool> {
-    output::check_report_paths(
-        &[
-            args.json.as_deref(),
-            args.scenario_out.as_deref(),
-            args.html.as_deref(),
-        ],
-        args.plot.as_deref(),
-    )?;
     let inputs: Vec<&Path> = args
         .logs
         .iter()
         .map(PathBuf::as_path)
         .chain(args.scenario.as_deref())
         .collect();
-    for (flag, out) in [
-        ("--json", args.json.as_deref()),
-        ("--plot", args.plot.as_deref()),
-        ("--html", args.html.as_deref()),
-        ("--scenario-out", args.scenario_out.as_deref()),
-    ] {
-        if let Some(out) = out.filter(|p| p.as_os_str() != "-")
-            && let Some(input) = inputs.iter().find(|i| same_file(out, i))
-        {
-            anyhow::bail!(
-                "{flag} {}: that is an input ({}); refusing to overwrite it",
-                out.display(),
-                input.display()
-            );
-        }
-    }
+    let mut out = Outputs::new(&inputs);
+    out.file("--json", args.json.as_deref())?;
+    out.plot("--plot", args.plot.as_deref())?;
+    out.file("--html", args.html.as_deref())?;
+    out.file("--scenario-out", args.scenario_out.as_deref())?;
     anyhow::ensure!(
         args.margin.is_finite() && (0.0..=10.0).contains(&args.margin),
         "--margin {}: must be in [0, 10] (a fraction of the nominal)",
@@ -185,8 +159,8 @@ pub fn run(args: &FitArgs) -> anyhow::Result<bool> {
             // The scenario written must load: check before handing it over.
             Scenario::from_toml(&body, &path.display().to_string())
                 .context("the scenario written from the fit does not load (please report)")?;
-            write(path, body.as_bytes())?;
-            text.push_str(&format!("wrote {}\n", path.display()));
+            out.bytes(path, body.as_bytes())?;
+            text.push_str(&format!("wrote {}\n", output::shown(path)));
         } else {
             text.push_str(&format!(
                 "{} not written: a fit cannot be handed over (see PROBLEM above)\n",
@@ -195,18 +169,13 @@ pub fn run(args: &FitArgs) -> anyhow::Result<bool> {
         }
     }
     if let Some(path) = &args.plot {
-        fit::plot(&outcome, &logs, &unit, path)?;
+        out.drawn(path, |p| Ok(fit::plot(&outcome, &logs, &unit, p)?))?;
     }
     if let Some(path) = &args.html {
         let svg = fit::plot_svg(&outcome, &logs, &unit)?;
-        write(path, fit::html(&outcome, &unit, Some(&svg)).as_bytes())?;
+        out.bytes(path, fit::html(&outcome, &unit, Some(&svg)).as_bytes())?;
     }
-    output::summary(
-        &text,
-        args.json.as_deref(),
-        || fit::json(&outcome),
-        None,
-        String::new,
-    )?;
+    out.json(args.json.as_deref(), || fit::json(&outcome))?;
+    out.finish(&text)?;
     Ok(outcome.passed())
 }

@@ -1,44 +1,205 @@
 //! Report files and the summary table, shared by `check`, `compare`,
-//! `sweep`, `merge` and `design`: where the table goes, `--json`, `--junit`,
-//! one `--trace`/`--plot` file per run, and the checks on report paths.
+//! `sweep`, `merge` and `design`: every output is checked before the run
+//! ([`OutputPlan`]), staged while the run goes ([`Staging`]) and put in
+//! place together at the end, or not at all.
 
-use std::io::Write;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 use anyhow::Context;
-use evenkeel_harness::report::{per_run_path, write_atomic};
-use serde_json::Value;
+use evenkeel_harness::fault::FaultTrace;
+pub(crate) use evenkeel_harness::files::shown;
+use evenkeel_harness::files::{OutputPlan, Staging, printable};
+use evenkeel_harness::report::per_run_path;
+use evenkeel_harness::sim::Recording;
 
-/// Prints `tables`, then writes the JSON (`json` given the value of
-/// `to_json`) and the JUnit XML (`junit` given `to_junit`) asked for.
-///
-/// `json` may be `-`: the JSON then goes to standard output and the tables
-/// to standard error, so that standard output stays machine-readable.
-pub(crate) fn summary(
-    tables: &str,
-    json: Option<&Path>,
-    to_json: impl FnOnce() -> Value,
-    junit: Option<&Path>,
-    to_junit: impl FnOnce() -> String,
-) -> anyhow::Result<()> {
-    let json_to_stdout = json == Some(Path::new("-"));
-    if json_to_stdout {
-        eprint!("{tables}");
-    } else {
-        print!("{tables}");
-    }
-    if let Some(path) = json {
-        let text = serde_json::to_string_pretty(&to_json())? + "\n";
-        if json_to_stdout {
-            std::io::stdout().write_all(text.as_bytes())?;
-        } else {
-            write(path, text.as_bytes())?;
+/// The outputs of one command run.
+pub(crate) struct Outputs {
+    plan: OutputPlan,
+    staging: Staging,
+}
+
+impl Outputs {
+    /// A run that reads `inputs`: no output may replace one of them.
+    pub(crate) fn new<P: AsRef<Path>>(inputs: &[P]) -> Self {
+        let mut plan = OutputPlan::new();
+        for p in inputs {
+            plan.input(p.as_ref());
+        }
+        Self {
+            plan,
+            staging: Staging::new(),
         }
     }
-    if let Some(path) = junit {
-        write(path, to_junit().as_bytes())?;
+
+    /// Another input (e.g. a scenario named inside a shard file).
+    pub(crate) fn input(&mut self, path: &Path) {
+        self.plan.input(path);
     }
-    Ok(())
+
+    /// The output of `flag` at `path`, if given (`-`: standard output).
+    pub(crate) fn file(&mut self, flag: &str, path: Option<&Path>) -> anyhow::Result<()> {
+        if let Some(p) = path {
+            self.plan.file(flag, p)?;
+        }
+        Ok(())
+    }
+
+    /// `--in-place`: `path` is the input, replaced on purpose.
+    pub(crate) fn in_place(&mut self, flag: &str, path: &Path) -> anyhow::Result<()> {
+        self.plan.in_place(flag, path)?;
+        Ok(())
+    }
+
+    /// A plot at `path`, if given: `.svg` or `.png`, or `-` (SVG on
+    /// standard output).
+    pub(crate) fn plot(&mut self, flag: &str, path: Option<&Path>) -> anyhow::Result<()> {
+        if let Some(p) = path {
+            self.plan.file(flag, p)?;
+            if p.as_os_str() != "-" {
+                plot_extension_ok(flag, p)?;
+            }
+        }
+        Ok(())
+    }
+
+    /// A directory outputs go into (created if missing).
+    pub(crate) fn directory(&mut self, flag: &str, dir: Option<&Path>) -> anyhow::Result<()> {
+        if let Some(d) = dir {
+            self.plan.directory(flag, d)?;
+        }
+        Ok(())
+    }
+
+    /// A file derived from a flag (one per run, one per criterion);
+    /// `what` names it in errors.
+    pub(crate) fn derived(&mut self, what: &str, path: &Path) -> anyhow::Result<()> {
+        self.plan
+            .named_file(what, path, "one file per run is written")?;
+        Ok(())
+    }
+
+    /// Per-run files of `--trace`/`--plot`: checks every name `runs`
+    /// (scenario name, run label) will give, before anything runs.
+    /// `runs` holds (scenario name, its source, run label).
+    pub(crate) fn per_run(
+        &mut self,
+        files: &PerRun<'_>,
+        runs: &[(&str, &str, &str)],
+    ) -> anyhow::Result<()> {
+        for (flag, base) in [("--trace", files.trace), ("--plot", files.plot)] {
+            let Some(base) = base else { continue };
+            if flag == "--plot" && base.as_os_str() != "-" {
+                plot_extension_ok(flag, base)?;
+            }
+            if files.only {
+                self.plan.file(flag, base)?;
+                continue;
+            }
+            if base.as_os_str() == "-" {
+                self.plan
+                    .named_file(flag, base, &format!("{} runs, one file each", runs.len()))?;
+            }
+            for (scenario, source, label) in runs {
+                let path = per_run_path(base, scenario, label, false);
+                let what = format!(
+                    "{flag} for `{}` ({}) on {label}",
+                    printable(scenario),
+                    printable(source)
+                );
+                self.derived(&what, &path)?;
+            }
+        }
+        Ok(())
+    }
+
+    /// Creates `dir` for outputs if missing (removed again without a commit).
+    pub(crate) fn make_directory(&mut self, dir: &Path) -> anyhow::Result<()> {
+        self.staging
+            .directory(dir)
+            .with_context(|| format!("creating {}", printable(&dir.display().to_string())))
+    }
+
+    /// Stages `bytes` for `path`.
+    pub(crate) fn bytes(&mut self, path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
+        self.staging
+            .bytes(path, bytes)
+            .with_context(|| format!("writing {}", shown(path)))
+    }
+
+    /// Stages what `write` streams for `path`.
+    pub(crate) fn stream(
+        &mut self,
+        path: &Path,
+        write: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
+    ) -> anyhow::Result<()> {
+        self.staging
+            .stream(path, write)
+            .with_context(|| format!("writing {}", shown(path)))
+    }
+
+    /// Stages the plot `draw` writes at the path it is given (`-`: SVG).
+    pub(crate) fn drawn(
+        &mut self,
+        path: &Path,
+        draw: impl FnOnce(&Path) -> anyhow::Result<()>,
+    ) -> anyhow::Result<()> {
+        if path.as_os_str() == "-" {
+            return self.staging.with_path_as(path, "svg", draw);
+        }
+        self.staging.with_path(path, draw)
+    }
+
+    /// Stages the JSON value (pretty, with a final newline) for `path`.
+    pub(crate) fn json(
+        &mut self,
+        path: Option<&Path>,
+        value: impl FnOnce() -> serde_json::Value,
+    ) -> anyhow::Result<()> {
+        if let Some(p) = path {
+            let text = serde_json::to_string_pretty(&value())? + "\n";
+            self.bytes(p, text.as_bytes())?;
+        }
+        Ok(())
+    }
+
+    /// Stages the text `make` gives for `path`, if given.
+    pub(crate) fn text(
+        &mut self,
+        path: Option<&Path>,
+        make: impl FnOnce() -> String,
+    ) -> anyhow::Result<()> {
+        if let Some(p) = path {
+            self.bytes(p, make().as_bytes())?;
+        }
+        Ok(())
+    }
+
+    /// Prints `tables` (on standard error when an output takes standard
+    /// output, so that it stays machine-readable), then puts every staged
+    /// output in place.
+    pub(crate) fn finish(self, tables: &str) -> anyhow::Result<()> {
+        if self.plan.stdout_taken_by().is_some() {
+            eprint!("{tables}");
+        } else {
+            print!("{tables}");
+        }
+        pause_for_tests(self.staging.len());
+        self.staging.commit().context("writing the reports")
+    }
+}
+
+/// Test hook (DEVELOPERS.md): with `EVENKEEL_TEST_PAUSE_BEFORE_COMMIT_MS`
+/// set, waits that long once every output is staged and before any is
+/// renamed into place, and says so on standard error, so that a test can
+/// interrupt a run at exactly that point. Without it, nothing.
+fn pause_for_tests(staged: usize) {
+    if let Some(ms) = std::env::var("EVENKEEL_TEST_PAUSE_BEFORE_COMMIT_MS")
+        .ok()
+        .and_then(|v| v.parse::<u64>().ok())
+    {
+        eprintln!("test hook: {staged} outputs staged, pausing {ms} ms before renaming them");
+        std::thread::sleep(std::time::Duration::from_millis(ms));
+    }
 }
 
 /// `--trace` and `--plot` of a command that writes one file per run,
@@ -53,79 +214,76 @@ pub(crate) struct PerRun<'a> {
 }
 
 impl PerRun<'_> {
-    /// Writes the trace (`to_csv`) and then draws the plot (`draw`) of the
-    /// run `label` of `scenario`, each only when asked for.
+    /// Stages the trace (`to_csv` streams it) and the plot (`draw`) of
+    /// the run `label` of `scenario`, each only when asked for.
     pub(crate) fn write(
         &self,
+        out: &mut Outputs,
         scenario: &str,
         label: &str,
-        to_csv: impl FnOnce() -> String,
+        to_csv: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
         draw: impl FnOnce(&Path) -> anyhow::Result<()>,
     ) -> anyhow::Result<()> {
         if let Some(base) = self.trace {
-            let path = per_run_path(base, scenario, label, self.only);
-            write(&path, to_csv().as_bytes())?;
+            out.stream(&per_run_path(base, scenario, label, self.only), to_csv)?;
         }
         if let Some(base) = self.plot {
-            draw(&per_run_path(base, scenario, label, self.only))?;
+            out.drawn(&per_run_path(base, scenario, label, self.only), draw)?;
         }
         Ok(())
     }
 }
 
-/// Writes `bytes` to `path` atomically; the error names the path.
-pub(crate) fn write(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
-    write_atomic(path, bytes).with_context(|| format!("writing {}", path.display()))
-}
-
-/// Refuses, before anything runs, report paths that could not be written:
-/// a directory that does not exist, a directory in place of a file, a
-/// `--plot` that is not `.svg` or `.png`. So a bad path never leaves some
-/// reports written and others not, nor wastes a long run. `-` (standard
-/// output) is always accepted.
-pub(crate) fn check_report_paths(
-    files: &[Option<&Path>],
-    plot: Option<&Path>,
-) -> anyhow::Result<()> {
-    for path in files.iter().copied().chain([plot]).flatten() {
-        if path.as_os_str() != "-" {
-            report_dir_exists(path)?;
-        }
+/// Checks a `--trace`/`--plot` base path before the scenarios load (its
+/// directory exists, it is not a directory; `.svg`/`.png` for a plot);
+/// the names derived from it are checked by [`Outputs::per_run`].
+pub(crate) fn base_ok(flag: &str, base: Option<&Path>, plot: bool) -> anyhow::Result<()> {
+    let Some(base) = base else { return Ok(()) };
+    if base.as_os_str() == "-" {
+        return Ok(());
     }
-    plot_extension_ok(plot)
+    OutputPlan::new().file(flag, base)?;
+    if plot {
+        plot_extension_ok(flag, base)?;
+    }
+    Ok(())
 }
 
-/// The directory a report goes into must exist (reports are written
-/// atomically into it; nothing creates it), and `path` must not be a
-/// directory itself.
-fn report_dir_exists(path: &Path) -> anyhow::Result<()> {
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d,
-        _ => Path::new("."),
+/// Drops the samples of `rec` once its files are staged (the reports
+/// keep only the counts).
+pub(crate) fn drop_samples(rec: &mut Recording) {
+    *rec = Recording {
+        backend: rec.backend,
+        dt_s: rec.dt_s,
+        time_s: Vec::new(),
+        reference: Vec::new(),
+        output: Vec::new(),
+        measurement: Vec::new(),
+        command: Vec::new(),
+        applied: Vec::new(),
+        accel: Vec::new(),
+        status: Vec::new(),
+        states: Vec::new(),
+        load_shifts: rec.load_shifts,
+        faults: FaultTrace {
+            monitor_settings: rec.faults.monitor_settings,
+            ..FaultTrace::default()
+        },
     };
-    anyhow::ensure!(
-        dir.is_dir(),
-        "{}: the directory {} does not exist",
-        path.display(),
-        dir.display()
-    );
-    anyhow::ensure!(
-        !path.is_dir(),
-        "{}: is a directory, not a report file",
-        path.display()
-    );
-    Ok(())
 }
 
 /// `--plot` must name an `.svg` or `.png` file.
-fn plot_extension_ok(plot: Option<&Path>) -> anyhow::Result<()> {
-    if let Some(p) = plot {
-        let ext = p
-            .extension()
-            .map(|e| e.to_string_lossy().to_ascii_lowercase());
-        if !matches!(ext.as_deref(), Some("svg" | "png")) {
-            anyhow::bail!("--plot {}: the file must end in .svg or .png", p.display());
-        }
+fn plot_extension_ok(flag: &str, p: &Path) -> anyhow::Result<()> {
+    let ext = p
+        .extension()
+        .map(|e| e.to_string_lossy().to_ascii_lowercase());
+    if !matches!(ext.as_deref(), Some("svg" | "png")) {
+        anyhow::bail!("{flag} {}: the file must end in .svg or .png", shown(p));
     }
     Ok(())
+}
+
+/// The paths of `files`, for [`Outputs::new`].
+pub(crate) fn paths(files: &[PathBuf]) -> Vec<&Path> {
+    files.iter().map(PathBuf::as_path).collect()
 }

@@ -2,15 +2,19 @@
 //! `evenkeel_harness::sweep`.
 
 use std::io::IsTerminal;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
+use std::time::{Duration, Instant};
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
-use evenkeel_harness::sweep::{self, Method, Shard, SweepPlan, SweepResult};
+use evenkeel_harness::files::safe_stem;
+use evenkeel_harness::sweep::{self, Method, Shard, SweepPlan};
 use evenkeel_harness::{BackendKind, Scenario};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
-use super::output::{self, write};
+use super::output::{self, Outputs};
 
 #[derive(Args)]
 pub struct SweepArgs {
@@ -79,7 +83,8 @@ struct ReportArgs {
     /// Write the sweep report as JSON to PATH (`-`: standard output).
     #[arg(long, value_name = "PATH")]
     json: Option<PathBuf>,
-    /// Write JUnit XML (one test case per criterion) to PATH.
+    /// Write JUnit XML (one test case per criterion) to PATH (`-`:
+    /// standard output).
     #[arg(long, value_name = "PATH")]
     junit: Option<PathBuf>,
     /// Envelope plot (min/max band over the variants, worst highlighted),
@@ -93,14 +98,39 @@ struct ReportArgs {
 }
 
 impl ReportArgs {
-    /// The report paths and `--save` (`save`) can be written (see
-    /// [`output::check_report_paths`]); `--worst-dir` is created if missing.
-    fn check_paths(&self, save: Option<&std::path::Path>) -> anyhow::Result<()> {
-        output::check_report_paths(
-            &[self.json.as_deref(), self.junit.as_deref(), save],
-            self.plot.as_deref(),
-        )
+    /// Checks the report paths and `--save` (`save`) before anything
+    /// runs (see [`Outputs`]); `--worst-dir` is created if missing.
+    fn plan(&self, inputs: &[&Path], save: Option<&Path>) -> anyhow::Result<Outputs> {
+        let mut out = Outputs::new(inputs);
+        out.file("--json", self.json.as_deref())?;
+        out.file("--junit", self.junit.as_deref())?;
+        out.plot("--plot", self.plot.as_deref())?;
+        out.file("--save", save)?;
+        out.directory("--worst-dir", self.worst_dir.as_deref())?;
+        Ok(out)
     }
+
+    /// The files `--worst-dir` may write for `scenario`'s criteria, each
+    /// checked (inside the directory, not an input, no collision).
+    fn plan_worst(&self, out: &mut Outputs, scenario: &Scenario) -> anyhow::Result<()> {
+        if let Some(dir) = &self.worst_dir {
+            for c in &scenario.criteria {
+                let file = worst_file(dir, &scenario.name, c.metric.name(), c.bound.name());
+                out.derived(&format!("--worst-dir for {}", c.metric.name()), &file)?;
+            }
+        }
+        Ok(())
+    }
+}
+
+/// `DIR/STEM-worst-METRIC.toml` (`…-METRIC-min.toml` for a lower bound),
+/// the stem reduced by [`safe_stem`].
+fn worst_file(dir: &Path, scenario: &str, metric: &str, bound: &str) -> PathBuf {
+    let suffix = if bound == "min" { "-min" } else { "" };
+    dir.join(format!(
+        "{}-worst-{metric}{suffix}.toml",
+        safe_stem(scenario)
+    ))
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -131,8 +161,11 @@ impl OneBackend {
 
 /// `evenkeel sweep`: `Ok(all variants passed)`.
 pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
-    args.out.check_paths(args.save.as_deref())?;
+    let mut out = args
+        .out
+        .plan(&[args.scenario.as_path()], args.save.as_deref())?;
     let scenario = Scenario::from_path(&args.scenario)?;
+    args.out.plan_worst(&mut out, &scenario)?;
     if scenario.uncertainty.is_empty() {
         anyhow::bail!(
             "{}: no [uncertainty] table: nothing to sweep (see docs/SCENARIO.md)",
@@ -169,39 +202,52 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
         }
         None => None,
     };
-    if let Some(p) = &args.map_plot {
-        output::check_report_paths(&[], Some(p))?;
-    }
-    let total = plan
-        .variants(scenario.uncertainty.len())
-        .context("the design is too large")?;
+    out.plot("--map-plot", args.map_plot.as_deref())?;
+    let total = plan.size(scenario.uncertainty.len())?;
     let todo = args.shard.map_or(total, |s| s.range(total).len());
-    let bar = if args.quiet || !std::io::stderr().is_terminal() {
-        ProgressBar::hidden()
-    } else {
-        let bar = ProgressBar::with_draw_target(Some(todo as u64), ProgressDrawTarget::stderr());
-        bar.set_style(
-            ProgressStyle::with_template(
-                "{bar:40} {pos}/{len} variants, {elapsed} elapsed, eta {eta}",
-            )
-            .unwrap_or_else(|_| ProgressStyle::default_bar()),
-        );
-        bar
-    };
-    let work = || sweep::run(&scenario, &plan, backend, args.shard, &|n| bar.inc(n));
-    let result = match args.threads {
-        Some(t) => rayon::ThreadPoolBuilder::new()
+    if let Some(t) = args.threads {
+        anyhow::ensure!(t >= 1, "--threads must be at least 1");
+        // The process runs one sweep: its global pool gets `t` threads.
+        rayon::ThreadPoolBuilder::new()
             .num_threads(t)
-            .build()
-            .context("starting the worker threads")?
-            .install(work),
-        None => work(),
+            .build_global()
+            .context("starting the worker threads")?;
     }
-    .with_context(|| format!("{}: scenario `{}`", scenario.source, scenario.name))?;
-    bar.finish_and_clear();
-    if let Some(path) = &args.save {
-        write(path, serde_json::to_string(&result)?.as_bytes())?;
+    let threads = rayon::current_num_threads();
+    if !args.quiet {
+        estimate(&scenario, &plan, backend, total, todo, threads);
     }
+    let progress = Progress::start(todo, args.quiet);
+    let header = sweep::SweepHeader::new(&scenario, &plan, backend, total, args.shard);
+    let mut streamed = None;
+    let work = |sink: &mut dyn FnMut(&sweep::VariantResult) -> Result<(), String>| {
+        sweep::stream(
+            &scenario,
+            &plan,
+            backend,
+            args.shard,
+            &|n| progress.inc(n),
+            sink,
+        )
+    };
+    match &args.save {
+        Some(path) => out.stream(path, |w| {
+            let mut file = sweep::ResultWriter::new(w, &header).map_err(std::io::Error::other)?;
+            let s =
+                work(&mut |v| file.variant(v)).map_err(|e| std::io::Error::other(e.to_string()))?;
+            file.finish(&s.envelope).map_err(std::io::Error::other)?;
+            streamed = Some(s);
+            Ok(())
+        })?,
+        None => {
+            streamed =
+                Some(work(&mut |_| Ok(())).with_context(|| {
+                    format!("{}: scenario `{}`", scenario.source, scenario.name)
+                })?);
+        }
+    }
+    progress.finish();
+    let streamed = streamed.context("the sweep did not run")?;
     let map_passed = match &map {
         Some((x, y)) => {
             let m = evenkeel_harness::map::robustness_map(
@@ -221,80 +267,260 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
                 m.passing()
             );
             if let Some(p) = &args.map_plot {
-                evenkeel_harness::map::plot(&scenario, &m, p)?;
+                out.drawn(p, |path| {
+                    Ok(evenkeel_harness::map::plot(&scenario, &m, path)?)
+                })?;
             }
             m.passing() == total
         }
         None => true,
     };
-    Ok(report(&scenario, &result, &args.out)? && map_passed)
+    Ok(report(out, &scenario, &streamed, &args.out)? && map_passed)
+}
+
+/// Prints the estimated duration of a sweep that will take a while
+/// (over 10 s): one variant is timed first, on this thread.
+fn estimate(
+    scenario: &Scenario,
+    plan: &SweepPlan,
+    backend: BackendKind,
+    total: usize,
+    todo: usize,
+    threads: usize,
+) {
+    if todo < 8 {
+        return;
+    }
+    let design = sweep::Design::new(&scenario.uncertainty, plan, total.min(1));
+    let probe = sweep::apply_variant(scenario, &design.point(0), 0);
+    let started = Instant::now();
+    if probe.run_on(&[backend]).is_err() {
+        return;
+    }
+    let one = started.elapsed().as_secs_f64();
+    #[allow(clippy::cast_precision_loss)]
+    let seconds = one * todo as f64 / threads.max(1) as f64;
+    if seconds >= 10.0 {
+        eprintln!(
+            "sweep: {todo} variants on {threads} threads, about {} (one variant took {:.1} ms)",
+            duration_text(seconds),
+            one * 1e3
+        );
+    }
+}
+
+/// `3 h 12 min`, `4 min 5 s`, `12 s`.
+fn duration_text(seconds: f64) -> String {
+    // Whole seconds for humans.
+    #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
+    let s = seconds.max(0.0).round() as u64;
+    match s {
+        0..60 => format!("{s} s"),
+        60..3600 => format!("{} min {} s", s / 60, s % 60),
+        _ => format!("{} h {} min", s / 3600, (s % 3600) / 60),
+    }
+}
+
+/// Progress of a sweep on standard error: a bar on a terminal, else a
+/// line every [`PROGRESS_EVERY`]; nothing with `--quiet`.
+struct Progress {
+    bar: ProgressBar,
+    done: Arc<AtomicU64>,
+    stop: Arc<AtomicBool>,
+    lines: Option<std::thread::JoinHandle<()>>,
+}
+
+/// How often a progress line is printed off a terminal.
+const PROGRESS_EVERY: Duration = Duration::from_secs(5);
+
+impl Progress {
+    fn start(todo: usize, quiet: bool) -> Self {
+        let done = Arc::new(AtomicU64::new(0));
+        let stop = Arc::new(AtomicBool::new(false));
+        let terminal = std::io::stderr().is_terminal();
+        let bar = if quiet || !terminal {
+            ProgressBar::hidden()
+        } else {
+            let bar =
+                ProgressBar::with_draw_target(Some(todo as u64), ProgressDrawTarget::stderr());
+            bar.set_style(
+                ProgressStyle::with_template(
+                    "{bar:40} {pos}/{len} variants, {elapsed} elapsed, eta {eta}",
+                )
+                .unwrap_or_else(|_| ProgressStyle::default_bar()),
+            );
+            bar
+        };
+        let lines = (!quiet && !terminal).then(|| {
+            let (done, stop) = (Arc::clone(&done), Arc::clone(&stop));
+            std::thread::spawn(move || {
+                let started = Instant::now();
+                let mut next = PROGRESS_EVERY;
+                while !stop.load(Ordering::Relaxed) {
+                    std::thread::sleep(Duration::from_millis(100));
+                    let elapsed = started.elapsed();
+                    if elapsed < next {
+                        continue;
+                    }
+                    next += PROGRESS_EVERY;
+                    let n = done.load(Ordering::Relaxed);
+                    #[allow(clippy::cast_precision_loss)]
+                    let (n_f, todo_f) = (n as f64, todo.max(1) as f64);
+                    let left = if n > 0 {
+                        format!(
+                            ", about {} left",
+                            duration_text(elapsed.as_secs_f64() * (todo_f - n_f) / n_f)
+                        )
+                    } else {
+                        String::new()
+                    };
+                    eprintln!(
+                        "sweep: {n} of {todo} variants ({:.1} %), {} elapsed{left}",
+                        100.0 * n_f / todo_f,
+                        duration_text(elapsed.as_secs_f64())
+                    );
+                }
+            })
+        });
+        Self {
+            bar,
+            done,
+            stop,
+            lines,
+        }
+    }
+
+    fn inc(&self, n: u64) {
+        self.bar.inc(n);
+        self.done.fetch_add(n, Ordering::Relaxed);
+    }
+
+    fn finish(mut self) {
+        self.bar.finish_and_clear();
+        self.stop.store(true, Ordering::Relaxed);
+        if let Some(h) = self.lines.take() {
+            let _ = h.join();
+        }
+    }
 }
 
 /// `evenkeel merge`: `Ok(all variants passed)`.
 pub fn merge(args: &MergeArgs) -> anyhow::Result<bool> {
-    args.out.check_paths(args.save.as_deref())?;
-    let mut parts = Vec::with_capacity(args.results.len());
-    for path in &args.results {
-        let text =
-            std::fs::read_to_string(path).with_context(|| format!("reading {}", path.display()))?;
-        let part: SweepResult = serde_json::from_str(&text)
-            .with_context(|| format!("{}: not a sweep result file", path.display()))?;
-        parts.push(part);
+    let mut inputs = output::paths(&args.results);
+    if let Some(s) = &args.scenario {
+        inputs.push(s);
     }
-    let result = sweep::merge(parts)?;
-    let source = args
-        .scenario
-        .clone()
-        .unwrap_or_else(|| PathBuf::from(&result.source));
+    let mut out = args.out.plan(&inputs, args.save.as_deref())?;
+    let open = |path: &PathBuf| -> anyhow::Result<(String, Box<dyn std::io::BufRead>)> {
+        let name = output::shown(path);
+        let file = input_file(path)?;
+        Ok((name, Box::new(std::io::BufReader::new(file))))
+    };
+    // The scenario: given, or named in the first file's header.
+    let source = match &args.scenario {
+        Some(s) => s.clone(),
+        None => {
+            let (name, reader) = open(&args.results[0])?;
+            let (_, header) =
+                sweep::ResultReader::open(reader, &name).map_err(anyhow::Error::msg)?;
+            PathBuf::from(header.source)
+        }
+    };
+    out.input(&source);
     let scenario = Scenario::from_path(&source)?;
-    anyhow::ensure!(
-        sweep::fingerprint(&scenario) == result.fingerprint,
-        "{}: the scenario changed since the shards ran (fingerprint differs)",
-        source.display()
-    );
-    if let Some(path) = &args.save {
-        write(path, serde_json::to_string(&result)?.as_bytes())?;
-    }
-    report(&scenario, &result, &args.out)
+    args.out.plan_worst(&mut out, &scenario)?;
+    let files = args
+        .results
+        .iter()
+        .map(open)
+        .collect::<anyhow::Result<Vec<_>>>()?;
+    let streamed = match &args.save {
+        Some(path) => {
+            let mut streamed = None;
+            out.stream(path, |w| {
+                let (name, reader) =
+                    open(&args.results[0]).map_err(|e| std::io::Error::other(e.to_string()))?;
+                let (_, mut header) =
+                    sweep::ResultReader::open(reader, &name).map_err(std::io::Error::other)?;
+                header.shard = None;
+                header.source.clone_from(&scenario.source);
+                let mut file =
+                    sweep::ResultWriter::new(w, &header).map_err(std::io::Error::other)?;
+                let s = sweep::merge_files(files, &scenario, &mut |v| file.variant(v))
+                    .map_err(|e| std::io::Error::other(e.to_string()))?;
+                file.finish(&s.envelope).map_err(std::io::Error::other)?;
+                streamed = Some(s);
+                Ok(())
+            })?;
+            streamed.context("the merge did not run")?
+        }
+        None => sweep::merge_files(files, &scenario, &mut |_| Ok(()))?,
+    };
+    report(out, &scenario, &streamed, &args.out)
 }
 
-fn report(scenario: &Scenario, result: &SweepResult, out: &ReportArgs) -> anyhow::Result<bool> {
-    output::summary(
-        &sweep::table(result),
-        out.json.as_deref(),
-        || sweep::json(result),
-        out.junit.as_deref(),
-        || sweep::junit(result),
-    )?;
-    let summary = sweep::summarise(result);
-    if let Some(path) = &out.plot {
-        let backend = BackendKind::from_name(&result.backend).unwrap_or(BackendKind::Fixed);
-        let worst = summary
-            .worst_index
-            .and_then(|i| sweep::variant_scenario(scenario, result, i))
+/// Opens an input file: a regular file (not a directory, device or
+/// pipe).
+fn input_file(path: &Path) -> anyhow::Result<std::fs::File> {
+    let file =
+        std::fs::File::open(path).with_context(|| format!("reading {}", output::shown(path)))?;
+    let meta = file
+        .metadata()
+        .with_context(|| format!("reading {}", output::shown(path)))?;
+    anyhow::ensure!(
+        meta.is_file(),
+        "{}: not a regular file (a directory, device or pipe)",
+        output::shown(path)
+    );
+    Ok(file)
+}
+
+fn report(
+    mut out: Outputs,
+    scenario: &Scenario,
+    s: &sweep::Streamed,
+    args: &ReportArgs,
+) -> anyhow::Result<bool> {
+    let (header, tally) = (&s.header, &s.tally);
+    if let Some(path) = &args.plot {
+        let backend = BackendKind::from_name(&header.backend).unwrap_or(BackendKind::Fixed);
+        let worst = tally
+            .worst
+            .as_ref()
+            .map(|w| sweep::apply_variant(scenario, &w.variant.values, w.variant.seed))
             .map(|s| s.run_on(&[backend]))
             .transpose()?
             .and_then(|o| o.runs.into_iter().next());
-        sweep::plot_envelope(scenario, result, worst.as_ref(), path)?;
+        out.drawn(path, |p| {
+            Ok(sweep::plot_envelope_of(
+                scenario,
+                header,
+                tally,
+                &s.envelope,
+                worst.as_ref(),
+                p,
+            )?)
+        })?;
     }
-    if let Some(dir) = &out.worst_dir {
-        std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+    if let Some(dir) = &args.worst_dir {
+        out.make_directory(dir)?;
         let text = std::fs::read_to_string(&scenario.source)
             .with_context(|| format!("reading {}", scenario.source))?;
         let mut done = Vec::new();
-        for c in &summary.criteria {
-            if done.contains(&c.worst_index) && c.passed == c.total {
+        for c in &tally.criteria {
+            let Some(w) = &c.worst else { continue };
+            if done.contains(&w.variant.index) && c.passed == c.total {
                 continue;
             }
-            let file = dir.join(format!(
-                "{}-worst-{}.toml",
-                result.scenario, c.criterion.metric
-            ));
-            let body = sweep::variant_toml(&text, scenario, result, c.worst_index)
+            let file = worst_file(dir, &scenario.name, &c.criterion.metric, &c.criterion.bound);
+            let body = sweep::variant_toml_of(&text, scenario, header, &w.variant)
                 .map_err(anyhow::Error::msg)?;
-            write(&file, body.as_bytes())?;
-            done.push(c.worst_index);
+            out.bytes(&file, body.as_bytes())?;
+            done.push(w.variant.index);
         }
     }
-    Ok(summary.all_passed())
+    out.json(args.json.as_deref(), || sweep::json_of(header, tally))?;
+    out.text(args.junit.as_deref(), || sweep::junit_of(header, tally))?;
+    out.finish(&sweep::table_of(header, tally))?;
+    Ok(tally.all_passed())
 }
