@@ -410,9 +410,10 @@ pub fn synthesize<B: Raw>(s: &crate::Scenario) -> Result<String, String> {
         let o = pi.step_with(&input);
         let _ = writeln!(
             out,
-            "{MARKER} step k={k} r={} y={} a=- f=0 u={} s={:#06x}",
+            "{MARKER} step k={k} r={} y={} a=- f={} u={} s={:#06x}",
             input.setpoint.raw(),
             input.measurement.raw(),
+            input.feed_forward.raw(),
             o.command.raw(),
             o.status.bits()
         );

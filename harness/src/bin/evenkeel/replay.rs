@@ -7,7 +7,7 @@ use evenkeel_harness::Scenario;
 use evenkeel_harness::replay;
 use serde_json::json;
 
-use super::output;
+use super::output::Outputs;
 use super::robust::OneBackend;
 
 #[derive(Args)]
@@ -28,36 +28,32 @@ pub struct ReplayArgs {
 
 /// `evenkeel replay`: `Ok(true)` when the log is bit-exact.
 pub fn run(args: &ReplayArgs) -> anyhow::Result<bool> {
-    output::check_report_paths(&[args.json.as_deref()], None)?;
+    let mut out = Outputs::new(&[args.log.as_path(), args.scenario.as_path()]);
+    out.file("--json", args.json.as_deref())?;
     let scenario = Scenario::from_path(&args.scenario)?;
     let records = replay::read(&args.log)?;
     let file = args.log.display().to_string();
     let r = replay::replay_on(args.backend.kind(), &file, &scenario.controller, &records)?;
     let text = replay::report(&r);
-    output::summary(
-        &text,
-        args.json.as_deref(),
-        || {
-            json!({
-                "caution": evenkeel_harness::CAUTION,
-                "log": r.file,
-                "backend": r.backend.name(),
-                "records": r.records,
-                "compared": r.compared,
-                "bit_exact": r.bit_exact(),
-                "differing": r.differing,
-                "largest_difference": r.largest_difference,
-                "last_difference_k": r.last_difference,
-                "first_difference": r.first.as_ref().map(|d| json!({
-                    "record": d.record, "k": d.k, "line": d.line,
-                    "device_command": d.device.0, "host_command": d.host.0,
-                    "device_status": d.device_status.bits(), "host_status": d.host_status.bits(),
-                    "integral": d.integral.0, "last_command": d.last_command.0, "inputs": d.inputs,
-                })),
-            })
-        },
-        None,
-        String::new,
-    )?;
+    out.json(args.json.as_deref(), || {
+        json!({
+            "caution": evenkeel_harness::CAUTION,
+            "log": r.file,
+            "backend": r.backend.name(),
+            "records": r.records,
+            "compared": r.compared,
+            "bit_exact": r.bit_exact(),
+            "differing": r.differing,
+            "largest_difference": r.largest_difference,
+            "last_difference_k": r.last_difference,
+            "first_difference": r.first.as_ref().map(|d| json!({
+                "record": d.record, "k": d.k, "line": d.line,
+                "device_command": d.device.0, "host_command": d.host.0,
+                "device_status": d.device_status.bits(), "host_status": d.host_status.bits(),
+                "integral": d.integral.0, "last_command": d.last_command.0, "inputs": d.inputs,
+            })),
+        })
+    })?;
+    out.finish(&text)?;
     Ok(r.bit_exact())
 }
