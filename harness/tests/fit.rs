@@ -215,6 +215,17 @@ fn bad_logs_are_refused_with_file_line_and_column() {
         };
         assert!(err.contains(words), "{name}: {err}");
     }
+    // Not a file at all.
+    let out = evenkeel(
+        dir.path(),
+        &["fit", "/dev/zero", "--model", "first-order-lag"],
+    );
+    assert_exit(&out, 2);
+    assert!(
+        text(&out.stderr).contains("/dev/zero: is not a regular file"),
+        "{}",
+        text(&out.stderr)
+    );
     // A column that is not there, named.
     let file = write(dir.path(), "ok.csv", &lag_log(40, None));
     let out = evenkeel(

@@ -121,9 +121,16 @@ pub fn read(path: &Path, cols: &Columns) -> Result<Log, LogError> {
         column,
         message,
     };
-    let size = std::fs::metadata(path)
-        .map_err(|e| fail(None, None, format!("cannot read the file: {e}")))?
-        .len();
+    let meta = std::fs::metadata(path)
+        .map_err(|e| fail(None, None, format!("cannot read the file: {e}")))?;
+    if !meta.is_file() {
+        return Err(fail(
+            None,
+            None,
+            "is not a regular file (a log must be a file)".into(),
+        ));
+    }
+    let size = meta.len();
     if size > MAX_LOG_BYTES {
         return Err(fail(
             None,

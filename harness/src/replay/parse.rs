@@ -92,9 +92,11 @@ pub fn read(path: &Path) -> Result<Vec<Record>, ReplayError> {
         line: None,
         message,
     };
-    let size = std::fs::metadata(path)
-        .map_err(|e| fail(format!("cannot read the file: {e}")))?
-        .len();
+    let meta = std::fs::metadata(path).map_err(|e| fail(format!("cannot read the file: {e}")))?;
+    if !meta.is_file() {
+        return Err(fail("is not a regular file (a log must be a file)".into()));
+    }
+    let size = meta.len();
     if size > MAX_REPLAY_BYTES {
         return Err(fail(format!(
             "{size} bytes is more than the {MAX_REPLAY_BYTES} bytes a replay log may have"
