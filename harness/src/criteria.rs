@@ -270,7 +270,9 @@ impl Criterion {
     /// distance to the limit as a fraction of the limit (of 1 when the
     /// limit is 0), positive on the passing side, so that criteria of
     /// different units compare. `≥ 0` exactly when the criterion passes;
-    /// an undefined metric gives [`UNDEFINED_MARGIN`].
+    /// a value of exactly 0 against a limit of 0 (a count that must be
+    /// zero) gives 1, the most there is; an undefined metric gives
+    /// [`UNDEFINED_MARGIN`].
     ///
     /// ```
     /// use evenkeel_harness::criteria::{Criterion, MetricKey, UNDEFINED_MARGIN};
@@ -280,6 +282,9 @@ impl Criterion {
     /// assert_eq!(c.margin(None), UNDEFINED_MARGIN);
     /// let floor = Criterion::min(MetricKey::Iae, 0.0);
     /// assert_eq!(floor.margin(Some(0.5)), 0.5);
+    /// let none = Criterion::max(MetricKey::LimitViolations, 0.0);
+    /// assert_eq!(none.margin(Some(0.0)), 1.0);
+    /// assert_eq!(none.margin(Some(2.0)), -2.0);
     /// ```
     #[must_use]
     pub fn margin(&self, measured: Option<f64>) -> f64 {
@@ -288,6 +293,10 @@ impl Criterion {
         };
         if x.is_nan() {
             return UNDEFINED_MARGIN;
+        }
+        if self.limit == 0.0 && x == 0.0 {
+            // A count that must be zero and is: nothing better exists.
+            return 1.0;
         }
         let scale = if self.limit == 0.0 {
             1.0

@@ -177,7 +177,15 @@ pub(crate) fn run_variant(
             margins: run
                 .verdicts
                 .iter()
-                .map(|x| x.criterion.margin(x.measured))
+                // A metric that does not apply passes: as far from its
+                // limit as the margin goes (1).
+                .map(|x| {
+                    if x.measured.is_none() && x.pass {
+                        1.0
+                    } else {
+                        x.criterion.margin(x.measured)
+                    }
+                })
                 .collect(),
             error: None,
         },
