@@ -59,6 +59,9 @@ pub struct Config<B: Backend, L: Layout = Runtime> {
     pub(crate) output_max: B,
     pub(crate) feed_forward_min: B,
     pub(crate) feed_forward_max: B,
+    /// A zero feed-forward clamped into its range (what `step`, which has
+    /// none, adds), so that `step` does not clamp a constant.
+    pub(crate) feed_forward_zero: B,
     pub(crate) integral_min: B::Accum,
     pub(crate) integral_max: B::Accum,
     pub(crate) measurement_min: B,
@@ -431,6 +434,13 @@ impl<L: Layout> Config<I16F16, L> {
             output_max,
             feed_forward_min: I16F16::from_bits(q::saturate_i32(lo - span)),
             feed_forward_max: I16F16::from_bits(q::saturate_i32(hi + span)),
+            feed_forward_zero: I16F16::from_bits(q::saturate_i32(if lo - span > 0 {
+                lo - span
+            } else if hi + span < 0 {
+                hi + span
+            } else {
+                0
+            })),
             integral_min: I32F32::from_bits((lo - span) << 16),
             integral_max: I32F32::from_bits((hi + span) << 16),
             measurement_min,
@@ -682,6 +692,13 @@ macro_rules! float_config {
                     output_max,
                     feed_forward_min: integral_min,
                     feed_forward_max: integral_max,
+                    feed_forward_zero: if integral_min > 0.0 {
+                        integral_min
+                    } else if integral_max < 0.0 {
+                        integral_max
+                    } else {
+                        0.0
+                    },
                     integral_min,
                     integral_max,
                     measurement_min,
