@@ -64,6 +64,9 @@ pub struct Config<B: Backend, L: Layout = Runtime> {
     pub(crate) feed_forward_zero: B,
     pub(crate) integral_min: B::Accum,
     pub(crate) integral_max: B::Accum,
+    /// Where the integrator starts: the command of physical zero (raw 0
+    /// unless the command scale has an offset).
+    pub(crate) integral_zero: B::Accum,
     pub(crate) measurement_min: B,
     pub(crate) measurement_max: B,
     /// Zero clamped into the output limits: the command of a controller at
@@ -414,12 +417,13 @@ impl<L: Layout> Config<I16F16, L> {
         let lo = output_min.to_bits() as i64;
         let hi = output_max.to_bits() as i64;
         let span = hi - lo;
-        let rest = if lo > 0 {
+        let zero = attempt!(fixed_signal(p.command_zero, Setting::CommandScale));
+        let rest = if lo > zero.to_bits() as i64 {
             output_min
-        } else if hi < 0 {
+        } else if hi < zero.to_bits() as i64 {
             output_max
         } else {
-            I16F16::ZERO
+            zero
         };
         Ok(Self {
             features,
@@ -443,6 +447,7 @@ impl<L: Layout> Config<I16F16, L> {
             })),
             integral_min: I32F32::from_bits((lo - span) << 16),
             integral_max: I32F32::from_bits((hi + span) << 16),
+            integral_zero: I32F32::from_bits((zero.to_bits() as i64) << 16),
             measurement_min,
             measurement_max,
             rest,
@@ -672,12 +677,13 @@ macro_rules! float_config {
                 }
                 let integral_min = p.integral_min as $t;
                 let integral_max = p.integral_max as $t;
-                let rest = if output_min > 0.0 {
+                let zero = p.command_zero as $t;
+                let rest = if output_min > zero {
                     output_min
-                } else if output_max < 0.0 {
+                } else if output_max < zero {
                     output_max
                 } else {
-                    0.0
+                    zero
                 };
                 Ok(Self {
                     features,
@@ -701,6 +707,7 @@ macro_rules! float_config {
                     },
                     integral_min,
                     integral_max,
+                    integral_zero: zero,
                     measurement_min,
                     measurement_max,
                     rest,
@@ -811,6 +818,9 @@ impl ConfigError {
             }
             Self::Schedule => "evenkeel configuration: invalid gain schedule",
             Self::Layout(_) => "evenkeel configuration: does not fit the compile-time layout",
+            Self::WeightedOffset => {
+                "evenkeel configuration: setpoint weight with a measurement offset"
+            }
         }
     }
 }
