@@ -64,9 +64,6 @@ pub struct Config<B: Backend, L: Layout = Runtime> {
     pub(crate) feed_forward_zero: B,
     pub(crate) integral_min: B::Accum,
     pub(crate) integral_max: B::Accum,
-    /// Where the integrator starts: the command of physical zero (raw 0
-    /// unless the command scale has an offset).
-    pub(crate) integral_zero: B::Accum,
     pub(crate) measurement_min: B,
     pub(crate) measurement_max: B,
     /// Zero clamped into the output limits: the command of a controller at
@@ -447,7 +444,6 @@ impl<L: Layout> Config<I16F16, L> {
             })),
             integral_min: I32F32::from_bits((lo - span) << 16),
             integral_max: I32F32::from_bits((hi + span) << 16),
-            integral_zero: I32F32::from_bits((zero.to_bits() as i64) << 16),
             measurement_min,
             measurement_max,
             rest,
@@ -707,7 +703,6 @@ macro_rules! float_config {
                     },
                     integral_min,
                     integral_max,
-                    integral_zero: zero,
                     measurement_min,
                     measurement_max,
                     rest,

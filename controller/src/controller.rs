@@ -167,7 +167,7 @@ impl<B: Backend, L: Layout> Controller<B, L> {
     #[must_use]
     pub const fn new(config: Config<B, L>) -> Self {
         Self {
-            integral: config.integral_zero,
+            integral: B::ACCUM_ZERO,
             filtered: B::ACCUM_ZERO,
             state: 0,
             last_command: config.rest,

@@ -129,8 +129,10 @@ pub struct PerSample {
     pub measurement_min: f64,
     /// Measurement range.
     pub measurement_max: f64,
-    /// The command of physical zero (the command scale's offset): where the
-    /// integrator starts.
+    /// The command of physical zero (the command scale's offset): the
+    /// command of a controller at rest, clamped into the limits. (The
+    /// integrator starts at raw zero; with a command offset, `engage` the
+    /// actuator's value to start bumplessly.)
     pub command_zero: f64,
 }
 

@@ -632,7 +632,6 @@ impl<L: Layout> Config<Slim16, L> {
             feed_forward_zero: Slim16(clamp_i32(clamp_i32(0, ff_lo, ff_hi), -32_768, 32_767) as i16),
             integral_min: ff_lo << SLIM_STATE_FRAC_BITS,
             integral_max: ff_hi << SLIM_STATE_FRAC_BITS,
-            integral_zero: (zero.0 as i32) << SLIM_STATE_FRAC_BITS,
             measurement_min,
             measurement_max,
             rest: Slim16(rest as i16),
