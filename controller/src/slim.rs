@@ -788,6 +788,23 @@ mod tests {
     }
 
     #[test]
+    fn sub_lsb_integral_increments_accumulate() {
+        // Ki·Ts = 1e-3 raw per raw and sample is stored as 16 777 · 2⁻²⁴;
+        // an error of 1 LSB adds round(16 777 / 2¹¹) = round(8.19) = 8
+        // state LSB per step; the command reaches 1 LSB once I ≥ ½ LSB =
+        // 4096 state LSB, after 512 updates, at step 513 (ideal
+        // arithmetic: 500 updates).
+        let s = Settings::new(0.01, 0.0, 0.1, -100.0, 100.0);
+        let mut pi = crate::Controller::new(Config::<Slim16>::new(&s).expect("valid"));
+        assert_eq!(
+            (pi.config().ki_ts().mantissa(), pi.config().ki_ts().shift()),
+            (16_777, 24)
+        );
+        let first = (1..=1000).find(|_| pi.step(Slim16(1), Slim16(0)).command != Slim16(0));
+        assert_eq!(first, Some(513));
+    }
+
+    #[test]
     fn identity_settings_in_raw_units() {
         // 16-bit ADC counts do not fit: 65 535 > 32 767.
         let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1000.0)
