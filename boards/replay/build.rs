@@ -69,7 +69,7 @@ fn tables(module: &str, path: &Path) -> String {
             "Settings {{ period_s: {}, kp: {}, ki_per_s: {}, \
              setpoint_weight: {}, output_min: {}, output_max: {}, slew_per_s: {}, \
              filter_time_s: {}, deadband: {}, anti_windup: {anti_windup}, \
-             measurement_min: {}, measurement_max: {} }}",
+             measurement_min: {}, measurement_max: {}, scaling: evenkeel::Scaling::NONE }}",
             f(b.period_s),
             f(b.kp),
             f(b.ki_per_s),

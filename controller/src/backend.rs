@@ -361,6 +361,30 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// assert_eq!(I16F16::narrow(I32F32::from_bits(-0x8000)).to_bits(), 0);
     /// ```
     fn narrow(acc: Self::Accum) -> Self;
+    /// The signal of a whole count `c` (an ADC reading) in raw units:
+    /// exact where the format holds it, else saturated.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Slim16};
+    /// use fixed::types::I16F16;
+    /// assert_eq!(I16F16::from_counts(812), I16F16::from_num(812));
+    /// assert_eq!(Slim16::from_counts(812).raw(), 812);
+    /// assert_eq!(Slim16::from_counts(70_000), Slim16::MAX);
+    /// assert_eq!(f32::from_counts(-3), -3.0);
+    /// ```
+    fn from_counts(c: i32) -> Self;
+    /// The signal as a whole count (what a PWM compare register takes):
+    /// nearest, ties toward +∞, saturated to `i32`.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Slim16};
+    /// use fixed::types::I16F16;
+    /// assert_eq!(I16F16::from_num(811.5).to_counts(), 812);
+    /// assert_eq!(I16F16::from_num(-811.5).to_counts(), -811);
+    /// assert_eq!(Slim16::from_raw(812).to_counts(), 812);
+    /// assert_eq!(Backend::to_counts(2.5_f64), 3);
+    /// ```
+    fn to_counts(self) -> i32;
     /// Linear interpolation `lo + (hi − lo)·frac`, `frac` in [0, 1].
     ///
     /// ```
@@ -471,6 +495,14 @@ impl Backend for I16F16 {
     fn narrow(acc: I32F32) -> Self {
         q::accum_to_signal(acc)
     }
+    fn from_counts(c: i32) -> Self {
+        I16F16::from_bits(q::saturate_i32(i64::from(c) << 16))
+    }
+    #[inline]
+    fn to_counts(self) -> i32 {
+        let bits = self.to_bits();
+        (bits >> 16) + ((bits >> 15) & 1)
+    }
     fn coef_lerp(lo: FixedCoef, hi: FixedCoef, frac: Self) -> FixedCoef {
         lo.lerp(hi, frac)
     }
@@ -577,6 +609,20 @@ macro_rules! float_backend {
             #[inline]
             fn narrow(acc: $t) -> Self {
                 acc
+            }
+            fn from_counts(c: i32) -> Self {
+                c as $t
+            }
+            fn to_counts(self) -> i32 {
+                // floor(x + 1/2) by truncation (no `floor` in core);
+                // saturating casts, NaN gives 0.
+                let y = self + 0.5;
+                let t = y as i32;
+                if (t as $t) > y {
+                    t.saturating_sub(1)
+                } else {
+                    t
+                }
             }
             fn coef_lerp(lo: $t, hi: $t, frac: Self) -> $t {
                 lo + (hi - lo) * frac

@@ -59,6 +59,9 @@ pub struct Config<B: Backend, L: Layout = Runtime> {
     pub(crate) output_max: B,
     pub(crate) feed_forward_min: B,
     pub(crate) feed_forward_max: B,
+    /// A zero feed-forward clamped into its range (what `step`, which has
+    /// none, adds), so that `step` does not clamp a constant.
+    pub(crate) feed_forward_zero: B,
     pub(crate) integral_min: B::Accum,
     pub(crate) integral_max: B::Accum,
     pub(crate) measurement_min: B,
@@ -411,12 +414,13 @@ impl<L: Layout> Config<I16F16, L> {
         let lo = output_min.to_bits() as i64;
         let hi = output_max.to_bits() as i64;
         let span = hi - lo;
-        let rest = if lo > 0 {
+        let zero = attempt!(fixed_signal(p.command_zero, Setting::CommandScale));
+        let rest = if lo > zero.to_bits() as i64 {
             output_min
-        } else if hi < 0 {
+        } else if hi < zero.to_bits() as i64 {
             output_max
         } else {
-            I16F16::ZERO
+            zero
         };
         Ok(Self {
             features,
@@ -431,6 +435,13 @@ impl<L: Layout> Config<I16F16, L> {
             output_max,
             feed_forward_min: I16F16::from_bits(q::saturate_i32(lo - span)),
             feed_forward_max: I16F16::from_bits(q::saturate_i32(hi + span)),
+            feed_forward_zero: I16F16::from_bits(q::saturate_i32(if lo - span > 0 {
+                lo - span
+            } else if hi + span < 0 {
+                hi + span
+            } else {
+                0
+            })),
             integral_min: I32F32::from_bits((lo - span) << 16),
             integral_max: I32F32::from_bits((hi + span) << 16),
             measurement_min,
@@ -662,12 +673,13 @@ macro_rules! float_config {
                 }
                 let integral_min = p.integral_min as $t;
                 let integral_max = p.integral_max as $t;
-                let rest = if output_min > 0.0 {
+                let zero = p.command_zero as $t;
+                let rest = if output_min > zero {
                     output_min
-                } else if output_max < 0.0 {
+                } else if output_max < zero {
                     output_max
                 } else {
-                    0.0
+                    zero
                 };
                 Ok(Self {
                     features,
@@ -682,6 +694,13 @@ macro_rules! float_config {
                     output_max,
                     feed_forward_min: integral_min,
                     feed_forward_max: integral_max,
+                    feed_forward_zero: if integral_min > 0.0 {
+                        integral_min
+                    } else if integral_max < 0.0 {
+                        integral_max
+                    } else {
+                        0.0
+                    },
                     integral_min,
                     integral_max,
                     measurement_min,
@@ -794,6 +813,9 @@ impl ConfigError {
             }
             Self::Schedule => "evenkeel configuration: invalid gain schedule",
             Self::Layout(_) => "evenkeel configuration: does not fit the compile-time layout",
+            Self::WeightedOffset => {
+                "evenkeel configuration: setpoint weight with a measurement offset"
+            }
         }
     }
 }

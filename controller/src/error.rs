@@ -42,6 +42,10 @@ pub enum Setting {
     /// The set of optional parts (filter, deadband, setpoint weight, slew
     /// limit, back-calculation).
     Features,
+    /// The measurement side of the [`crate::Scaling`].
+    MeasurementScale,
+    /// The command side of the [`crate::Scaling`].
+    CommandScale,
 }
 
 impl Setting {
@@ -69,6 +73,8 @@ impl Setting {
             Self::MeasurementMax => "measurement_max",
             Self::Breakpoint => "schedule breakpoint",
             Self::Features => "features",
+            Self::MeasurementScale => "scaling.measurement",
+            Self::CommandScale => "scaling.command",
         }
     }
 }
@@ -113,6 +119,9 @@ pub enum ConfigError {
     /// set of features ([`Setting::Features`]), or a gain that the layout's
     /// fixed-point format cannot hold within 2⁻²⁰ relative.
     Layout(Setting),
+    /// A setpoint weight b ≠ 1 with a measurement offset: `b·r − y` in raw
+    /// units would carry `(1 − b)·offset`.
+    WeightedOffset,
 }
 
 impl fmt::Display for ConfigError {
@@ -151,6 +160,9 @@ impl fmt::Display for ConfigError {
             ),
             Self::Layout(Setting::Features) => f.write_str(
                 "the settings turn on other features (filter, deadband, setpoint weight, slew, back-calculation) than the compile-time layout has",
+            ),
+            Self::WeightedOffset => f.write_str(
+                "setpoint_weight below 1 needs a measurement scale without offset (b·r − y in raw units would carry (1 − b)·offset)",
             ),
             Self::Layout(s) => write!(
                 f,

@@ -46,10 +46,14 @@ pub mod monitor;
 #[allow(clippy::float_arithmetic)] // const conversions from f64, run once
 pub mod q;
 pub mod record;
+#[allow(clippy::float_arithmetic)] // conversions from physical units, run once
+mod scaling;
 #[allow(clippy::float_arithmetic)] // schedule construction, run once
 mod schedule;
 #[allow(clippy::float_arithmetic)] // configuration, run once
 mod settings;
+#[allow(clippy::float_arithmetic)] // configuration in const fns, run once
+pub mod slim;
 mod status;
 
 pub use backend::Backend;
@@ -59,8 +63,10 @@ pub use error::{ConfigError, Setting};
 pub use fixed;
 pub use layout::{Features, Layout, Runtime, Shape};
 pub use q::FixedCoef;
+pub use scaling::{Scale, Scaling};
 pub use schedule::{Breakpoint, Schedule, ScheduleError};
 pub use settings::{AntiWindup, PerSample, Settings};
+pub use slim::{Slim16, SlimCoef};
 pub use status::Status;
 
 /// Compile-time proof that the public types can be logged with `defmt`.

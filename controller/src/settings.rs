@@ -7,6 +7,7 @@
 //! stores those in its own number format (see [`crate::Config`]).
 
 use crate::error::{ConfigError, Setting};
+use crate::scaling::Scaling;
 
 /// How the integrator is kept from winding up while the command is limited.
 ///
@@ -83,6 +84,9 @@ pub struct Settings {
     pub measurement_min: f64,
     /// Highest plausible measurement.
     pub measurement_max: f64,
+    /// Raw units of the firmware's numbers (ADC and PWM counts, or a
+    /// per-loop scale); [`Scaling::NONE`]: raw = physical.
+    pub scaling: Scaling,
 }
 
 /// Settings turned into per-sample values (f64), ready to be stored in a
@@ -125,6 +129,11 @@ pub struct PerSample {
     pub measurement_min: f64,
     /// Measurement range.
     pub measurement_max: f64,
+    /// The command of physical zero (the command scale's offset): the
+    /// command of a controller at rest, clamped into the limits. (The
+    /// integrator starts at raw zero; with a command offset, `engage` the
+    /// actuator's value to start bumplessly.)
+    pub command_zero: f64,
 }
 
 impl Settings {
@@ -160,7 +169,26 @@ impl Settings {
             anti_windup: AntiWindup::ConditionalIntegration,
             measurement_min: -30_000.0,
             measurement_max: 30_000.0,
+            scaling: Scaling::NONE,
         }
+    }
+
+    /// The firmware's numbers in raw units: every value of the step
+    /// (setpoint, measurement, command, limits, …) is then `physical ·
+    /// per_unit + offset` of its side, and the gains are converted to raw
+    /// units per raw unit. See [`Scaling`].
+    ///
+    /// ```
+    /// use evenkeel::{Scale, Scaling, Settings};
+    /// let s = Settings::new(0.01, 0.5, 1.0, 0.0, 1.0)
+    ///     .with_scaling(Scaling::NONE.with_pwm(Scale::new(1000.0, 0.0)));
+    /// assert_eq!(s.per_sample()?.output_max, 1000.0);
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
+    #[must_use]
+    pub const fn with_scaling(mut self, scaling: Scaling) -> Self {
+        self.scaling = scaling;
+        self
     }
 
     /// Like [`Settings::new`] with the integral time Ti in seconds instead of
@@ -376,21 +404,86 @@ impl Settings {
                 Some(ratio)
             }
         };
-        let span = self.output_max - self.output_min;
+        if let Err(e) = self.scaling.check() {
+            return Err(e);
+        }
+        let raw = Self::raw_units(
+            PerSample {
+                kp: self.kp,
+                setpoint_weight: if b == 1.0 { None } else { Some(b) },
+                ki_ts: self.ki_per_s * ts,
+                tracking_ratio,
+                filter_alpha,
+                slew_step,
+                deadband,
+                output_min: self.output_min,
+                output_max: self.output_max,
+                integral_min: 0.0,
+                integral_max: 0.0,
+                measurement_min: self.measurement_min,
+                measurement_max: self.measurement_max,
+                command_zero: 0.0,
+            },
+            &self.scaling,
+        );
+        let p = match raw {
+            Ok(p) => p,
+            Err(e) => return Err(e),
+        };
+        let span = p.output_max - p.output_min;
         Ok(PerSample {
-            kp: self.kp,
-            setpoint_weight: if b == 1.0 { None } else { Some(b) },
-            ki_ts: self.ki_per_s * ts,
-            tracking_ratio,
-            filter_alpha,
-            slew_step,
-            deadband,
-            output_min: self.output_min,
-            output_max: self.output_max,
-            integral_min: self.output_min - span,
-            integral_max: self.output_max + span,
-            measurement_min: self.measurement_min,
-            measurement_max: self.measurement_max,
+            integral_min: p.output_min - span,
+            integral_max: p.output_max + span,
+            ..p
+        })
+    }
+
+    /// `p` (physical) in the raw units of `scaling`. The identity leaves
+    /// every value as it is (bit for bit).
+    const fn raw_units(p: PerSample, scaling: &Scaling) -> Result<PerSample, ConfigError> {
+        if scaling.is_none() {
+            return Ok(p);
+        }
+        let (m, c) = (scaling.measurement, scaling.command);
+        if p.setpoint_weight.is_some() && m.offset != 0.0 {
+            return Err(ConfigError::WeightedOffset);
+        }
+        // Gains: command raw units per measurement raw unit.
+        let gain = c.per_unit / m.per_unit;
+        let mut measurement_min = m.raw(p.measurement_min);
+        let mut measurement_max = m.raw(p.measurement_max);
+        if let Some(top) = scaling.adc_max() {
+            if measurement_min < 0.0 {
+                measurement_min = 0.0;
+            }
+            if measurement_max > top {
+                measurement_max = top;
+            }
+            if measurement_min >= measurement_max {
+                return Err(ConfigError::Inverted(Setting::MeasurementMax));
+            }
+        }
+        Ok(PerSample {
+            kp: p.kp * gain,
+            setpoint_weight: p.setpoint_weight,
+            ki_ts: p.ki_ts * gain,
+            tracking_ratio: p.tracking_ratio,
+            filter_alpha: p.filter_alpha,
+            slew_step: match p.slew_step {
+                Some(s) => Some(c.raw_span(s)),
+                None => None,
+            },
+            deadband: match p.deadband {
+                Some(w) => Some(m.raw_span(w)),
+                None => None,
+            },
+            output_min: c.raw(p.output_min),
+            output_max: c.raw(p.output_max),
+            integral_min: p.integral_min,
+            integral_max: p.integral_max,
+            measurement_min,
+            measurement_max,
+            command_zero: c.offset,
         })
     }
 }

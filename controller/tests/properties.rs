@@ -1,7 +1,7 @@
 //! Property tests: invariants for any accepted configuration and any input
 //! sequence, for every backend; and the fixed-versus-float bound.
 
-use evenkeel::{AntiWindup, Backend, Config, Controller, Input, Settings, Status};
+use evenkeel::{AntiWindup, Backend, Config, Controller, Input, Scaling, Settings, Slim16, Status};
 use fixed::types::I16F16;
 use proptest::prelude::*;
 
@@ -109,8 +109,15 @@ fn check_invariants<B: Backend>(
         return Ok(());
     };
     let mut pi = Controller::new(config);
-    // The limits as the user wrote them (the settings in force).
-    let mut written = (settings.output_min, settings.output_max);
+    // The limits as the user wrote them (the settings in force), in the
+    // step's raw units.
+    let raw_limits = |s: &Settings| {
+        let c = s.scaling.command;
+        (c.raw(s.output_min), c.raw(s.output_max))
+    };
+    let mut written = raw_limits(settings);
+    // One signal LSB: Q16.16's, or one raw unit of the 16-bit format.
+    let lsb = if B::NAME == "slim16" { 1.0 } else { Q };
     // Rounding slack of float bounds on the integrator (two ulps of the
     // operands); zero for fixed point, whose additions are exact.
     let slack = |x: B| -> f64 {
@@ -153,7 +160,7 @@ fn check_invariants<B: Backend>(
             Event::Retune(s) => {
                 if let Ok(c) = Config::<B>::try_new(s) {
                     pi.retune(c);
-                    written = (s.output_min, s.output_max);
+                    written = raw_limits(s);
                 }
                 continue;
             }
@@ -183,7 +190,7 @@ fn check_invariants<B: Backend>(
                 a
             };
             let err = (out.command.to_f64() - target.to_f64()).abs();
-            prop_assert!(err <= Q.max(slack(target) * 8.0), "engage off by {err}");
+            prop_assert!(err <= lsb.max(slack(target) * 8.0), "engage off by {err}");
         }
         let engage_step = out.status.contains(Status::ENGAGED) || exempt;
         if let (Some(step), false) = (c.slew_step(), engage_step) {
@@ -202,7 +209,7 @@ fn check_invariants<B: Backend>(
         }
         let i = pi.integral().to_f64();
         let span = hi.to_f64() - lo.to_f64();
-        let tol = Q + 4.0 * (slack(lo) + slack(hi));
+        let tol = lsb + 4.0 * (slack(lo) + slack(hi));
         prop_assert!(
             i >= lo.to_f64() - span - tol && i <= hi.to_f64() + span + tol,
             "integral {i} unbounded"
@@ -217,6 +224,11 @@ proptest! {
     #[test]
     fn fixed_invariants(s in settings(), e in events()) {
         check_invariants::<I16F16>(&s, &e)?;
+    }
+
+    #[test]
+    fn slim16_invariants(s in slim_settings(), e in slim_events()) {
+        check_invariants::<Slim16>(&s, &e)?;
     }
 
     #[test]
@@ -257,6 +269,33 @@ proptest! {
             prop_assert!(diff <= bound.after(k), "step {k}: |Δu| = {diff} > bound {}", bound.after(k));
         }
     }
+}
+
+/// Settings on a power-of-two scale that puts their ranges within ±2¹⁴
+/// raw ([`Scaling::covering`]).
+fn slim_settings() -> impl Strategy<Value = Settings> {
+    settings_within(300.0, 20_000.0).prop_map(|s| {
+        s.with_scaling(Scaling::covering(
+            s.measurement_min.max(-20_000.0),
+            s.measurement_max.min(20_000.0),
+            s.output_min,
+            s.output_max,
+        ))
+    })
+}
+
+/// Events in raw units of the 16-bit format (any value, saturated on
+/// conversion, like an out-of-range reading).
+fn slim_events() -> impl Strategy<Value = Vec<Event>> {
+    let event = prop_oneof![
+        20 => (value(), value(), value(), prop::option::of(value()))
+            .prop_map(|(r, y, ff, applied)| Event::Step { r, y, ff, applied }),
+        1 => value().prop_map(Event::Engage),
+        2 => (value(), value(), value()).prop_map(|(r, y, a)| Event::Track { r, y, a }),
+        1 => Just(Event::Reset),
+        1 => slim_settings().prop_map(Event::Retune),
+    ];
+    prop::collection::vec(event, 1..120)
 }
 
 fn grid(x: f64) -> f64 {
@@ -312,5 +351,87 @@ impl FixedBound {
 
     fn after(&self, k: usize) -> f64 {
         (k as f64 + 1.0) * self.growth + Q
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 400, ..ProptestConfig::default() })]
+
+    /// The 16-bit format follows f64 (both on the same raw units) within the
+    /// bound of `FORMATS.md` §8, while both take the same branches and no
+    /// intermediate value leaves the 16-bit range (there the format
+    /// saturates where f64 does not, by design).
+    #[test]
+    fn slim16_follows_f64_within_bound(
+        s in settings_within(10.0, 5_000.0),
+        inputs in prop::collection::vec((-1.0f64..1.0, -1.0f64..1.0, -0.05f64..0.05), 1..150),
+    ) {
+        let s = s.with_scaling(Scaling::covering(
+            s.measurement_min.max(-5_000.0),
+            s.measurement_max.min(5_000.0),
+            s.output_min,
+            s.output_max,
+        ));
+        let (Ok(cs), Ok(cd)) = (Config::<Slim16>::try_new(&s), Config::<f64>::try_new(&s)) else {
+            return Ok(());
+        };
+        let Ok(p) = s.per_sample() else { return Ok(()) };
+        let bound = SlimBound::new(&p, &cs);
+        let mut slim = Controller::new(cs);
+        let mut float = Controller::new(cd);
+        // Inputs as fractions of ±8 192 raw, on the integer grid.
+        for (k, (r, y, ff)) in inputs.into_iter().enumerate() {
+            let (r, y, ff) = ((r * 8_192.0).round(), (y * 8_192.0).round(), (ff * 8_192.0).round());
+            let a = slim.step_with(&Input::new(Slim16::from_f64(r), Slim16::from_f64(y)).with_feed_forward(Slim16::from_f64(ff)));
+            let b = float.step_with(&Input::new(r, y).with_feed_forward(ff));
+            let p_part = p.kp * (r - y);
+            if a.status != b.status || float.integral().abs() + p_part.abs() + ff.abs() > 30_000.0 {
+                break;
+            }
+            let diff = (a.command.to_f64() - b.command).abs();
+            prop_assert!(diff <= bound.after(k), "step {k}: |Δu| = {diff} > bound {}", bound.after(k));
+        }
+    }
+}
+
+/// The per-step error budget of FORMATS.md §8 (16-bit), in raw units: q = 1
+/// raw LSB, h = half a state LSB = 2⁻¹⁴.
+struct SlimBound {
+    growth: f64,
+}
+
+impl SlimBound {
+    fn new(p: &evenkeel::PerSample, c: &Config<Slim16>) -> Self {
+        let (q, h) = (1.0, 2f64.powi(-14));
+        let rel = |stored: f64, exact: f64| (stored - exact).abs();
+        let range = 2.0 * (p.measurement_max - p.measurement_min).abs().max(16_384.0);
+        let dy = match (p.filter_alpha, c.filter_alpha()) {
+            (Some(exact), Some(alpha)) => {
+                q + rel(alpha.to_f64(), exact) * range / exact + h / exact
+            }
+            _ => 0.0,
+        };
+        let db = if p.deadband.is_some() { q / 2.0 } else { 0.0 };
+        let db_r = match (p.setpoint_weight, c.setpoint_weight()) {
+            (Some(b), Some(w)) => q / 2.0 + rel(w.to_f64(), b) * 8_192.0,
+            _ => 0.0,
+        };
+        let d_p = p.kp * (db_r + 3.0 * dy + db) + rel(c.kp().to_f64(), p.kp) * range + q / 2.0;
+        let d_slew = match (p.slew_step, c.slew_step()) {
+            (Some(exact), Some(step)) => rel(step.to_f64(), exact),
+            _ => 0.0,
+        };
+        let d_i = p.ki_ts * (dy + db)
+            + rel(c.ki_ts().to_f64(), p.ki_ts) * range
+            + 4.0 * h
+            + c.tracking_ratio()
+                .map_or(0.0, |r| r.to_f64() * (2.0 * d_p + 2.0 * q) + 4.0 * h);
+        Self {
+            growth: d_p + q + d_slew + d_i,
+        }
+    }
+
+    fn after(&self, k: usize) -> f64 {
+        (k as f64 + 1.0) * self.growth + 1.0
     }
 }

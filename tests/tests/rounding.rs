@@ -85,3 +85,63 @@ proptest! {
         prop_assert!(err * pow2(c.shift()) <= BigRational::new(BigInt::one(), BigInt::from(2)));
     }
 }
+
+// The 16-bit backend (`Slim16`): the same contract with 16-bit signals, a
+// 16-bit mantissa and a state with 13 extra fraction bits.
+mod slim16 {
+    use super::{nearest_up, pow2};
+    use evenkeel::{Backend, Slim16, SlimCoef};
+    use num_bigint::BigInt;
+    use num_rational::BigRational;
+    use proptest::prelude::*;
+
+    fn coefficient() -> impl Strategy<Value = SlimCoef> {
+        (-7.0f64..4.5, any::<bool>()).prop_filter_map("fits", |(exp, neg)| {
+            let v = 10f64.powf(exp) * if neg { -1.0 } else { 1.0 };
+            SlimCoef::from_f64(v, 0)
+        })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 2000, ..ProptestConfig::default() })]
+
+        #[test]
+        fn scale_is_round_to_nearest(c in coefficient(), x in any::<i16>()) {
+            let exact = BigRational::from_integer(BigInt::from(x))
+                * BigRational::from_integer(BigInt::from(c.mantissa()))
+                / pow2(c.shift());
+            let want = nearest_up(&exact, i64::from(i16::MIN), i64::from(i16::MAX));
+            prop_assert_eq!(i64::from(c.scale(Slim16::from_raw(x)).raw()), want);
+        }
+
+        #[test]
+        fn scale_into_rounds_at_state_precision(
+            exp in -7.0f64..-0.01, x in any::<i16>(), acc in -(1i32 << 29)..(1i32 << 29)
+        ) {
+            let Some(c) = SlimCoef::from_f64(10f64.powf(exp), 15) else { return Ok(()); };
+            // Product in state units: x·m / 2^(shift − 13).
+            let exact = BigRational::from_integer(BigInt::from(x))
+                * BigRational::from_integer(BigInt::from(c.mantissa()))
+                / pow2(c.shift() - 13);
+            let want = (nearest_up(&exact, i64::from(i32::MIN), i64::from(i32::MAX)) + i64::from(acc))
+                .clamp(i64::from(i32::MIN), i64::from(i32::MAX));
+            prop_assert_eq!(i64::from(c.scale_into(acc, Slim16::from_raw(x))), want);
+        }
+
+        #[test]
+        fn state_narrowing_is_round_to_nearest(acc in any::<i32>()) {
+            let exact = BigRational::from_integer(BigInt::from(acc)) / pow2(13);
+            let want = nearest_up(&exact, i64::from(i16::MIN), i64::from(i16::MAX));
+            prop_assert_eq!(i64::from(Slim16::narrow(acc).raw()), want);
+        }
+
+        #[test]
+        fn coefficient_from_f64_is_nearest(v in -32_000.0f64..32_000.0) {
+            let Some(c) = SlimCoef::from_f64(v, 0) else { return Ok(()); };
+            // |stored − v| ≤ half a mantissa step, and the mantissa uses 15 bits.
+            let step = 2f64.powi(-(c.shift() as i32));
+            prop_assert!((c.to_f64() - v).abs() <= step / 2.0);
+            prop_assert!(c.mantissa().unsigned_abs() >= 1 << 14 || c.shift() == 30);
+        }
+    }
+}

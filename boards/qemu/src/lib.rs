@@ -151,6 +151,14 @@ pub fn run(board: &Board) -> ! {
         print_cost(&mut console, "fixed-layout full", full);
         let minimal = cost::minimal(cost::FIXED_MINIMAL_LAYOUT, &mut clock, board.rate);
         print_cost(&mut console, "fixed-layout minimal", minimal);
+        let full = cost::full(cost::SLIM_FULL_CONFIG, &mut clock, board.rate);
+        print_cost(&mut console, "slim16 full", full);
+        let minimal = cost::minimal(cost::SLIM_MINIMAL_CONFIG, &mut clock, board.rate);
+        print_cost(&mut console, "slim16 minimal", minimal);
+        let full = cost::full(cost::SLIM_FULL_LAYOUT, &mut clock, board.rate);
+        print_cost(&mut console, "slim16-layout full", full);
+        let minimal = cost::minimal(cost::SLIM_MINIMAL_LAYOUT, &mut clock, board.rate);
+        print_cost(&mut console, "slim16-layout minimal", minimal);
         #[cfg(feature = "f32")]
         {
             let full = cost::full(cost::F32_FULL, &mut clock, board.rate);
@@ -161,6 +169,8 @@ pub fn run(board: &Board) -> ! {
     }
     let fixed = cost::controller_bytes::<evenkeel_replay::Fixed>();
     let _ = writeln!(console, "ram fixed: {fixed} bytes per controller");
+    let slim = cost::controller_bytes::<evenkeel_replay::Slim16>();
+    let _ = writeln!(console, "ram slim16: {slim} bytes per controller");
     #[cfg(feature = "f32")]
     {
         let float = cost::controller_bytes::<f32>();

@@ -16,7 +16,10 @@
 //! (conditional integration, nothing else) through `step`.
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{AntiWindup, Backend, Config, Controller, FixedCoef, Input, Layout, Settings};
+use evenkeel::{
+    AntiWindup, Backend, Config, Controller, FixedCoef, Input, Layout, Scale, Scaling, Settings,
+    Slim16, SlimCoef,
+};
 
 use crate::probe;
 
@@ -36,6 +39,25 @@ pub const FULL: Settings = Settings::new(0.01, 2.0, 5.0, -10.0, 10.0)
 
 /// Settings of the `minimal` workload.
 pub const MINIMAL: Settings = Settings::new(0.01, 2.0, 5.0, -10.0, 10.0);
+
+/// Raw units of the 16-bit workloads: 512 LSB per unit on both sides
+/// (±10 output → ±5120 raw; measurement range ±60 → ±30 720 raw).
+pub const SLIM_SCALE: f64 = 512.0;
+
+/// [`FULL`] for the 16-bit format: the same loop in raw units of
+/// [`SLIM_SCALE`], measurement range ±60 (so that it fits 16 bits).
+pub const SLIM_FULL: Settings = FULL.with_measurement_range(-60.0, 60.0).with_scaling(
+    Scaling::NONE
+        .with_measurement(Scale::new(SLIM_SCALE, 0.0))
+        .with_command(Scale::new(SLIM_SCALE, 0.0)),
+);
+
+/// [`MINIMAL`] for the 16-bit format (see [`SLIM_FULL`]).
+pub const SLIM_MINIMAL: Settings = MINIMAL.with_measurement_range(-60.0, 60.0).with_scaling(
+    Scaling::NONE
+        .with_measurement(Scale::new(SLIM_SCALE, 0.0))
+        .with_command(Scale::new(SLIM_SCALE, 0.0)),
+);
 
 /// A free-running counter.
 pub trait Clock {
@@ -137,6 +159,16 @@ impl Workload for I16F16 {
     }
 }
 
+impl Workload for Slim16 {
+    const EIGHTH: SlimCoef = match SlimCoef::from_f64(0.125, 0) {
+        Some(c) => c,
+        None => SlimCoef::ZERO,
+    };
+    fn int(x: i16) -> Self {
+        Slim16::from_raw(x.saturating_mul(SLIM_SCALE as i16))
+    }
+}
+
 #[cfg(feature = "f32")]
 impl Workload for f32 {
     const EIGHTH: f32 = 0.125;
@@ -217,6 +249,18 @@ pub const FIXED_FULL_LAYOUT: Config<I16F16, FullLayout> =
 /// compile time.
 pub const FIXED_MINIMAL_LAYOUT: Config<I16F16, MinimalLayout> =
     evenkeel::config!(I16F16, MinimalLayout, MINIMAL);
+/// 16-bit configurations of the two workloads (run-time and layout).
+pub const SLIM_FULL_CONFIG: Config<Slim16> = evenkeel::config!(Slim16, SLIM_FULL);
+/// See [`SLIM_FULL_CONFIG`].
+pub const SLIM_MINIMAL_CONFIG: Config<Slim16> = evenkeel::config!(Slim16, SLIM_MINIMAL);
+evenkeel::layout!(pub SlimFullLayout = SLIM_FULL);
+evenkeel::layout!(pub SlimMinimalLayout = SLIM_MINIMAL);
+/// The 16-bit `full` workload under its compile-time layout.
+pub const SLIM_FULL_LAYOUT: Config<Slim16, SlimFullLayout> =
+    evenkeel::config!(Slim16, SlimFullLayout, SLIM_FULL);
+/// The 16-bit `minimal` workload under its compile-time layout.
+pub const SLIM_MINIMAL_LAYOUT: Config<Slim16, SlimMinimalLayout> =
+    evenkeel::config!(Slim16, SlimMinimalLayout, SLIM_MINIMAL);
 /// `f32` configurations of the two workloads.
 #[cfg(feature = "f32")]
 pub const F32_FULL: Config<f32> = evenkeel::config!(f32, FULL);

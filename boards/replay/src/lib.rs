@@ -17,6 +17,8 @@ pub mod replay;
 
 /// The fixed-point signal type the vectors use (Q16.16).
 pub type Fixed = evenkeel::fixed::types::I16F16;
+/// The 16-bit backend.
+pub type Slim16 = evenkeel::Slim16;
 
 /// Compile-time tables generated from the vector files by `build.rs`: one
 /// module per file ([`tables::golden`], [`tables::schedule`]).

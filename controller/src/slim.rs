@@ -1,0 +1,817 @@
+//! The 16-bit fixed-point backend: [`Slim16`] signals, [`SlimCoef`]
+//! coefficients, a 32-bit state.
+//!
+//! # Numeric contract
+//!
+//! * A signal is an `i16` raw value, −32 768 … 32 767; its physical value is
+//!   set by the loop's [`crate::Scaling`] (`raw = physical · per_unit +
+//!   offset`), so the 16 bits cover this loop's range, not a fixed one.
+//! * Integrator and filter state: `i32` with [`SLIM_STATE_FRAC_BITS`] = 13
+//!   extra fraction bits (one state LSB = 2⁻¹³ signal LSB).
+//! * A coefficient is a 16-bit mantissa with its own binary point: value =
+//!   `mantissa · 2^-shift`, shift 0 … 30, normalised to 15 bits (relative
+//!   error ≤ 2⁻¹⁵; configuration refuses more than [`SLIM_COEF_REL_TOLERANCE`]
+//!   = 2⁻¹⁴).
+//! * Every product is one 16 × 16 → 32-bit multiply (exact, |p| < 2³⁰),
+//!   rounded to nearest with ties toward +∞ (`floor(p / 2^s + 1/2)`) and
+//!   saturated to the destination. Sums of signals saturate. Nothing
+//!   divides, loops or panics.
+
+use crate::backend::Backend;
+use crate::config::Config;
+use crate::error::{ConfigError, Setting};
+use crate::layout::Layout;
+use crate::settings::Settings;
+
+/// Extra fraction bits of the integrator and filter state.
+///
+/// ```
+/// use evenkeel::{Backend, Slim16, slim::SLIM_STATE_FRAC_BITS};
+/// assert_eq!(Slim16::from_raw(1).widen(), 1 << SLIM_STATE_FRAC_BITS);
+/// ```
+pub const SLIM_STATE_FRAC_BITS: u32 = 13;
+
+/// Largest coefficient shift (a product is below 2³⁰).
+///
+/// ```
+/// use evenkeel::{SlimCoef, slim::SLIM_MAX_SHIFT};
+/// assert_eq!(SlimCoef::from_f64(1e-9, 0).map(SlimCoef::shift), Some(SLIM_MAX_SHIFT));
+/// ```
+pub const SLIM_MAX_SHIFT: u32 = 30;
+
+/// Largest relative error of a stored gain (2⁻¹⁴ ≈ 6.1e-5).
+///
+/// ```
+/// use evenkeel::{SlimCoef, slim::SLIM_COEF_REL_TOLERANCE};
+/// let c = SlimCoef::from_f64(0.3, 0).ok_or("does not fit")?;
+/// assert!((c.to_f64() - 0.3).abs() <= 0.3 * SLIM_COEF_REL_TOLERANCE);
+/// # Ok::<(), &str>(())
+/// ```
+pub const SLIM_COEF_REL_TOLERANCE: f64 = 1.0 / 16_384.0;
+
+/// Smallest shift of a coefficient added into the state (Ki·Ts, α: value
+/// below 1).
+const STATE_COEF_MIN_SHIFT: u32 = 15;
+/// Smallest shift of Ts/Tt (≤ 1; 1 itself is 2¹⁴ · 2⁻¹⁴).
+const RATIO_MIN_SHIFT: u32 = 14;
+
+/// A 16-bit signal in the loop's raw units (see [`crate::Scaling`]).
+///
+/// ```
+/// use evenkeel::{Backend, Slim16};
+/// let x = Slim16::from_raw(30_000);
+/// assert_eq!(x.add(x), Slim16::MAX); // saturates
+/// assert_eq!(x.raw(), 30_000);
+/// ```
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, PartialOrd, Ord, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Slim16(i16);
+
+impl Slim16 {
+    /// Raw zero.
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::Slim16::ZERO.raw(), 0);
+    /// ```
+    pub const ZERO: Self = Self(0);
+    /// −32 768.
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::Slim16::MIN.raw(), i16::MIN);
+    /// ```
+    pub const MIN: Self = Self(i16::MIN);
+    /// 32 767.
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::Slim16::MAX.raw(), i16::MAX);
+    /// ```
+    pub const MAX: Self = Self(i16::MAX);
+
+    /// The signal whose raw value is `raw` (an ADC reading, a count).
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::Slim16::from_raw(-7).raw(), -7);
+    /// ```
+    #[must_use]
+    pub const fn from_raw(raw: i16) -> Self {
+        Self(raw)
+    }
+
+    /// The raw value (what a compare register takes).
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::Slim16::from_raw(812).raw(), 812);
+    /// ```
+    #[must_use]
+    pub const fn raw(self) -> i16 {
+        self.0
+    }
+}
+
+/// A coefficient of the 16-bit backend: `mantissa · 2^-shift`.
+///
+/// ```
+/// use evenkeel::SlimCoef;
+/// let c = SlimCoef::from_f64(0.1, 0).ok_or("does not fit")?;
+/// assert_eq!((c.mantissa(), c.shift()), (26_214, 18)); // 0.1 · 2¹⁸ = 26 214.4
+/// # Ok::<(), &str>(())
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct SlimCoef {
+    mantissa: i16,
+    shift: u8,
+}
+
+impl SlimCoef {
+    /// Zero.
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::SlimCoef::ZERO.to_f64(), 0.0);
+    /// ```
+    pub const ZERO: Self = Self {
+        mantissa: 0,
+        shift: 0,
+    };
+
+    /// Nearest coefficient to `value` with the largest shift (at most 30,
+    /// at least `min_shift`) whose mantissa fits 15 bits and a sign. Rounds
+    /// to nearest, ties away from zero. `None` if not finite or too large.
+    ///
+    /// ```
+    /// use evenkeel::SlimCoef;
+    /// assert_eq!(SlimCoef::from_f64(2.0, 0).map(|c| (c.mantissa(), c.shift())), Some((16_384, 13)));
+    /// assert!(SlimCoef::from_f64(40_000.0, 0).is_none());
+    /// assert!(SlimCoef::from_f64(2.0, 15).is_none()); // would need shift 13
+    /// ```
+    #[must_use]
+    pub const fn from_f64(value: f64, min_shift: u32) -> Option<Self> {
+        if !value.is_finite() || min_shift > SLIM_MAX_SHIFT {
+            return None;
+        }
+        if value == 0.0 {
+            return Some(Self {
+                mantissa: 0,
+                shift: min_shift as u8,
+            });
+        }
+        let mut shift = SLIM_MAX_SHIFT;
+        loop {
+            if let Some(c) = Self::with_shift(value, shift) {
+                return if shift < min_shift { None } else { Some(c) };
+            }
+            if shift == 0 {
+                return None;
+            }
+            shift -= 1;
+        }
+    }
+
+    /// Nearest coefficient to `value` at exactly `shift` (≤ 30); `None` if
+    /// the mantissa does not fit (−32 767 … 32 767) or `value` is not finite.
+    ///
+    /// ```
+    /// use evenkeel::SlimCoef;
+    /// assert_eq!(SlimCoef::with_shift(0.625, 2).map(SlimCoef::mantissa), Some(3)); // 2.5 → 3
+    /// assert!(SlimCoef::with_shift(1.0, 15).is_none()); // 32 768
+    /// ```
+    #[must_use]
+    pub const fn with_shift(value: f64, shift: u32) -> Option<Self> {
+        if !value.is_finite() || shift > SLIM_MAX_SHIFT {
+            return None;
+        }
+        let rounded = crate::scaling::round_half_away(value * (1u64 << shift) as f64);
+        if rounded > -32_768.0 && rounded < 32_768.0 {
+            Some(Self {
+                mantissa: rounded as i16,
+                shift: shift as u8,
+            })
+        } else {
+            None
+        }
+    }
+
+    /// The stored value (exact).
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::SlimCoef::with_shift(0.1, 10).map(|c| c.to_f64()), Some(102.0 / 1024.0));
+    /// ```
+    #[must_use]
+    pub const fn to_f64(self) -> f64 {
+        self.mantissa as f64 / (1u64 << self.shift) as f64
+    }
+
+    /// The mantissa.
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::SlimCoef::with_shift(0.5, 4).map(|c| c.mantissa()), Some(8));
+    /// ```
+    #[must_use]
+    pub const fn mantissa(self) -> i16 {
+        self.mantissa
+    }
+
+    /// The binary point: value = mantissa · 2^-shift.
+    ///
+    /// ```
+    /// assert_eq!(evenkeel::SlimCoef::with_shift(0.5, 4).map(|c| c.shift()), Some(4));
+    /// ```
+    #[must_use]
+    pub const fn shift(self) -> u32 {
+        self.shift as u32
+    }
+
+    /// `round(x · self)` as a signal: nearest, ties toward +∞, saturated.
+    ///
+    /// ```
+    /// use evenkeel::{Slim16, SlimCoef};
+    /// let half = SlimCoef::from_f64(0.5, 0).ok_or("does not fit")?;
+    /// assert_eq!(half.scale(Slim16::from_raw(3)).raw(), 2); // 1.5 → 2
+    /// assert_eq!(half.scale(Slim16::from_raw(-3)).raw(), -1); // −1.5 → −1
+    /// let big = SlimCoef::from_f64(300.0, 0).ok_or("does not fit")?;
+    /// assert_eq!(big.scale(Slim16::from_raw(200)), Slim16::MAX);
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[inline(always)]
+    #[must_use]
+    pub fn scale(self, x: Slim16) -> Slim16 {
+        Slim16(saturate_i16(round_shift(
+            product(x, self.mantissa),
+            u32::from(self.shift),
+        )))
+    }
+
+    /// `acc + round(x · self)` at state precision (2⁻¹³ LSB), saturated.
+    /// A shift below 13 (never produced by configuration for these
+    /// coefficients) saturates the product.
+    ///
+    /// ```
+    /// use evenkeel::{Slim16, SlimCoef};
+    /// let k = SlimCoef::from_f64(1e-3, 15).ok_or("does not fit")?;
+    /// // 1e-3 · 1 LSB = 8.19 state LSB → 8: kept, though far below one signal LSB.
+    /// assert_eq!(k.scale_into(0, Slim16::from_raw(1)), 8);
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[inline]
+    #[must_use]
+    pub fn scale_into(self, acc: i32, x: Slim16) -> i32 {
+        let shift = u32::from(self.shift);
+        if shift < SLIM_STATE_FRAC_BITS {
+            let p = match product(x, self.mantissa) {
+                0 => 0,
+                1.. => i32::MAX,
+                _ => -i32::MAX,
+            };
+            return acc.saturating_add(p);
+        }
+        acc.saturating_add(round_shift(
+            product(x, self.mantissa),
+            shift - SLIM_STATE_FRAC_BITS,
+        ))
+    }
+
+    /// `acc + round(x · self)` for the controller's own state, without the
+    /// overflow check of [`SlimCoef::scale_into`].
+    ///
+    /// Bound: configuration gives Ki·Ts and α a shift ≥ 15 and Ts/Tt one
+    /// ≥ 14, so |x · m| < 2¹⁵ · 2¹⁵ = 2³⁰ is shifted right by at least 1
+    /// (at most 2²⁹ state LSB) for Ts/Tt and by at least 2 (2²⁸) for the
+    /// others; the integrator stays within three output spans (|I| ≤ 98 303
+    /// signal LSB < 2²⁷ · 2⁻¹³… i.e. < 8.06e8 state LSB) and the filter
+    /// state within the signal range (< 2²⁸); at most two products are
+    /// added before the integrator is clamped again: every partial sum is
+    /// below 8.06e8 + 2²⁸ + 2²⁹ < 1.62e9 < 2³¹, so the wrapping sum is
+    /// exact. For other inputs the result is unspecified (never a panic).
+    #[inline(always)]
+    #[must_use]
+    pub(crate) fn integrate(self, acc: i32, x: Slim16) -> i32 {
+        let shift = u32::from(self.shift).saturating_sub(SLIM_STATE_FRAC_BITS);
+        acc.wrapping_add(round_shift(product(x, self.mantissa), shift))
+    }
+
+    #[inline(always)]
+    pub(crate) const fn at_shift(self, shift: u32) -> Self {
+        Self {
+            mantissa: self.mantissa,
+            shift: shift as u8,
+        }
+    }
+
+    /// `self + (other − self) · frac` on the mantissas, `frac` in raw
+    /// units of 2⁻¹⁵ (0 … 32 767); both ends must share a shift, otherwise
+    /// `self`. Nearest, ties toward +∞, saturating.
+    ///
+    /// ```
+    /// use evenkeel::{Slim16, SlimCoef};
+    /// let (lo, hi) = (SlimCoef::with_shift(1.0, 12).ok_or("")?, SlimCoef::with_shift(3.0, 12).ok_or("")?);
+    /// assert_eq!(lo.lerp(hi, Slim16::from_raw(16_384)).to_f64(), 2.0);
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[must_use]
+    pub fn lerp(self, other: Self, frac: Slim16) -> Self {
+        if self.shift != other.shift {
+            return self;
+        }
+        let span = i32::from(other.mantissa) - i32::from(self.mantissa);
+        let step = round_shift(span.saturating_mul(i32::from(frac.0)), 15);
+        Self {
+            mantissa: saturate_i16(i32::from(self.mantissa).saturating_add(step)),
+            shift: self.shift,
+        }
+    }
+}
+
+/// The exact product of a signal and a mantissa (one `muls` / `smulbb`).
+#[inline(always)]
+fn product(x: Slim16, m: i16) -> i32 {
+    i32::from(x.0) * i32::from(m)
+}
+
+/// `floor(p / 2^s + 1/2)` for |p| ≤ 2³⁰ and s ≤ 30 (the sum cannot wrap).
+/// `floor(p / 2^s)` plus bit s − 1 of p: the same, without the sum.
+#[inline(always)]
+fn round_shift(p: i32, s: u32) -> i32 {
+    if s == 0 {
+        p
+    } else {
+        let s = s & 31;
+        (p >> s) + ((p >> (s - 1)) & 1)
+    }
+}
+
+/// Saturate into `i16` (one `ssat` on Armv7-M).
+#[inline(always)]
+fn saturate_i16(x: i32) -> i16 {
+    x.clamp(i32::from(i16::MIN), i32::from(i16::MAX)) as i16
+}
+
+/// Nearest raw value, ties to even, saturating; NaN gives zero.
+const fn raw_nearest_even(x: f64) -> i16 {
+    if x.is_nan() {
+        return 0;
+    }
+    if x >= 32_767.0 {
+        return i16::MAX;
+    }
+    if x <= -32_768.0 {
+        return i16::MIN;
+    }
+    let whole = x as i32; // toward zero
+    let frac = x - whole as f64;
+    let r = if frac > 0.5 || (frac == 0.5 && whole % 2 != 0) {
+        whole + 1
+    } else if frac < -0.5 || (frac == -0.5 && whole % 2 != 0) {
+        whole - 1
+    } else {
+        whole
+    };
+    r as i16
+}
+
+impl Backend for Slim16 {
+    type Coef = SlimCoef;
+    type Accum = i32;
+    const ZERO: Self = Self(0);
+    /// One raw unit (the signal's own LSB: its physical size is the
+    /// scaling's).
+    const ONE: Self = Self(1);
+    const ACCUM_ZERO: i32 = 0;
+    const EXACT_SUMS: bool = true;
+    const NAME: &'static str = "slim16";
+
+    fn configure<L: Layout>(settings: &Settings) -> Result<Config<Self, L>, ConfigError> {
+        Config::<Slim16, L>::new(settings)
+    }
+    fn check_gain(
+        c: SlimCoef,
+        min_shift: u32,
+        layout_shift: Option<u32>,
+        which: Setting,
+    ) -> Result<(), ConfigError> {
+        if c.mantissa < 0 {
+            return Err(ConfigError::Negative(which));
+        }
+        // `min_shift` and `layout_shift` are the Q16.16 figures (16 for a
+        // per-sample integral gain; the layout's 32-bit shift): this format
+        // keeps 16 bits fewer, and a per-sample integral gain below 1.
+        let own_min = if min_shift >= 16 {
+            STATE_COEF_MIN_SHIFT
+        } else {
+            0
+        };
+        match layout_shift {
+            Some(s) if c.shift() + 16 != s => Err(ConfigError::Layout(which)),
+            _ if c.shift() < own_min => Err(ConfigError::OutOfFormat(which)),
+            _ => Ok(()),
+        }
+    }
+    fn coef_is_zero(c: SlimCoef) -> bool {
+        c.mantissa == 0
+    }
+    #[inline(always)]
+    fn coef_at_shift(c: SlimCoef, shift: u32) -> SlimCoef {
+        // A layout's shifts are those of the 32-bit mantissas; this format
+        // stores the same value 16 bits coarser.
+        c.at_shift(shift.saturating_sub(16))
+    }
+    fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(SlimCoef, SlimCoef)> {
+        let (ca, cb) = (
+            SlimCoef::from_f64(a, min_shift)?,
+            SlimCoef::from_f64(b, min_shift)?,
+        );
+        let shift = match (a != 0.0, b != 0.0) {
+            (true, true) => ca.shift.min(cb.shift),
+            (true, false) => ca.shift,
+            (false, true) => cb.shift,
+            (false, false) => min_shift as u8,
+        };
+        Self::coef_pair_at(a, b, u32::from(shift) + 16)
+    }
+    fn coef_pair_at(a: f64, b: f64, shift: u32) -> Option<(SlimCoef, SlimCoef)> {
+        let shift = shift.checked_sub(16)?;
+        Some((
+            SlimCoef::with_shift(a, shift)?,
+            SlimCoef::with_shift(b, shift)?,
+        ))
+    }
+    fn from_f64(x: f64) -> Self {
+        Self(raw_nearest_even(x))
+    }
+    fn to_f64(self) -> f64 {
+        f64::from(self.0)
+    }
+    fn coef_to_f64(c: SlimCoef) -> f64 {
+        c.to_f64()
+    }
+    #[inline(always)]
+    fn is_finite(self) -> bool {
+        true
+    }
+    #[inline(always)]
+    fn add(self, other: Self) -> Self {
+        Self(self.0.saturating_add(other.0))
+    }
+    #[inline(always)]
+    fn sub(self, other: Self) -> Self {
+        Self(self.0.saturating_sub(other.0))
+    }
+    #[inline(always)]
+    fn sub_exact(self, other: Self) -> Self {
+        Self(self.0.wrapping_sub(other.0))
+    }
+    #[inline(always)]
+    fn scale(self, c: SlimCoef) -> Self {
+        c.scale(self)
+    }
+    #[inline(always)]
+    fn scale_into(acc: i32, x: Self, c: SlimCoef) -> i32 {
+        c.scale_into(acc, x)
+    }
+    #[inline(always)]
+    fn integrate(acc: i32, x: Self, c: SlimCoef) -> i32 {
+        c.integrate(acc, x)
+    }
+    #[inline(always)]
+    fn raise_by(self, step: Self) -> Self {
+        self.add(step)
+    }
+    #[inline(always)]
+    fn lower_by(self, step: Self) -> Self {
+        self.sub(step)
+    }
+    #[inline(always)]
+    fn accumulate(acc: i32, x: Self) -> i32 {
+        acc.saturating_add(x.widen())
+    }
+    #[inline(always)]
+    fn deplete(acc: i32, x: Self) -> i32 {
+        acc.saturating_sub(x.widen())
+    }
+    #[inline(always)]
+    fn widen(self) -> i32 {
+        i32::from(self.0) << SLIM_STATE_FRAC_BITS
+    }
+    #[inline(always)]
+    fn narrow(acc: i32) -> Self {
+        Self(saturate_i16(round_shift(acc, SLIM_STATE_FRAC_BITS)))
+    }
+    fn from_counts(c: i32) -> Self {
+        Self(saturate_i16(c))
+    }
+    #[inline(always)]
+    fn to_counts(self) -> i32 {
+        i32::from(self.0)
+    }
+    fn coef_lerp(lo: SlimCoef, hi: SlimCoef, frac: Self) -> SlimCoef {
+        lo.lerp(hi, frac)
+    }
+}
+
+/// Unwrap a `Result` inside a `const fn`.
+macro_rules! attempt {
+    ($e:expr) => {
+        match $e {
+            Ok(v) => v,
+            Err(e) => return Err(e),
+        }
+    };
+}
+
+impl<L: Layout> Config<Slim16, L> {
+    /// 16-bit configuration, usable in `const` context. The settings'
+    /// [`crate::Scaling`] decides the raw units; every signal must fit
+    /// −32 768 … 32 767 raw, Kp (raw per raw) 32 767, Ki·Ts (raw per raw
+    /// and sample) below 1, each gain within 2⁻¹⁴ relative
+    /// ([`SLIM_COEF_REL_TOLERANCE`]); the slew step within 1 % (so at
+    /// least 50 raw units). Output limits are rounded inward. Under a
+    /// compile-time layout each gain is stored at the layout's shift less
+    /// 16.
+    ///
+    /// ```
+    /// use evenkeel::{Config, Scale, Scaling, Settings, Slim16};
+    /// let s = Settings::new(0.001, 2.0, 50.0, 0.0, 100.0)
+    ///     .with_scaling(Scaling::NONE.with_adc(12, Scale::new(409.5, 0.0)).with_pwm(Scale::new(10.0, 0.0)));
+    /// let c = Config::<Slim16>::new(&s)?;
+    /// assert_eq!(c.output_limits(), (Slim16::from_raw(0), Slim16::from_raw(1000)));
+    /// # Ok::<(), evenkeel::ConfigError>(())
+    /// ```
+    ///
+    /// # Errors
+    /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`],
+    /// [`ConfigError::TooFine`] and [`ConfigError::Layout`].
+    pub const fn new(settings: &Settings) -> Result<Self, ConfigError> {
+        let p = attempt!(settings.per_sample());
+        let features = crate::layout::Features::of(&p);
+        let shape = L::SHAPE;
+        if let Some(s) = shape
+            && s.features().bits() != features.bits()
+        {
+            return Err(ConfigError::Layout(Setting::Features));
+        }
+        use crate::layout::Slot;
+        let kp = attempt!(gain(shape, Slot::Kp, p.kp, 0, Setting::Kp));
+        let setpoint_weight = attempt!(optional(
+            shape,
+            Slot::SetpointWeight,
+            p.setpoint_weight,
+            0,
+            Setting::SetpointWeight
+        ));
+        let ki_ts = attempt!(gain(
+            shape,
+            Slot::KiTs,
+            p.ki_ts,
+            STATE_COEF_MIN_SHIFT,
+            Setting::Ki
+        ));
+        let tracking_ratio = attempt!(optional(
+            shape,
+            Slot::TrackingRatio,
+            p.tracking_ratio,
+            RATIO_MIN_SHIFT,
+            Setting::TrackingTime
+        ));
+        let filter_alpha = attempt!(optional(
+            shape,
+            Slot::FilterAlpha,
+            p.filter_alpha,
+            STATE_COEF_MIN_SHIFT,
+            Setting::FilterTime
+        ));
+        let slew_step = match p.slew_step {
+            Some(s) => {
+                let q = attempt!(signal(s, Setting::Slew));
+                let err = q.0 as f64 - s;
+                if q.0 <= 0
+                    || err > crate::SLEW_REL_TOLERANCE * s
+                    || -err > crate::SLEW_REL_TOLERANCE * s
+                {
+                    return Err(ConfigError::TooFine(Setting::Slew));
+                }
+                q
+            }
+            None => Slim16::ZERO,
+        };
+        let deadband = match p.deadband {
+            Some(w) => attempt!(signal(w, Setting::Deadband)),
+            None => Slim16::ZERO,
+        };
+        let output_min = attempt!(limit(p.output_min, true, Setting::OutputMin));
+        let output_max = attempt!(limit(p.output_max, false, Setting::OutputMax));
+        if output_min.0 >= output_max.0 {
+            return Err(ConfigError::Inverted(Setting::OutputMax));
+        }
+        let measurement_min = attempt!(signal(p.measurement_min, Setting::MeasurementMin));
+        let measurement_max = attempt!(signal(p.measurement_max, Setting::MeasurementMax));
+        if measurement_min.0 >= measurement_max.0 {
+            return Err(ConfigError::Inverted(Setting::MeasurementMax));
+        }
+        let zero = attempt!(signal(p.command_zero, Setting::CommandScale));
+        // Integrator and feed-forward range: the output range widened by
+        // its span on both sides (|bounds| ≤ 98 303 raw, so the state's
+        // bits stay below 8.06e8: the bound `SlimCoef::integrate` uses).
+        let lo = output_min.0 as i32;
+        let hi = output_max.0 as i32;
+        let span = hi - lo;
+        let rest = clamp_i32(zero.0 as i32, lo, hi);
+        let ff_lo = lo - span;
+        let ff_hi = hi + span;
+        Ok(Self {
+            features,
+            kp,
+            setpoint_weight,
+            ki_ts,
+            tracking_ratio,
+            filter_alpha,
+            slew_step,
+            deadband,
+            output_min,
+            output_max,
+            feed_forward_min: Slim16(clamp_i32(ff_lo, -32_768, 32_767) as i16),
+            feed_forward_max: Slim16(clamp_i32(ff_hi, -32_768, 32_767) as i16),
+            feed_forward_zero: Slim16(clamp_i32(clamp_i32(0, ff_lo, ff_hi), -32_768, 32_767) as i16),
+            integral_min: ff_lo << SLIM_STATE_FRAC_BITS,
+            integral_max: ff_hi << SLIM_STATE_FRAC_BITS,
+            measurement_min,
+            measurement_max,
+            rest: Slim16(rest as i16),
+            layout: core::marker::PhantomData,
+        })
+    }
+}
+
+const fn clamp_i32(x: i32, lo: i32, hi: i32) -> i32 {
+    if x < lo {
+        lo
+    } else if x > hi {
+        hi
+    } else {
+        x
+    }
+}
+
+/// A gain at the layout's shift (less 16) or its natural one.
+const fn gain(
+    shape: Option<crate::Shape>,
+    slot: crate::layout::Slot,
+    value: f64,
+    min_shift: u32,
+    which: Setting,
+) -> Result<SlimCoef, ConfigError> {
+    let layout_shift = match shape {
+        Some(s) => s.shift(slot),
+        None => None,
+    };
+    let c = match layout_shift {
+        Some(shift) => {
+            if shift < 16 + min_shift {
+                return Err(ConfigError::Layout(which));
+            }
+            match SlimCoef::with_shift(value, shift - 16) {
+                Some(c) => c,
+                None => {
+                    return Err(if value.is_finite() {
+                        ConfigError::Layout(which)
+                    } else {
+                        ConfigError::NotFinite(which)
+                    });
+                }
+            }
+        }
+        None => match SlimCoef::from_f64(value, min_shift) {
+            Some(c) => c,
+            None => return Err(ConfigError::OutOfFormat(which)),
+        },
+    };
+    if value == 0.0 {
+        return Ok(c);
+    }
+    let err = c.to_f64() - value;
+    let bound = SLIM_COEF_REL_TOLERANCE * if value < 0.0 { -value } else { value };
+    if err > bound || -err > bound {
+        return Err(match layout_shift {
+            Some(_) => ConfigError::Layout(which),
+            None => ConfigError::TooFine(which),
+        });
+    }
+    Ok(c)
+}
+
+const fn optional(
+    shape: Option<crate::Shape>,
+    slot: crate::layout::Slot,
+    value: Option<f64>,
+    min_shift: u32,
+    which: Setting,
+) -> Result<SlimCoef, ConfigError> {
+    match value {
+        Some(v) => gain(shape, slot, v, min_shift, which),
+        None => Ok(SlimCoef::ZERO),
+    }
+}
+
+/// Nearest raw value (ties away from zero), or out of format.
+const fn signal(value: f64, which: Setting) -> Result<Slim16, ConfigError> {
+    if !value.is_finite() {
+        return Err(ConfigError::NotFinite(which));
+    }
+    let r = crate::scaling::round_half_away(value);
+    if r >= -32_768.0 && r <= 32_767.0 {
+        Ok(Slim16(r as i16))
+    } else {
+        Err(ConfigError::OutOfFormat(which))
+    }
+}
+
+/// An output limit rounded inward: up for the lower one, down for the
+/// upper one.
+const fn limit(value: f64, lower: bool, which: Setting) -> Result<Slim16, ConfigError> {
+    let v = attempt!(signal(value, which));
+    let stored = v.0 as f64;
+    let r = if lower && stored < value {
+        v.0 as i32 + 1
+    } else if !lower && stored > value {
+        v.0 as i32 - 1
+    } else {
+        v.0 as i32
+    };
+    if r < -32_768 || r > 32_767 {
+        return Err(ConfigError::OutOfFormat(which));
+    }
+    Ok(Slim16(r as i16))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn round_shift_table() {
+        // (p, s, floor(p/2^s + 1/2)), worked by hand.
+        for (p, s, want) in [
+            (5, 1, 3),
+            (-5, 1, -2),
+            (7, 2, 2),
+            (-7, 2, -2),
+            (6, 2, 2),
+            (1, 1, 1),
+            (-1, 1, 0),
+            (123, 0, 123),
+            (1 << 30, 30, 1),
+            (-(1 << 30), 30, -1),
+        ] {
+            assert_eq!(round_shift(p, s), want, "p={p} s={s}");
+        }
+    }
+
+    #[test]
+    fn narrow_rounds_and_saturates() {
+        let half = 1 << (SLIM_STATE_FRAC_BITS - 1);
+        assert_eq!(Slim16::narrow(half).raw(), 1);
+        assert_eq!(Slim16::narrow(-half).raw(), 0);
+        assert_eq!(Slim16::narrow(i32::MAX), Slim16::MAX);
+        assert_eq!(Slim16::narrow(i32::MIN), Slim16::MIN);
+    }
+
+    #[test]
+    fn integrate_matches_scale_into_within_bounds() {
+        let ki = SlimCoef::from_f64(0.999, 15).expect("fits");
+        let ratio = SlimCoef::from_f64(1.0, 14).expect("fits");
+        for acc in [-805_298_176, -1, 0, 805_298_176] {
+            for x in [i16::MIN, -1, 0, 1, i16::MAX] {
+                let x = Slim16(x);
+                let a = ki.integrate(acc, x);
+                assert_eq!(a, ki.scale_into(acc, x));
+                assert_eq!(ratio.integrate(a, x), ratio.scale_into(a, x));
+            }
+        }
+    }
+
+    #[test]
+    fn sub_lsb_integral_increments_accumulate() {
+        // Ki·Ts = 1e-3 raw per raw and sample is stored as 16 777 · 2⁻²⁴;
+        // an error of 1 LSB adds round(16 777 / 2¹¹) = round(8.19) = 8
+        // state LSB per step; the command reaches 1 LSB once I ≥ ½ LSB =
+        // 4096 state LSB, after 512 updates, at step 513 (ideal
+        // arithmetic: 500 updates).
+        let s = Settings::new(0.01, 0.0, 0.1, -100.0, 100.0);
+        let mut pi = crate::Controller::new(Config::<Slim16>::new(&s).expect("valid"));
+        assert_eq!(
+            (pi.config().ki_ts().mantissa(), pi.config().ki_ts().shift()),
+            (16_777, 24)
+        );
+        let first = (1..=1000).find(|_| pi.step(Slim16(1), Slim16(0)).command != Slim16(0));
+        assert_eq!(first, Some(513));
+    }
+
+    #[test]
+    fn identity_settings_in_raw_units() {
+        // 16-bit ADC counts do not fit: 65 535 > 32 767.
+        let s = Settings::new(0.01, 1.0, 1.0, 0.0, 1000.0)
+            .with_scaling(crate::Scaling::NONE.with_adc(16, crate::Scale::new(1000.0, 0.0)));
+        assert_eq!(
+            Config::<Slim16>::new(&s),
+            Err(ConfigError::OutOfFormat(Setting::MeasurementMax))
+        );
+    }
+}
