@@ -75,3 +75,102 @@ fn design_and_fit_reports_render_in_a_browser() {
         }
     }
 }
+
+/// Renders `name` (in `dir`) headless: no console message, not blank.
+fn renders(dir: &std::path::Path, name: &str) {
+    let path = dir.join(name);
+    let sub = dir.join(name.replace(".html", "-shot"));
+    std::fs::create_dir_all(&sub).unwrap();
+    if let Some((shot, console)) = render_in_browser(&path, &sub) {
+        assert!(console.is_empty(), "{name}: console messages: {console:?}");
+        let share = ink(&shot);
+        assert!(share > 0.02, "{name}: the screenshot is blank ({share})");
+    }
+}
+
+#[test]
+fn every_judging_command_writes_one_self_contained_report() {
+    let dir = tempfile::tempdir().unwrap();
+    let cart = data("map_cart.toml").display().to_string();
+    // check: every run's verdict table and plot, exit status unchanged.
+    let out = evenkeel(dir.path(), &["check", &cart, "--html", "check.html"]);
+    let code = out.status.code();
+    assert!(matches!(code, Some(0 | 1)), "{code:?}");
+    let page = std::fs::read_to_string(dir.path().join("check.html")).unwrap();
+    self_contained(&page);
+    let runs = page.matches("<h3>backend ").count();
+    assert_eq!(runs, 3, "one section per backend");
+    assert_eq!(page.matches("<svg").count(), 3, "one plot per run");
+    assert_eq!(
+        page.contains("class=\"fail\">FAIL"),
+        code == Some(1),
+        "the page's verdict is the exit status"
+    );
+    renders(dir.path(), "check.html");
+
+    // compare: the checks and the plot.
+    let out = evenkeel(dir.path(), &["compare", "--html", "compare.html"]);
+    assert_exit(&out, 0);
+    let page = std::fs::read_to_string(dir.path().join("compare.html")).unwrap();
+    self_contained(&page);
+    assert!(page.contains("<td class=\"text\">max_command_diff</td>"));
+    assert_eq!(page.matches("<svg").count(), 1);
+    renders(dir.path(), "compare.html");
+
+    // sweep with a map, then merge of two shards: criteria, envelope, map.
+    let out = evenkeel(
+        dir.path(),
+        &[
+            "sweep",
+            &cart,
+            "--method",
+            "corners",
+            "--map",
+            "mass_kg,actuator_gain_n",
+            "--levels",
+            "5",
+            "--html",
+            "sweep.html",
+            "-q",
+        ],
+    );
+    assert!(matches!(out.status.code(), Some(0 | 1)));
+    let page = std::fs::read_to_string(dir.path().join("sweep.html")).unwrap();
+    self_contained(&page);
+    assert!(page.contains("Criteria over the variants"));
+    assert!(page.contains("Envelope"));
+    assert!(page.contains("Robustness map"));
+    assert!(page.contains("map over mass_kg and actuator_gain_n (5 x 5 points"));
+    assert_eq!(page.matches("<svg").count(), 2, "envelope and map inline");
+    renders(dir.path(), "sweep.html");
+
+    for i in 1..=2 {
+        let shard = format!("{i}/2");
+        let save = format!("s{i}.json");
+        let out = evenkeel(
+            dir.path(),
+            &[
+                "sweep", &cart, "--method", "corners", "--shard", &shard, "--save", &save, "-q",
+            ],
+        );
+        assert!(matches!(out.status.code(), Some(0 | 1)));
+    }
+    let out = evenkeel(
+        dir.path(),
+        &["merge", "s1.json", "s2.json", "--html", "merge.html"],
+    );
+    assert!(matches!(out.status.code(), Some(0 | 1)));
+    let merged = std::fs::read_to_string(dir.path().join("merge.html")).unwrap();
+    self_contained(&merged);
+    // The merged shards and the whole sweep give the same table.
+    let table = |p: &str| {
+        p[p.find("Criteria over the variants").unwrap()..p.find("Envelope").unwrap()].to_owned()
+    };
+    assert_eq!(table(&merged), table(&page));
+
+    // A report path that is not HTML is refused before anything runs.
+    let out = evenkeel(dir.path(), &["check", &cart, "--html", "report.txt"]);
+    assert_exit(&out, 2);
+    assert!(String::from_utf8_lossy(&out.stderr).contains("must end in .html"));
+    assert!(!dir.path().join("report.txt").exists());
+}

@@ -86,6 +86,10 @@ struct CheckArgs {
     /// single run).
     #[arg(long, value_name = "PATH")]
     plot: Option<PathBuf>,
+    /// Write one self-contained HTML report (verdict tables, every run's
+    /// plot inline, the caution) to PATH.
+    #[arg(long, value_name = "PATH.html")]
+    html: Option<PathBuf>,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -159,10 +163,12 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
     let mut out = output::Outputs::new(&output::paths(&args.scenarios));
     out.file("--json", args.json.as_deref())?;
     out.file("--junit", args.junit.as_deref())?;
+    out.html("--html", args.html.as_deref())?;
     output::base_ok("--trace", args.trace.as_deref(), false)?;
     output::base_ok("--plot", args.plot.as_deref(), true)?;
     let scenarios = load_scenarios(&args.scenarios)?;
     let backends = args.backend.kinds();
+    let mut plots: Vec<Vec<Option<String>>> = Vec::new();
     let files = output::PerRun {
         trace: args.trace.as_deref(),
         plot: args.plot.as_deref(),
@@ -183,6 +189,7 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
             scenario: s.clone(),
             runs: Vec::with_capacity(backends.len()),
         };
+        let mut svgs = Vec::with_capacity(backends.len());
         // One run at a time: its per-run files are staged, then its
         // samples dropped, so memory holds one recording at most.
         for b in &backends {
@@ -198,13 +205,21 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
                 |w| write_trace_csv(&run.recording, w),
                 |path| Ok(plot::plot(s, &run, path)?),
             )?;
+            // The HTML report draws the plot now: the samples go next.
+            if args.html.is_some() {
+                svgs.push(Some(plot::plot_svg(s, &run)?));
+            }
             output::drop_samples(&mut run.recording);
             outcome.runs.push(run);
         }
+        plots.push(svgs);
         outcomes.push(outcome);
     }
     out.json(args.json.as_deref(), || json(&outcomes))?;
     out.text(args.junit.as_deref(), || junit(&outcomes))?;
+    out.text(args.html.as_deref(), || {
+        evenkeel_harness::report::check_html(&outcomes, &plots)
+    })?;
     let tables: String = outcomes.iter().map(ToString::to_string).collect();
     out.finish(&tables)?;
     Ok(outcomes.iter().all(Outcome::passed))

@@ -43,7 +43,7 @@ use evenkeel::{Config, Status};
 pub use coefficients::{CoefRow, coefficient_table, coefficients_within_contract};
 pub use diff::{DiffStats, Divergence, diff_stats, first_divergence};
 pub use limit_cycle::{Detector, LimitCycle, detect_limit_cycle, half_peak_to_peak};
-pub use plot::plot;
+pub use plot::{plot, plot_svg};
 pub use report::{json, junit, table, trace_csv};
 pub use stall::{LSB, Stall, stall};
 pub use tolerance::{

@@ -14,7 +14,7 @@ use plotters::prelude::*;
 use super::Comparison;
 use crate::plot::{
     Figure, LabelledLine, PlotError, draw_grid, draw_labelled_line, draw_legend_box,
-    draw_limit_lines, draw_page, reduce, span, time_panel, write_figure,
+    draw_limit_lines, draw_page, reduce, render_svg, span, time_panel, write_figure,
 };
 
 /// Draws `c` into `path` (`.svg` or `.png`), atomically.
@@ -23,6 +23,14 @@ use crate::plot::{
 /// [`PlotError`] for a wrong extension, a drawing or a writing failure.
 pub fn plot(c: &Comparison, path: &Path) -> Result<(), PlotError> {
     write_figure(&ComparisonFigure(c), path)
+}
+
+/// [`plot`] as an SVG document in memory (for the HTML report).
+///
+/// # Errors
+/// [`PlotError::Draw`] for a drawing failure.
+pub fn plot_svg(c: &Comparison) -> Result<String, PlotError> {
+    render_svg(&ComparisonFigure(c))
 }
 
 /// A comparison, as a page.

@@ -25,7 +25,7 @@
 
 mod plot;
 
-pub use plot::plot;
+pub use plot::{plot, plot_svg};
 
 use crate::design::{Origin, SamplePoint, run_variants};
 use crate::outcome::BackendKind;

@@ -9,7 +9,7 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::RobustnessMap;
-use crate::plot::{Figure, PlotError, draw_error, draw_page, write_figure};
+use crate::plot::{Figure, PlotError, draw_error, draw_page, render_svg, write_figure};
 use crate::scenario::Scenario;
 
 /// Family name of the vendored font (as in `crate::plot`).
@@ -21,6 +21,14 @@ const FONT: &str = "sans-serif";
 /// [`PlotError`] for a wrong extension, a drawing or a writing failure.
 pub fn plot(s: &Scenario, m: &RobustnessMap, path: &Path) -> Result<(), PlotError> {
     write_figure(&MapFigure { s, m }, path)
+}
+
+/// [`plot`] as an SVG document in memory (for the HTML report).
+///
+/// # Errors
+/// [`PlotError::Draw`] for a drawing failure.
+pub fn plot_svg(s: &Scenario, m: &RobustnessMap) -> Result<String, PlotError> {
+    render_svg(&MapFigure { s, m })
 }
 
 struct MapFigure<'a> {

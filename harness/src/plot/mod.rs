@@ -35,7 +35,7 @@ pub(crate) use page::{
     LabelledLine, draw_error, draw_grid, draw_labelled_line, draw_legend_box, draw_limit_lines,
     draw_page, time_panel,
 };
-pub use run::plot;
+pub use run::{plot, plot_svg};
 pub(crate) use series::{MAX_POINTS, derivative_units, max_limit, mirrored, reduce, span};
 
 /// Family name the vendored font is registered under.

@@ -8,8 +8,8 @@ use plotters::prelude::*;
 
 use super::{
     Figure, LabelledLine, PlotError, derivative_units, draw_grid, draw_labelled_line,
-    draw_legend_box, draw_limit_lines, draw_page, max_limit, mirrored, reduce, span, time_panel,
-    write_figure,
+    draw_legend_box, draw_limit_lines, draw_page, max_limit, mirrored, reduce, render_svg, span,
+    time_panel, write_figure,
 };
 use crate::criteria::MetricKey;
 use crate::outcome::BackendRun;
@@ -21,6 +21,14 @@ use crate::scenario::Scenario;
 /// [`PlotError`] for a wrong extension, a drawing or a writing failure.
 pub fn plot(scenario: &Scenario, run: &BackendRun, path: &Path) -> Result<(), PlotError> {
     write_figure(&RunFigure { scenario, run }, path)
+}
+
+/// [`plot`] as an SVG document in memory (for the HTML report).
+///
+/// # Errors
+/// [`PlotError::Draw`] for a drawing failure.
+pub fn plot_svg(scenario: &Scenario, run: &BackendRun) -> Result<String, PlotError> {
+    render_svg(&RunFigure { scenario, run })
 }
 
 /// One run of a scenario, as a page.

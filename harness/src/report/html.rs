@@ -29,6 +29,14 @@ pub fn html_escape(s: &str) -> String {
     out
 }
 
+/// A cell that reads as a number, a limit or a variant (`1.5`, `-2`,
+/// `<= 3`, `#4 …`): right-aligned; anything else is text, left-aligned.
+fn numeric(cell: &str) -> bool {
+    cell.chars()
+        .next()
+        .is_some_and(|c| c.is_ascii_digit() || "+-.<>=#≤≥".contains(c))
+}
+
 /// The page's own style sheet (inline; system fonts only).
 const STYLE: &str = "body{font-family:sans-serif;margin:2em auto;max-width:1250px;color:#111;line-height:1.4}\
 h1{font-size:1.5em}h2{font-size:1.25em;border-bottom:1px solid #ccc;padding-bottom:.2em;margin-top:2em}\
@@ -106,7 +114,7 @@ impl HtmlPage {
                 let class = match c.as_str() {
                     "pass" | "PASS" => " class=\"pass\"",
                     "FAIL" | "fail" => " class=\"fail\"",
-                    _ if i == 0 => " class=\"text\"",
+                    _ if i == 0 || !numeric(c) => " class=\"text\"",
                     _ => "",
                 };
                 let _ = write!(self.body, "<td{class}>{}</td>", html_escape(c));

@@ -7,6 +7,7 @@ mod csv;
 mod html;
 mod json;
 mod junit;
+mod pages;
 mod table;
 
 use std::io::Write;
@@ -17,6 +18,7 @@ pub use html::{HtmlPage, html_escape};
 pub use json::json;
 pub(crate) use junit::{Failure, JunitXml};
 pub use junit::{junit, xml_escape};
+pub use pages::{check_html, compare_html, sweep_html};
 pub use table::{format_number, table};
 
 #[cfg(doc)]

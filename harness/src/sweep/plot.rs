@@ -20,8 +20,8 @@ use crate::files::printable;
 use crate::outcome::BackendRun;
 use crate::plot::{
     Figure, MAX_POINTS, PlotError, derivative_units, draw_error, draw_grid, draw_labelled_line,
-    draw_legend_box, draw_limit_lines, draw_page, max_limit, mirrored, reduce, span, time_panel,
-    write_figure,
+    draw_legend_box, draw_limit_lines, draw_page, max_limit, mirrored, reduce, render_svg, span,
+    time_panel, write_figure,
 };
 use crate::scenario::Scenario;
 
@@ -77,6 +77,26 @@ pub fn plot_envelope_of(
         worst,
     };
     write_figure(&figure, path)
+}
+
+/// [`plot_envelope_of`] as an SVG document in memory (for the HTML report).
+///
+/// # Errors
+/// [`PlotError::Draw`] for a drawing failure.
+pub fn plot_envelope_svg(
+    scenario: &Scenario,
+    header: &SweepHeader,
+    tally: &Tally,
+    envelope: &Envelope,
+    worst: Option<&BackendRun>,
+) -> Result<String, PlotError> {
+    render_svg(&EnvelopeFigure {
+        scenario,
+        header,
+        tally,
+        envelope,
+        worst,
+    })
 }
 
 /// The envelope of a sweep with its worst variant, as a page.

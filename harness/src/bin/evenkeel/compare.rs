@@ -29,6 +29,10 @@ pub(crate) struct CompareArgs {
     /// extension (one file per scenario when there are several).
     #[arg(long, value_name = "PATH")]
     plot: Option<PathBuf>,
+    /// Write one self-contained HTML report (checks, plots inline, the
+    /// caution) to PATH.
+    #[arg(long, value_name = "PATH.html")]
+    html: Option<PathBuf>,
 }
 
 /// Runs every comparison; `Ok(passed)`, or an error for bad input.
@@ -36,6 +40,7 @@ pub(crate) fn run(args: &CompareArgs) -> anyhow::Result<bool> {
     let mut out = Outputs::new(&output::paths(&args.scenarios));
     out.file("--json", args.json.as_deref())?;
     out.file("--junit", args.junit.as_deref())?;
+    out.html("--html", args.html.as_deref())?;
     output::base_ok("--trace", args.trace.as_deref(), false)?;
     output::base_ok("--plot", args.plot.as_deref(), true)?;
     let scenarios = super::load_scenarios(&args.scenarios)?;
@@ -50,6 +55,7 @@ pub(crate) fn run(args: &CompareArgs) -> anyhow::Result<bool> {
         .collect();
     out.per_run(&files, &names)?;
     let mut comparisons: Vec<Comparison> = Vec::with_capacity(scenarios.len());
+    let mut plots = Vec::with_capacity(scenarios.len());
     for s in &scenarios {
         let c =
             compare::compare(s).with_context(|| format!("{}: scenario `{}`", s.source, s.name))?;
@@ -60,10 +66,16 @@ pub(crate) fn run(args: &CompareArgs) -> anyhow::Result<bool> {
             |w| w.write_all(compare::trace_csv(&c).as_bytes()),
             |path| Ok(compare::plot(&c, path)?),
         )?;
+        if args.html.is_some() {
+            plots.push(Some(compare::plot_svg(&c)?));
+        }
         comparisons.push(c);
     }
     out.json(args.json.as_deref(), || compare::json(&comparisons))?;
     out.text(args.junit.as_deref(), || compare::junit(&comparisons))?;
+    out.text(args.html.as_deref(), || {
+        evenkeel_harness::report::compare_html(&comparisons, &plots)
+    })?;
     let tables: String = comparisons.iter().map(compare::table).collect();
     out.finish(&tables)?;
     Ok(comparisons.iter().all(Comparison::passed))

@@ -44,6 +44,21 @@ impl Outputs {
         Ok(())
     }
 
+    /// An HTML report at `path`, if given: a file ending in `.html` or
+    /// `.htm`, or `-` (standard output).
+    pub(crate) fn html(&mut self, flag: &str, path: Option<&Path>) -> anyhow::Result<()> {
+        if let Some(p) = path {
+            self.plan.file(flag, p)?;
+            let ext = p
+                .extension()
+                .map(|e| e.to_string_lossy().to_ascii_lowercase());
+            if p.as_os_str() != "-" && !matches!(ext.as_deref(), Some("html" | "htm")) {
+                anyhow::bail!("{flag} {}: the file must end in .html or .htm", shown(p));
+            }
+        }
+        Ok(())
+    }
+
     /// `--in-place`: `path` is the input, replaced on purpose.
     pub(crate) fn in_place(&mut self, flag: &str, path: &Path) -> anyhow::Result<()> {
         self.plan.in_place(flag, path)?;

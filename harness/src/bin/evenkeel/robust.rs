@@ -95,6 +95,10 @@ struct ReportArgs {
     /// re-run it alone with `evenkeel check`.
     #[arg(long, value_name = "DIR")]
     worst_dir: Option<PathBuf>,
+    /// Write one self-contained HTML report (criteria table, envelope plot
+    /// and robustness map inline, the caution) to PATH.
+    #[arg(long, value_name = "PATH.html")]
+    html: Option<PathBuf>,
 }
 
 impl ReportArgs {
@@ -105,6 +109,7 @@ impl ReportArgs {
         out.file("--json", self.json.as_deref())?;
         out.file("--junit", self.junit.as_deref())?;
         out.plot("--plot", self.plot.as_deref())?;
+        out.html("--html", self.html.as_deref())?;
         out.file("--save", save)?;
         out.directory("--worst-dir", self.worst_dir.as_deref())?;
         Ok(out)
@@ -248,6 +253,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
     }
     progress.finish();
     let streamed = streamed.context("the sweep did not run")?;
+    let mut map_html = None;
     let map_passed = match &map {
         Some((x, y)) => {
             let m = evenkeel_harness::map::robustness_map(
@@ -258,7 +264,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
                 backend,
             )?;
             let total = m.xs.len() * m.ys.len();
-            eprintln!(
+            let line = format!(
                 "map over {} and {} ({} x {} points, the other parameters at their centre): {} of {total} pass",
                 m.x,
                 m.y,
@@ -266,6 +272,10 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
                 m.ys.len(),
                 m.passing()
             );
+            eprintln!("{line}");
+            if args.out.html.is_some() {
+                map_html = Some((line, evenkeel_harness::map::plot_svg(&scenario, &m)?));
+            }
             if let Some(p) = &args.map_plot {
                 out.drawn(p, |path| {
                     Ok(evenkeel_harness::map::plot(&scenario, &m, path)?)
@@ -275,7 +285,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<bool> {
         }
         None => true,
     };
-    Ok(report(out, &scenario, &streamed, &args.out)? && map_passed)
+    Ok(report(out, &scenario, &streamed, &args.out, map_html)? && map_passed)
 }
 
 /// Prints the estimated duration of a sweep that will take a while
@@ -456,7 +466,7 @@ pub fn merge(args: &MergeArgs) -> anyhow::Result<bool> {
         }
         None => sweep::merge_files(files, &scenario, &mut |_| Ok(()))?,
     };
-    report(out, &scenario, &streamed, &args.out)
+    report(out, &scenario, &streamed, &args.out, None)
 }
 
 /// Opens an input file: a regular file (not a directory, device or
@@ -480,17 +490,32 @@ fn report(
     scenario: &Scenario,
     s: &sweep::Streamed,
     args: &ReportArgs,
+    map: Option<(String, String)>,
 ) -> anyhow::Result<bool> {
     let (header, tally) = (&s.header, &s.tally);
-    if let Some(path) = &args.plot {
+    let worst = if args.plot.is_some() || args.html.is_some() {
         let backend = BackendKind::from_name(&header.backend).unwrap_or(BackendKind::Fixed);
-        let worst = tally
+        tally
             .worst
             .as_ref()
             .map(|w| sweep::apply_variant(scenario, &w.variant.values, w.variant.seed))
             .map(|s| s.run_on(&[backend]))
             .transpose()?
-            .and_then(|o| o.runs.into_iter().next());
+            .and_then(|o| o.runs.into_iter().next())
+    } else {
+        None
+    };
+    if let Some(path) = &args.html {
+        let svg = sweep::plot_envelope_svg(scenario, header, tally, &s.envelope, worst.as_ref())?;
+        let page = evenkeel_harness::report::sweep_html(
+            header,
+            tally,
+            Some(&svg),
+            map.as_ref().map(|(t, m)| (t.as_str(), m.as_str())),
+        );
+        out.bytes(path, page.as_bytes())?;
+    }
+    if let Some(path) = &args.plot {
         out.drawn(path, |p| {
             Ok(sweep::plot_envelope_of(
                 scenario,
