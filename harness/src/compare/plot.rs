@@ -13,8 +13,9 @@ use plotters::prelude::*;
 
 use super::Comparison;
 use crate::plot::{
-    Figure, LabelledLine, PlotError, draw_grid, draw_labelled_line, draw_legend_box,
-    draw_limit_lines, draw_page, reduce, render_svg, span, time_panel, write_figure,
+    Figure, LabelledLine, LegendEntry, Mark, PlotError, draw_grid, draw_labelled_line,
+    draw_limit_lines, draw_page, draw_side_legend, reduce, render_svg, span, time_panel,
+    with_legend_column, write_figure,
 };
 
 /// Draws `c` into `path` (`.svg` or `.png`), atomically.
@@ -109,7 +110,8 @@ fn draw<DB: DrawingBackend>(
     let body = draw_page(root, &title, 24)?;
     let areas = body.split_evenly((panels.len(), 1));
     for (area, (y_desc, range, series, lim)) in areas.iter().zip(panels.iter_mut()) {
-        let mut chart = time_panel(area, t_end, range.clone(), 90)?;
+        let (data, column) = with_legend_column(area);
+        let mut chart = time_panel(&data, t_end, range.clone(), 90)?;
         let height = range.end - range.start;
         let y_label = move |v: &f64| {
             let v = if v.abs() < 1e-9 * height { 0.0 } else { *v };
@@ -120,13 +122,16 @@ fn draw<DB: DrawingBackend>(
             }
         };
         draw_grid(&mut chart, y_desc, Some(&y_label))?;
+        let mut legend = Vec::new();
         if *lim > 0.0 {
             draw_limit_lines(&mut chart, t_end, &[*lim, -*lim], "tolerance (±)", red)?;
+            legend.push(LegendEntry::new("tolerance (±)", red, Mark::Dashed));
         }
         for (name, points, colour) in series.drain(..) {
+            legend.push(LegendEntry::new(name, colour, Mark::Line));
             draw_labelled_line(&mut chart, points, name, colour)?;
         }
-        draw_legend_box(&mut chart)?;
+        draw_side_legend(&chart, &column, &legend)?;
     }
     Ok(())
 }

@@ -3,12 +3,19 @@
 //!
 //! 1. reference, measurement and true output;
 //! 2. command with its output limits;
-//! 3. plant rate (acceleration) with the `peak_accel` limit;
-//! 4. jerk with the `peak_jerk` limit;
-//! 5. fault and diagnostic lanes: injected faults, the controller's fault
-//!    flags (`non_finite`, `measurement_range`, `setpoint_range`,
-//!    `downstream`), and the loop monitor's alarms
-//!    ([`evenkeel::monitor::Diagnostics`]), each a 0/1 lane.
+//! 3. the output's rate of change with the `peak_accel` limit (called
+//!    acceleration for a speed loop, rate otherwise);
+//! 4. its change (jerk for a speed loop) with the `peak_jerk` limit;
+//! 5. fault and diagnostic lanes, each named beside its lane: one per
+//!    kind of injected fault, the controller's fault flags (`non_finite`,
+//!    `measurement_range`, `setpoint_range`, `downstream`), and the loop
+//!    monitor's alarms ([`evenkeel::monitor::Diagnostics`]).
+//!
+//! Legends sit in a column beside each panel, outside the data. The
+//! output panel shows the settling band and the overshoot limit of the
+//! judged step. Axis ranges are robust: a handful of samples far outside
+//! the rest (an out-of-range reading, a spike) are drawn clipped at the
+//! edge with a triangle, and the legend says how many and how far.
 //!
 //! The sweep envelope ([`crate::sweep::plot_envelope`]) and the comparison
 //! ([`crate::compare::plot`]) are drawn with the same private parts:
@@ -32,11 +39,15 @@ mod series;
 
 pub(crate) use file::{Figure, render_svg, write_figure};
 pub(crate) use page::{
-    LabelledLine, draw_error, draw_grid, draw_labelled_line, draw_legend_box, draw_limit_lines,
-    draw_page, time_panel,
+    LabelledLine, LegendEntry, Mark, draw_clipped, draw_dashed_segments, draw_error, draw_grid,
+    draw_labelled_line, draw_legend_box, draw_limit_lines, draw_page, draw_side_legend, time_panel,
+    with_legend_column,
 };
 pub use run::{plot, plot_svg};
-pub(crate) use series::{MAX_POINTS, derivative_units, max_limit, mirrored, reduce, span};
+pub(crate) use series::{
+    MAX_POINTS, clamp_points, derivative_units, is_motion, max_limit, mirrored, reduce,
+    robust_span, span,
+};
 
 /// Family name the vendored font is registered under.
 const FONT: &str = "sans-serif";

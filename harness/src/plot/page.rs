@@ -44,8 +44,9 @@ pub(crate) fn draw_page<DB: DrawingBackend>(
     Ok(body)
 }
 
-/// A panel on `area` over `0..t_end_s` and `y_range`, with a column
-/// `y_labels_px` wide for the y labels.
+/// A panel on `area` over `0..t_end_s` (with 1 % room before 0, so that
+/// what happens at the first samples is not hidden by the y axis) and
+/// `y_range`, with a column `y_labels_px` wide for the y labels.
 pub(crate) fn time_panel<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     t_end_s: f64,
@@ -58,7 +59,7 @@ pub(crate) fn time_panel<DB: DrawingBackend>(
         .margin_top(8)
         .x_label_area_size(40)
         .y_label_area_size(y_labels_px)
-        .build_cartesian_2d(0.0..t_end_s, y_range)
+        .build_cartesian_2d((-0.01 * t_end_s)..t_end_s, y_range)
         .map_err(draw_error)
 }
 
@@ -73,6 +74,15 @@ pub(crate) fn draw_grid<DB: DrawingBackend>(
     if let Some(y_label) = y_label {
         grid.y_label_formatter(y_label);
     }
+    // Time labels: shortest decimals, none before 0.
+    let x_label = |v: &f64| {
+        if *v < 0.0 {
+            return String::new();
+        }
+        let text = format!("{v:.3}");
+        text.trim_end_matches('0').trim_end_matches('.').to_owned()
+    };
+    grid.x_label_formatter(&x_label);
     grid.x_desc("time (s)")
         .y_desc(y_desc)
         .label_style((FONT, 14))
@@ -142,4 +152,151 @@ pub(crate) fn draw_legend_box<'a, DB: DrawingBackend + 'a>(
         .border_style(BLACK)
         .draw()
         .map_err(draw_error)
+}
+
+/// Width of the legend column beside each panel, pixels.
+pub(crate) const LEGEND_PX: u32 = 250;
+
+/// How an entry of a side legend is drawn.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Mark {
+    /// A solid line.
+    Line,
+    /// A dashed line (limits, bands).
+    Dashed,
+    /// A triangle (points clipped at the axis).
+    Clipped,
+    /// A filled box (a lane, a band); for a lane, written at the lane's
+    /// height.
+    Lane,
+    /// Text only, indented under the entry above.
+    Text,
+}
+
+/// One entry of a side legend: label, colour, mark, and for a lane the
+/// y value (in panel units) it is written at.
+#[derive(Debug, Clone)]
+pub(crate) struct LegendEntry {
+    /// The text.
+    pub(crate) label: String,
+    /// Its colour.
+    pub(crate) colour: RGBColor,
+    /// Its mark.
+    pub(crate) mark: Mark,
+    /// For [`Mark::Lane`]: the height, in the panel's y units.
+    pub(crate) at: Option<f64>,
+}
+
+impl LegendEntry {
+    /// An entry with a line, dashed line or clip mark.
+    pub(crate) fn new(label: impl Into<String>, colour: RGBColor, mark: Mark) -> Self {
+        Self {
+            label: label.into(),
+            colour,
+            mark,
+            at: None,
+        }
+    }
+}
+
+/// Splits a panel's `area` into the data part and the legend column on
+/// its right (outside the data, so no legend covers a trace).
+pub(crate) fn with_legend_column<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+) -> (DrawingArea<DB, Shift>, DrawingArea<DB, Shift>) {
+    let (w, _) = area.dim_in_pixel();
+    area.split_horizontally(w.saturating_sub(LEGEND_PX))
+}
+
+/// Draws `entries` in the legend column `column` of `panel`: from the top
+/// down, or for lane entries at the height of their lane.
+pub(crate) fn draw_side_legend<DB: DrawingBackend>(
+    panel: &TimePanel<'_, DB>,
+    column: &DrawingArea<DB, Shift>,
+    entries: &[LegendEntry],
+) -> Result<(), PlotError> {
+    let (base_x, base_y) = column.get_base_pixel();
+    let font = (FONT, 14).into_font().color(&BLACK);
+    let mut y = 14;
+    for e in entries {
+        let row = match (e.mark, e.at) {
+            (Mark::Lane, Some(at)) => {
+                let (_, py) = panel.backend_coord(&(0.0, at));
+                py - base_y - 7
+            }
+            (Mark::Text, _) => {
+                let r = y - 4;
+                y += 16;
+                r
+            }
+            _ => {
+                let r = y;
+                y += 20;
+                r
+            }
+        };
+        let style = e.colour.stroke_width(2);
+        match e.mark {
+            Mark::Line => column
+                .draw(&PathElement::new([(4, row + 7), (28, row + 7)], style))
+                .map_err(draw_error)?,
+            Mark::Dashed => {
+                for x in [4, 14, 24] {
+                    column
+                        .draw(&PathElement::new([(x, row + 7), (x + 6, row + 7)], style))
+                        .map_err(draw_error)?;
+                }
+            }
+            Mark::Clipped => column
+                .draw(&TriangleMarker::new((16, row + 7), 5, e.colour.filled()))
+                .map_err(draw_error)?,
+            Mark::Lane => column
+                .draw(&Rectangle::new(
+                    [(4, row + 2), (28, row + 12)],
+                    e.colour.filled(),
+                ))
+                .map_err(draw_error)?,
+            Mark::Text => {}
+        }
+        column
+            .draw_text(&e.label, &font, (34, row))
+            .map_err(draw_error)?;
+    }
+    let _ = base_x;
+    Ok(())
+}
+
+/// Draws dashed horizontal segments `(t0, t1, y)` in `colour`.
+pub(crate) fn draw_dashed_segments<DB: DrawingBackend>(
+    panel: &mut TimePanel<'_, DB>,
+    segments: &[(f64, f64, f64)],
+    colour: RGBColor,
+) -> Result<(), PlotError> {
+    for &(t0, t1, y) in segments {
+        panel
+            .draw_series(DashedLineSeries::new(
+                [(t0, y), (t1, y)],
+                8,
+                5,
+                colour.stroke_width(2),
+            ))
+            .map_err(draw_error)?;
+    }
+    Ok(())
+}
+
+/// Draws a triangle at each of `points` (values clipped at the axis).
+pub(crate) fn draw_clipped<DB: DrawingBackend>(
+    panel: &mut TimePanel<'_, DB>,
+    points: &[(f64, f64)],
+    colour: RGBColor,
+) -> Result<(), PlotError> {
+    panel
+        .draw_series(
+            points
+                .iter()
+                .map(|&p| TriangleMarker::new(p, 5, colour.filled())),
+        )
+        .map_err(draw_error)?;
+    Ok(())
 }

@@ -83,6 +83,69 @@ pub(crate) fn span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
     (lo - pad)..(hi + pad)
 }
 
+/// Share of a series' samples allowed outside a robust axis range at
+/// each end before the range stops growing for them.
+const TAIL: f64 = 0.01;
+
+/// The axis range of `values` (with `extra`, e.g. limits, always inside):
+/// as [`span`], unless a few samples (at most [`TAIL`] of a series at
+/// either end) stretch it to more than three times its height; then the range of the
+/// rest, and the few are drawn clipped at the edge and marked. So one
+/// out-of-range reading no longer squashes the trajectory.
+pub(crate) fn robust_span(values: &[&[f64]], extra: &[f64]) -> Range<f64> {
+    let full = span(values, extra);
+    let mut kept: Vec<f64> = Vec::new();
+    for v in values {
+        let mut finite: Vec<f64> = v.iter().copied().filter(|x| x.is_finite()).collect();
+        if finite.is_empty() {
+            continue;
+        }
+        finite.sort_by(f64::total_cmp);
+        #[allow(
+            clippy::cast_possible_truncation,
+            clippy::cast_sign_loss,
+            clippy::cast_precision_loss
+        )]
+        let cut = (finite.len() as f64 * TAIL).floor() as usize;
+        kept.push(finite[cut]);
+        kept.push(finite[finite.len() - 1 - cut]);
+    }
+    let core = span(&[&kept], extra);
+    let (wf, wc) = (full.end - full.start, core.end - core.start);
+    if wf > 3.0 * wc { core } else { full }
+}
+
+/// Points `(t, y)` of a line.
+pub(crate) type Points = Vec<(f64, f64)>;
+
+/// `points` with every value outside `range` moved onto its edge, and the
+/// moved points (to be marked as clipped).
+pub(crate) fn clamp_points(
+    points: Points,
+    range: &Range<f64>,
+) -> (Points, Points) {
+    let mut clipped = Vec::new();
+    let inside = points
+        .into_iter()
+        .map(|(t, y)| {
+            if y < range.start || y > range.end {
+                let edge = y.clamp(range.start, range.end);
+                clipped.push((t, edge));
+                (t, edge)
+            } else {
+                (t, y)
+            }
+        })
+        .collect();
+    (inside, clipped)
+}
+
+/// `true` when `unit` is a speed (linear or angular): its derivatives are
+/// then acceleration and jerk; for any other quantity they are rates.
+pub(crate) fn is_motion(unit: &str) -> bool {
+    matches!(unit, "m/s" | "rad/s" | "km/h" | "rpm" | "mm/s")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -108,6 +171,28 @@ mod tests {
     fn mirrored_limits() {
         assert_eq!(mirrored(Some(2.5)), [2.5, -2.5]);
         assert!(mirrored(None).is_empty());
+    }
+
+    #[test]
+    fn one_outlier_is_clipped_and_a_real_excursion_is_not() {
+        let mut y: Vec<f64> = (0..1000).map(|i| f64::from(i) / 1000.0).collect();
+        // Without an outlier the range is the plain span.
+        assert_eq!(robust_span(&[&y], &[]), span(&[&y], &[]));
+        y[500] = 1000.0;
+        let r = robust_span(&[&y], &[]);
+        assert!(r.end < 1.2 && r.start > -0.2, "{r:?}");
+        let (inside, clipped) = clamp_points(vec![(0.5, 1000.0), (0.6, 0.6)], &r);
+        assert_eq!(clipped, vec![(0.5, r.end)]);
+        assert_eq!(inside[1], (0.6, 0.6));
+        // A limit passed as `extra` is always inside.
+        let r = robust_span(&[&y], &[5.0]);
+        assert!(r.end > 5.0);
+        // Many samples out there are the signal, not an outlier.
+        y[500] = 0.5;
+        for v in y.iter_mut().skip(900) {
+            *v = 10.0;
+        }
+        assert_eq!(robust_span(&[&y], &[]), span(&[&y], &[]));
     }
 
     #[test]

@@ -44,7 +44,9 @@ mod tally;
 pub use envelope::{ENVELOPE_BUCKETS, Envelope, samples_of};
 pub use file::{MAX_LINE_BYTES, ResultReader, ResultWriter};
 pub use merge::{Shard, fingerprint, merge, merge_files};
-pub use plot::{plot_envelope, plot_envelope_of, plot_envelope_svg};
+pub use plot::{
+    PANELS, PanelRuns, panel_of, panel_worst, plot_envelope, plot_envelope_of, plot_envelope_svg,
+};
 pub use report::{
     CriterionSummary, SweepSummary, json, json_of, junit, junit_of, summarise, summary_of, table,
     table_of, tally, variant_scenario, variant_toml, variant_toml_of,

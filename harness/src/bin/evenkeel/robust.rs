@@ -493,20 +493,31 @@ fn report(
     map: Option<(String, String)>,
 ) -> anyhow::Result<bool> {
     let (header, tally) = (&s.header, &s.tally);
-    let worst = if args.plot.is_some() || args.html.is_some() {
+    // Each panel's own worst variant, each distinct one run once.
+    let mut reruns: Vec<(usize, evenkeel_harness::outcome::BackendRun)> = Vec::new();
+    let chosen = sweep::panel_worst(tally);
+    if args.plot.is_some() || args.html.is_some() {
         let backend = BackendKind::from_name(&header.backend).unwrap_or(BackendKind::Fixed);
-        tally
-            .worst
-            .as_ref()
-            .map(|w| sweep::apply_variant(scenario, &w.variant.values, w.variant.seed))
-            .map(|s| s.run_on(&[backend]))
-            .transpose()?
-            .and_then(|o| o.runs.into_iter().next())
-    } else {
-        None
-    };
+        for (w, _) in chosen.iter().flatten() {
+            if reruns.iter().any(|(i, _)| *i == w.variant.index) {
+                continue;
+            }
+            let v = sweep::apply_variant(scenario, &w.variant.values, w.variant.seed);
+            if let Some(run) = v.run_on(&[backend])?.runs.into_iter().next() {
+                reruns.push((w.variant.index, run));
+            }
+        }
+    }
+    let runs: sweep::PanelRuns<'_> = std::array::from_fn(|i| {
+        chosen[i].as_ref().and_then(|(w, _)| {
+            reruns
+                .iter()
+                .find(|(k, _)| *k == w.variant.index)
+                .map(|(_, r)| r)
+        })
+    });
     if let Some(path) = &args.html {
-        let svg = sweep::plot_envelope_svg(scenario, header, tally, &s.envelope, worst.as_ref())?;
+        let svg = sweep::plot_envelope_svg(scenario, header, tally, &s.envelope, &runs)?;
         let page = evenkeel_harness::report::sweep_html(
             header,
             tally,
@@ -522,7 +533,7 @@ fn report(
                 header,
                 tally,
                 &s.envelope,
-                worst.as_ref(),
+                &runs,
                 p,
             )?)
         })?;
