@@ -112,8 +112,7 @@ fn lanes_panel(scenario: &Scenario, run: &BackendRun) -> Panel {
         ORANGE,
     ));
     let monitor = |flag: Diagnostics| {
-        Box::new(move |k: usize| f.monitor.get(k).is_some_and(|d| d.contains(flag)))
-            as Lane<'_>
+        Box::new(move |k: usize| f.monitor.get(k).is_some_and(|d| d.contains(flag))) as Lane<'_>
     };
     if f.monitor_settings.is_some() || !f.monitor.is_empty() {
         lanes.push((

@@ -120,10 +120,7 @@ pub(crate) type Points = Vec<(f64, f64)>;
 
 /// `points` with every value outside `range` moved onto its edge, and the
 /// moved points (to be marked as clipped).
-pub(crate) fn clamp_points(
-    points: Points,
-    range: &Range<f64>,
-) -> (Points, Points) {
+pub(crate) fn clamp_points(points: Points, range: &Range<f64>) -> (Points, Points) {
     let mut clipped = Vec::new();
     let inside = points
         .into_iter()
