@@ -10,6 +10,12 @@
 //!    `downstream`), and the loop monitor's alarms
 //!    ([`evenkeel::monitor::Diagnostics`]), each a 0/1 lane.
 //!
+//!
+//! The worst value of each criterion that is one (peak command, slew,
+//! rate, jerk, overshoot, fault return jump and overshoot, the first
+//! limit violation) is marked where and when it occurred, labelled with
+//! the criterion, the value and the time.
+//!
 //! The sweep envelope ([`crate::sweep::plot_envelope`]) and the comparison
 //! ([`crate::compare::plot`]) are drawn with the same private parts:
 //!
@@ -32,8 +38,8 @@ mod series;
 
 pub(crate) use file::{Figure, render_svg, write_figure};
 pub(crate) use page::{
-    LabelledLine, draw_error, draw_grid, draw_labelled_line, draw_legend_box, draw_limit_lines,
-    draw_page, time_panel,
+    LabelledLine, Mark, draw_error, draw_grid, draw_labelled_line, draw_legend_box,
+    draw_limit_lines, draw_marks, draw_page, time_panel,
 };
 pub use run::plot;
 pub(crate) use series::{MAX_POINTS, derivative_units, max_limit, mirrored, reduce, span};

@@ -143,3 +143,39 @@ pub(crate) fn draw_legend_box<'a, DB: DrawingBackend + 'a>(
         .draw()
         .map_err(draw_error)
 }
+
+/// A worst value to mark: time, value, label.
+pub(crate) type Mark = (f64, f64, String);
+
+/// Marks each worst value with a ring of `colour` and its label beside it
+/// (left of the ring in the right third of the panel, so it stays on the
+/// page), listed once in the legend as `worst value`.
+pub(crate) fn draw_marks<DB: DrawingBackend>(
+    panel: &mut TimePanel<'_, DB>,
+    t_end_s: f64,
+    marks: &[Mark],
+    colour: RGBColor,
+) -> Result<(), PlotError> {
+    for (i, (t, v, label)) in marks.iter().enumerate() {
+        let font = (FONT, 14).into_font().color(&colour);
+        // Rough width of the label in pixels, to put it left of the ring.
+        #[allow(clippy::cast_possible_truncation, clippy::cast_possible_wrap)]
+        let width = (label.chars().count() * 7) as i32;
+        let dx = if *t > 0.66 * t_end_s { -width - 10 } else { 10 };
+        #[allow(clippy::cast_possible_truncation)]
+        let dy = -18 + 16 * (i as i32 % 2);
+        let series = panel
+            .draw_series(std::iter::once(
+                EmptyElement::at((*t, *v))
+                    + Circle::new((0, 0), 6, colour.stroke_width(2))
+                    + Text::new(label.clone(), (dx, dy), font),
+            ))
+            .map_err(draw_error)?;
+        if i == 0 {
+            series
+                .label("worst value")
+                .legend(move |(x, y)| Circle::new((x + 10, y), 5, colour.stroke_width(2)));
+        }
+    }
+    Ok(())
+}

@@ -7,9 +7,9 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::{
-    Figure, LabelledLine, PlotError, derivative_units, draw_grid, draw_labelled_line,
-    draw_legend_box, draw_limit_lines, draw_page, max_limit, mirrored, reduce, span, time_panel,
-    write_figure,
+    Figure, LabelledLine, Mark, PlotError, derivative_units, draw_grid, draw_labelled_line,
+    draw_legend_box, draw_limit_lines, draw_marks, draw_page, max_limit, mirrored, reduce, span,
+    time_panel, write_figure,
 };
 use crate::criteria::MetricKey;
 use crate::outcome::BackendRun;
@@ -97,6 +97,26 @@ fn lanes_panel(run: &BackendRun) -> Panel<'static> {
         limits: Vec::new(),
         limit_name: "",
         range: -0.3..10.5, // head room for the legend above the lanes
+        marks: Vec::new(),
+    }
+}
+
+/// The panel (0 output, 1 command, 2 rate, 3 jerk) a metric's worst
+/// value is drawn on.
+fn panel_of(metric: MetricKey) -> Option<usize> {
+    match metric {
+        MetricKey::Overshoot
+        | MetricKey::FaultOvershoot
+        | MetricKey::TrackingErrorPeak
+        | MetricKey::RampTrackingErrorPeak
+        | MetricKey::DisturbancePeakDeviation => Some(0),
+        MetricKey::PeakCommand
+        | MetricKey::PeakSlew
+        | MetricKey::FaultReturnJump
+        | MetricKey::LimitViolations => Some(1),
+        MetricKey::PeakAccel => Some(2),
+        MetricKey::PeakJerk => Some(3),
+        _ => None,
     }
 }
 
@@ -107,6 +127,8 @@ struct Panel<'a> {
     limits: Vec<f64>,
     limit_name: &'static str,
     range: Range<f64>,
+    /// Worst values marked on this panel.
+    marks: Vec<Mark>,
 }
 
 fn draw<DB: DrawingBackend>(
@@ -142,6 +164,7 @@ fn draw<DB: DrawingBackend>(
             ],
             limits: Vec::new(),
             limit_name: "",
+            marks: Vec::new(),
         },
         Panel {
             y_desc: format!("command ({})", scenario.command_unit),
@@ -152,6 +175,7 @@ fn draw<DB: DrawingBackend>(
             ],
             limits: vec![u_lo, u_hi],
             limit_name: "output limits",
+            marks: Vec::new(),
         },
         Panel {
             y_desc: format!("acceleration ({rate_unit})"),
@@ -159,6 +183,7 @@ fn draw<DB: DrawingBackend>(
             series: vec![("acceleration", reduce(t, &rec.accel), green)],
             limits: accel_limits,
             limit_name: "peak_accel limit (±)",
+            marks: Vec::new(),
         },
         Panel {
             y_desc: format!("jerk ({jerk_unit})"),
@@ -166,9 +191,38 @@ fn draw<DB: DrawingBackend>(
             series: vec![("jerk", reduce(t, &jerk), green)],
             limits: jerk_limits,
             limit_name: "peak_jerk limit (±)",
+            marks: Vec::new(),
         },
         lanes_panel(run),
     ];
+    for v in &run.verdicts {
+        let (Some(at), Some(measured), Some(p)) =
+            (v.at_s, v.measured, panel_of(v.criterion.metric))
+        else {
+            continue;
+        };
+        // Truncation is intended: the instant is a whole sample.
+        #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
+        let k = (at / rec.dt_s).round() as usize;
+        let signal: &[f64] = match p {
+            0 => &rec.output,
+            1 => &rec.command,
+            2 => &rec.accel,
+            _ => &jerk,
+        };
+        let Some(&y) = signal.get(k) else { continue };
+        let metric = v.criterion.metric;
+        let label = format!(
+            "{} {} {} at t = {} s",
+            v.criterion.label(),
+            crate::report::format_number(Some(measured)),
+            metric.unit(unit, &scenario.command_unit),
+            crate::report::format_number(Some(at))
+        );
+        if !panels[p].marks.iter().any(|m| m.2 == label) {
+            panels[p].marks.push((at, y, label));
+        }
+    }
 
     let verdict = if run.passed() { "PASS" } else { "FAIL" };
     let title = format!("{} — backend {} — {verdict}", scenario.name, run.backend);
@@ -191,6 +245,7 @@ fn draw<DB: DrawingBackend>(
         for (name, points, colour) in panel.series.drain(..) {
             draw_labelled_line(&mut chart, points, name, colour)?;
         }
+        draw_marks(&mut chart, t_end, &panel.marks, RGBColor(170, 0, 120))?;
         draw_legend_box(&mut chart)?;
     }
     Ok(())

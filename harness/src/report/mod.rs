@@ -17,7 +17,7 @@ pub use html::{HtmlPage, html_escape};
 pub use json::json;
 pub(crate) use junit::{Failure, JunitXml};
 pub use junit::{junit, xml_escape};
-pub use table::{format_number, table};
+pub use table::{SIGNIFICANT_DIGITS, format_number, summary, table};
 
 #[cfg(doc)]
 use crate::outcome::Outcome;
