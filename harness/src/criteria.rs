@@ -21,6 +21,12 @@ pub enum MetricKey {
     Iae,
     /// `ise`
     Ise,
+    /// `tracking_error_peak`
+    TrackingErrorPeak,
+    /// `tracking_error_rms`
+    TrackingErrorRms,
+    /// `ramp_tracking_error_peak`
+    RampTrackingErrorPeak,
     /// `peak_command`
     PeakCommand,
     /// `command_total_variation`
@@ -33,6 +39,10 @@ pub enum MetricKey {
     PeakJerk,
     /// `time_saturated_s`
     TimeSaturated,
+    /// `disturbance_peak_deviation`
+    DisturbancePeakDeviation,
+    /// `disturbance_recovery_s`
+    DisturbanceRecovery,
     /// `limit_violations` ([`crate::fault::FaultMetrics`])
     LimitViolations,
     /// `fault_flag_errors`
@@ -47,19 +57,24 @@ pub enum MetricKey {
 
 impl MetricKey {
     /// Every key, in report order.
-    pub const ALL: [Self; 17] = [
+    pub const ALL: [Self; 22] = [
         Self::RiseTime,
         Self::SettlingTime,
         Self::Overshoot,
         Self::SteadyStateError,
         Self::Iae,
         Self::Ise,
+        Self::TrackingErrorPeak,
+        Self::TrackingErrorRms,
+        Self::RampTrackingErrorPeak,
         Self::PeakCommand,
         Self::CommandTotalVariation,
         Self::PeakSlew,
         Self::PeakAccel,
         Self::PeakJerk,
         Self::TimeSaturated,
+        Self::DisturbancePeakDeviation,
+        Self::DisturbanceRecovery,
         Self::LimitViolations,
         Self::FaultFlagErrors,
         Self::FaultRecovery,
@@ -77,12 +92,17 @@ impl MetricKey {
             Self::SteadyStateError => "steady_state_error",
             Self::Iae => "iae",
             Self::Ise => "ise",
+            Self::TrackingErrorPeak => "tracking_error_peak",
+            Self::TrackingErrorRms => "tracking_error_rms",
+            Self::RampTrackingErrorPeak => "ramp_tracking_error_peak",
             Self::PeakCommand => "peak_command",
             Self::CommandTotalVariation => "command_total_variation",
             Self::PeakSlew => "peak_slew_per_s",
             Self::PeakAccel => "peak_accel",
             Self::PeakJerk => "peak_jerk",
             Self::TimeSaturated => "time_saturated_s",
+            Self::DisturbancePeakDeviation => "disturbance_peak_deviation",
+            Self::DisturbanceRecovery => "disturbance_recovery_s",
             Self::LimitViolations => "limit_violations",
             Self::FaultFlagErrors => "fault_flag_errors",
             Self::FaultRecovery => "fault_recovery_s",
@@ -107,18 +127,142 @@ impl MetricKey {
             Self::SteadyStateError => m.steady_state_error,
             Self::Iae => Some(m.iae),
             Self::Ise => Some(m.ise),
+            Self::TrackingErrorPeak => m.tracking_error_peak,
+            Self::TrackingErrorRms => m.tracking_error_rms,
+            Self::RampTrackingErrorPeak => m.ramp_tracking_error_peak,
             Self::PeakCommand => Some(m.peak_command),
             Self::CommandTotalVariation => Some(m.command_total_variation),
             Self::PeakSlew => Some(m.peak_slew_per_s),
             Self::PeakAccel => Some(m.peak_accel),
             Self::PeakJerk => Some(m.peak_jerk),
             Self::TimeSaturated => m.time_saturated_s,
+            Self::DisturbancePeakDeviation => m.disturbance_peak_deviation,
+            Self::DisturbanceRecovery => m.disturbance_recovery_s,
             Self::LimitViolations => m.faults.limit_violations,
             Self::FaultFlagErrors => m.faults.fault_flag_errors,
             Self::FaultRecovery => m.faults.fault_recovery_s,
             Self::FaultReturnJump => m.faults.fault_return_jump,
             Self::FaultOvershoot => m.faults.fault_overshoot,
         }
+    }
+}
+
+impl MetricKey {
+    /// When the metric's worst value occurred, s from the start of the
+    /// run; `None` for a metric that is not a worst value at one instant
+    /// (a time, an integral, a mean) or that has no value.
+    #[must_use]
+    pub fn at_s(self, m: &Metrics) -> Option<f64> {
+        let t = &m.at_s;
+        let f = &m.faults.at_s;
+        match self {
+            Self::Overshoot => t.overshoot_pct,
+            Self::PeakCommand => t.peak_command,
+            Self::PeakSlew => t.peak_slew_per_s,
+            Self::PeakAccel => t.peak_accel,
+            Self::PeakJerk => t.peak_jerk,
+            Self::TrackingErrorPeak => t.tracking_error_peak,
+            Self::RampTrackingErrorPeak => t.ramp_tracking_error_peak,
+            Self::DisturbancePeakDeviation => t.disturbance_peak_deviation,
+            Self::DisturbanceRecovery => t.disturbance_recovery_s,
+            Self::LimitViolations => f.limit_violations,
+            Self::FaultFlagErrors => f.fault_flag_errors,
+            Self::FaultRecovery => f.fault_recovery_s,
+            Self::FaultReturnJump => f.fault_return_jump,
+            Self::FaultOvershoot => f.fault_overshoot,
+            _ => None,
+        }
+        .filter(|_| self.value(m).is_some())
+    }
+
+    /// `true` for the fault checks ([`crate::fault::FaultMetrics`]), which
+    /// judge the whole run and cannot be given to one segment or window.
+    #[must_use]
+    pub const fn is_fault_check(self) -> bool {
+        matches!(
+            self,
+            Self::LimitViolations
+                | Self::FaultFlagErrors
+                | Self::FaultRecovery
+                | Self::FaultReturnJump
+                | Self::FaultOvershoot
+        )
+    }
+
+    /// The metric's unit in a loop whose output is in `output_unit` and
+    /// command in `command_unit` (`scenario.output_unit`, `command_unit`).
+    ///
+    /// ```
+    /// use evenkeel_harness::criteria::MetricKey;
+    /// assert_eq!(MetricKey::PeakJerk.unit("m/s", "1"), "m/s³");
+    /// assert_eq!(MetricKey::Ise.unit("degC", "1"), "degC²·s");
+    /// assert_eq!(MetricKey::PeakSlew.unit("m/s", "%"), "%/s");
+    /// assert_eq!(MetricKey::LimitViolations.unit("m/s", "1"), "samples");
+    /// ```
+    #[must_use]
+    pub fn unit(self, output_unit: &str, command_unit: &str) -> String {
+        let y = output_unit;
+        match self {
+            Self::RiseTime
+            | Self::SettlingTime
+            | Self::TimeSaturated
+            | Self::DisturbanceRecovery
+            | Self::FaultRecovery => "s".to_owned(),
+            Self::Overshoot => "%".to_owned(),
+            Self::SteadyStateError
+            | Self::TrackingErrorPeak
+            | Self::TrackingErrorRms
+            | Self::RampTrackingErrorPeak
+            | Self::DisturbancePeakDeviation
+            | Self::FaultOvershoot => y.to_owned(),
+            Self::Iae => times_second(y),
+            Self::Ise => times_second(&squared(y)),
+            Self::PeakCommand | Self::CommandTotalVariation | Self::FaultReturnJump => {
+                command_unit.to_owned()
+            }
+            Self::PeakSlew => per_second(command_unit),
+            Self::PeakAccel => per_second(y),
+            Self::PeakJerk => per_second(&per_second(y)),
+            Self::LimitViolations | Self::FaultFlagErrors => "samples".to_owned(),
+        }
+    }
+}
+
+/// `unit` per second: `m/s` → `m/s²` → `m/s³`, `rad/s` → `rad/s²`, `kPa`
+/// → `kPa/s` → `kPa/s²`, `1` → `1/s`.
+///
+/// ```
+/// use evenkeel_harness::criteria::per_second;
+/// assert_eq!(per_second("m/s"), "m/s²");
+/// assert_eq!(per_second(&per_second("kPa")), "kPa/s²");
+/// ```
+#[must_use]
+pub fn per_second(unit: &str) -> String {
+    for (from, to) in [("/s", "/s²"), ("/s²", "/s³"), ("/s³", "/s⁴")] {
+        if let Some(stem) = unit.strip_suffix(from) {
+            return format!("{stem}{to}");
+        }
+    }
+    format!("{unit}/s")
+}
+
+/// `unit` squared: `degC` → `degC²`, `m/s` → `(m/s)²`, `1` → `1`.
+fn squared(unit: &str) -> String {
+    if unit == "1" {
+        "1".to_owned()
+    } else if unit.chars().all(char::is_alphanumeric) {
+        format!("{unit}²")
+    } else {
+        format!("({unit})²")
+    }
+}
+
+/// `unit` times a second: `m` → `m·s`, `1` → `s`.
+fn times_second(unit: &str) -> String {
+    if unit == "1" {
+        "s".to_owned()
+    } else {
+        format!("{unit}·s")
     }
 }
 
@@ -133,6 +277,11 @@ impl MetricKey {
             Self::Overshoot => m.undefined.overshoot_pct,
             Self::SteadyStateError => m.undefined.steady_state_error,
             Self::TimeSaturated => m.undefined.time_saturated_s,
+            Self::TrackingErrorPeak => m.undefined.tracking_error_peak,
+            Self::TrackingErrorRms => m.undefined.tracking_error_rms,
+            Self::RampTrackingErrorPeak => m.undefined.ramp_tracking_error_peak,
+            Self::DisturbancePeakDeviation => m.undefined.disturbance_peak_deviation,
+            Self::DisturbanceRecovery => m.undefined.disturbance_recovery_s,
             Self::FaultRecovery => m.faults.undefined.fault_recovery_s,
             Self::FaultReturnJump => m.faults.undefined.fault_return_jump,
             Self::FaultOvershoot => m.faults.undefined.fault_overshoot,
@@ -181,11 +330,52 @@ impl Bound {
     }
 }
 
+/// What part of the run a criterion judges.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub enum Scope {
+    /// The whole run (`[criteria]`); the step metrics refer to the first
+    /// reference segment that changes the value.
+    #[default]
+    Run,
+    /// Reference segment `index` (0-based, as `reference.segments[index]`),
+    /// from its start to the end of its hold (`[[criteria.segment]]`); the
+    /// step metrics refer to its change.
+    Segment(usize),
+    /// The time window `[start_s, end_s)` (`[[criteria.window]]`, the
+    /// `index`-th in the file); the step metrics refer to the first
+    /// reference change that starts inside it.
+    Window {
+        /// Position among the scenario's windows.
+        index: usize,
+        /// Start, s.
+        start_s: f64,
+        /// End, s (exclusive).
+        end_s: f64,
+        /// Error band of `disturbance_recovery_s` in this window,
+        /// measurement units; `None`: the run's.
+        band: Option<f64>,
+    },
+}
+
+impl Scope {
+    /// `""`, `segment[I].` or `window[I].`: the prefix of a criterion's label.
+    #[must_use]
+    pub fn prefix(&self) -> String {
+        match self {
+            Self::Run => String::new(),
+            Self::Segment(i) => format!("segment[{i}]."),
+            Self::Window { index, .. } => format!("window[{index}]."),
+        }
+    }
+}
+
 /// A limit on one metric.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Criterion {
     /// The metric.
     pub metric: MetricKey,
+    /// What part of the run it judges.
+    pub scope: Scope,
     /// Upper or lower limit.
     pub bound: Bound,
     /// The limit, in the metric's unit.
@@ -200,6 +390,7 @@ impl Criterion {
     pub fn max(metric: MetricKey, limit: f64) -> Self {
         Self {
             metric,
+            scope: Scope::Run,
             bound: Bound::Max,
             limit,
             source: None,
@@ -234,6 +425,7 @@ impl Criterion {
         let measured = self.metric.value(metrics).filter(|_| undefined.is_none());
         Verdict {
             criterion: self.clone(),
+            at_s: self.metric.at_s(metrics).filter(|_| measured.is_some()),
             measured,
             pass: self.passes(measured, undefined),
             undefined,
@@ -266,6 +458,21 @@ impl Criterion {
 }
 
 impl Criterion {
+    /// The criterion's name in reports: the metric key, prefixed by its
+    /// scope (`segment[2].settling_time_s`, `window[0].tracking_error_peak`).
+    ///
+    /// ```
+    /// use evenkeel_harness::criteria::{Criterion, MetricKey, Scope};
+    /// let mut c = Criterion::max(MetricKey::SettlingTime, 3.0);
+    /// assert_eq!(c.label(), "settling_time_s");
+    /// c.scope = Scope::Segment(2);
+    /// assert_eq!(c.label(), "segment[2].settling_time_s");
+    /// ```
+    #[must_use]
+    pub fn label(&self) -> String {
+        format!("{}{}", self.scope.prefix(), self.metric.name())
+    }
+
     /// The normalised margin of `measured` against this criterion: the
     /// distance to the limit as a fraction of the limit (of 1 when the
     /// limit is 0), positive on the passing side, so that criteria of
@@ -321,6 +528,8 @@ pub struct Verdict {
     pub criterion: Criterion,
     /// What was measured; `None` if the metric is undefined for the run.
     pub measured: Option<f64>,
+    /// When the measured worst value occurred, s ([`MetricKey::at_s`]).
+    pub at_s: Option<f64>,
     /// `true` when the requirement is met.
     pub pass: bool,
     /// Why the metric is undefined, when it is.

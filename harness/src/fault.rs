@@ -277,8 +277,27 @@ pub struct FaultMetrics {
     /// either way), measurement units. A payload change is a disturbance,
     /// judged by the recovery time only.
     pub fault_overshoot: Option<f64>,
+    /// When the worst value of each occurred.
+    pub at_s: FaultTimes,
     /// Why each of the above is `None`, when it is.
     pub undefined: FaultReasons,
+}
+
+/// When the worst value of each fault metric occurred, s from the start
+/// of the run; `None` where the metric has no value or nothing to point at.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct FaultTimes {
+    /// The first sample that left the limits or the slew step.
+    pub limit_violations: Option<f64>,
+    /// The first sample whose flags differ from what was called for.
+    pub fault_flag_errors: Option<f64>,
+    /// The start of the longest recovery (the end of its fault, or the
+    /// onset or end of its payload change).
+    pub fault_recovery_s: Option<f64>,
+    /// The first command after the fault with the largest return jump.
+    pub fault_return_jump: Option<f64>,
+    /// The sample of the largest excursion past the reference.
+    pub fault_overshoot: Option<f64>,
 }
 
 /// Why the fault metrics of [`FaultMetrics`] are undefined.
@@ -321,14 +340,16 @@ pub fn assess(rec: &Recording, band: Option<f64>) -> FaultMetrics {
     let f = &rec.faults;
     #[allow(clippy::cast_precision_loss)] // counts far below 2^53
     let count = |n: usize| n as f64;
+    let at = |k: usize| crate::metrics::sample_time_s(k, rec.dt_s);
     let violations = f.limit_violation.iter().filter(|v| **v).count();
-    let flag_errors = rec
+    let first_violation = f.limit_violation.iter().position(|v| *v);
+    let flag_error: Vec<bool> = rec
         .status
         .iter()
         .zip(&f.expected)
-        .filter(|(s, want)| {
-            let mut got = checked(**s);
-            let mut want = **want;
+        .map(|(s, want)| {
+            let mut got = checked(*s);
+            let mut want = *want;
             if s.contains(Status::ENGAGED) {
                 // Engage sets the last command to the actuator's value
                 // before the downstream comparison: not judged there.
@@ -337,10 +358,16 @@ pub fn assess(rec: &Recording, band: Option<f64>) -> FaultMetrics {
             }
             got != want
         })
-        .count();
+        .collect();
+    let flag_errors = flag_error.iter().filter(|e| **e).count();
     let mut m = FaultMetrics {
         limit_violations: Some(count(violations)),
         fault_flag_errors: Some(count(flag_errors)),
+        at_s: FaultTimes {
+            limit_violations: first_violation.map(at),
+            fault_flag_errors: flag_error.iter().position(|e| *e).map(at),
+            ..FaultTimes::default()
+        },
         ..FaultMetrics::default()
     };
     let eps = episodes(&f.active);
@@ -377,6 +404,8 @@ pub fn assess(rec: &Recording, band: Option<f64>) -> FaultMetrics {
         None
     };
     let mut kicks = false;
+    // Samples of the worst recovery start, return jump and overshoot.
+    let (mut recovery_at, mut jump_at, mut overshoot_at) = (None, None, None);
     for &(end, kick) in &events {
         // The next disturbance after `end` (bisection over the sorted starts).
         let until = starts
@@ -386,14 +415,19 @@ pub fn assess(rec: &Recording, band: Option<f64>) -> FaultMetrics {
         let err = |k: usize| rec.reference[k] - rec.output[k];
         if kick {
             if end > 0 {
-                jump = jump.max((rec.command[end] - rec.applied[end - 1]).abs());
+                let j = (rec.command[end] - rec.applied[end - 1]).abs();
+                if jump_at.is_none() || j > jump {
+                    (jump, jump_at) = (j, Some(end));
+                }
             }
             let e0 = err(end);
             let far_side = band.is_some_and(|b| e0.abs() > b);
             for k in end..until {
                 let e = err(k);
                 let past = if far_side { -e0.signum() * e } else { e.abs() };
-                overshoot = overshoot.max(past);
+                if overshoot_at.is_none() || past > overshoot {
+                    (overshoot, overshoot_at) = (overshoot.max(past), Some(k));
+                }
             }
             kicks = true;
         }
@@ -407,6 +441,9 @@ pub fn assess(rec: &Recording, band: Option<f64>) -> FaultMetrics {
                 let back_in_time = back < until;
                 if !back_in_time {
                     recovery_why = Some(Undefined::NotRecovered);
+                }
+                if back_in_time && (recovery_at.is_none() || t > worst) {
+                    recovery_at = Some(end);
                 }
                 back_in_time.then_some(worst.max(t))
             }
@@ -430,7 +467,10 @@ pub fn assess(rec: &Recording, band: Option<f64>) -> FaultMetrics {
         fault_overshoot: kick_why,
     };
     m.fault_recovery_s = recovery;
+    m.at_s.fault_recovery_s = recovery.and(recovery_at).map(at);
     if kicks {
+        m.at_s.fault_return_jump = jump_at.map(at);
+        m.at_s.fault_overshoot = overshoot_at.filter(|_| overshoot > 0.0).map(at);
         m.fault_return_jump = Some(jump);
         m.fault_overshoot = Some(overshoot);
     }

@@ -29,6 +29,31 @@ pub struct Trace<'a> {
     pub accel: &'a [f64],
 }
 
+/// The instant of sample `k` at period `dt_s`: `k / rate` when the rate
+/// `1/dt_s` is a whole number of samples per second (so that 13 samples
+/// at 1 kHz are `0.013` s, not the `0.013000000000000001` of `13·0.001`),
+/// else `k·dt_s`. Every sample time of a run is computed this way, never
+/// as a running sum.
+///
+/// ```
+/// use evenkeel_harness::metrics::sample_time_s;
+/// assert_eq!(sample_time_s(13, 0.001), 0.013);
+/// assert_eq!(sample_time_s(7, 0.05), 0.35);
+/// assert_eq!(sample_time_s(3, 0.003), 3.0 * 0.003);
+/// ```
+#[must_use]
+pub fn sample_time_s(k: usize, dt_s: f64) -> f64 {
+    let rate = 1.0 / dt_s;
+    let whole = rate.round();
+    #[allow(clippy::cast_precision_loss)] // k < 2^53
+    let k = k as f64;
+    if whole >= 1.0 && (rate - whole).abs() <= 1e-9 * whole {
+        k / whole
+    } else {
+        k * dt_s
+    }
+}
+
 /// A reference step: `reference` goes from `from` to `to` at sample
 /// `start_index`.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -131,13 +156,75 @@ pub struct Metrics {
     pub peak_jerk: f64,
     /// See [`time_saturated_s`].
     pub time_saturated_s: Option<f64>,
+    /// See [`peak_error`] (over the whole trace); `None` for an empty trace.
+    pub tracking_error_peak: Option<f64>,
+    /// See [`rms_error`]; `None` for an empty trace.
+    pub tracking_error_rms: Option<f64>,
+    /// See [`peak_error`] over the samples in a reference ramp; left
+    /// undefined by [`compute`] (which knows no profile), filled in by
+    /// [`crate::outcome::BackendRun::assess`].
+    pub ramp_tracking_error_peak: Option<f64>,
+    /// See [`disturbance_rejection`]; filled in as the ramp error.
+    pub disturbance_peak_deviation: Option<f64>,
+    /// See [`disturbance_rejection`]; filled in as the ramp error.
+    pub disturbance_recovery_s: Option<f64>,
     /// See [`recovery_time_s`].
     pub recovery_time_s: Option<f64>,
+    /// When the worst value of each peak metric occurred.
+    pub at_s: Times,
     /// Fault checks ([`crate::fault::assess`]); left empty by [`compute`],
     /// filled in by [`crate::outcome::BackendRun::assess`].
     pub faults: crate::fault::FaultMetrics,
     /// Why each optional metric above is `None`, when it is.
     pub undefined: Reasons,
+}
+
+/// When the worst value of a metric occurred, s from the start of the
+/// run ([`sample_time_s`] of its sample); `None` where the metric has no
+/// value or no single instant. Ties go to the earliest sample.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Times {
+    /// The sample of the largest excursion beyond the target.
+    pub overshoot_pct: Option<f64>,
+    /// The sample of the largest |u|.
+    pub peak_command: Option<f64>,
+    /// The later sample of the largest |u_k − u_{k−1}|.
+    pub peak_slew_per_s: Option<f64>,
+    /// The sample of the largest |rate|.
+    pub peak_accel: Option<f64>,
+    /// The later sample of the largest rate change.
+    pub peak_jerk: Option<f64>,
+    /// The sample of the largest |r − y|.
+    pub tracking_error_peak: Option<f64>,
+    /// The sample of the largest |r − y| in a ramp.
+    pub ramp_tracking_error_peak: Option<f64>,
+    /// The sample of the largest deviation after a disturbance change.
+    pub disturbance_peak_deviation: Option<f64>,
+    /// The disturbance change the longest recovery follows.
+    pub disturbance_recovery_s: Option<f64>,
+}
+
+impl Times {
+    /// The same instants for a trace whose sample 0 is sample `first` of
+    /// the run (exact: each instant is recomputed from its sample index).
+    #[must_use]
+    pub fn offset(self, first: usize, dt_s: f64) -> Self {
+        // Truncation is intended: the instants are whole samples.
+        #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
+        let at =
+            |t: Option<f64>| t.map(|t| sample_time_s((t / dt_s).round() as usize + first, dt_s));
+        Self {
+            overshoot_pct: at(self.overshoot_pct),
+            peak_command: at(self.peak_command),
+            peak_slew_per_s: at(self.peak_slew_per_s),
+            peak_accel: at(self.peak_accel),
+            peak_jerk: at(self.peak_jerk),
+            tracking_error_peak: at(self.tracking_error_peak),
+            ramp_tracking_error_peak: at(self.ramp_tracking_error_peak),
+            disturbance_peak_deviation: at(self.disturbance_peak_deviation),
+            disturbance_recovery_s: at(self.disturbance_recovery_s),
+        }
+    }
 }
 
 /// Why the optional metrics of [`Metrics`] are undefined (`None` where
@@ -154,6 +241,16 @@ pub struct Reasons {
     pub steady_state_error: Option<Undefined>,
     /// For [`Metrics::time_saturated_s`].
     pub time_saturated_s: Option<Undefined>,
+    /// For [`Metrics::tracking_error_peak`].
+    pub tracking_error_peak: Option<Undefined>,
+    /// For [`Metrics::tracking_error_rms`].
+    pub tracking_error_rms: Option<Undefined>,
+    /// For [`Metrics::ramp_tracking_error_peak`].
+    pub ramp_tracking_error_peak: Option<Undefined>,
+    /// For [`Metrics::disturbance_peak_deviation`].
+    pub disturbance_peak_deviation: Option<Undefined>,
+    /// For [`Metrics::disturbance_recovery_s`].
+    pub disturbance_recovery_s: Option<Undefined>,
 }
 
 /// `true` when the output reaches `level` of the step (normalised) at
@@ -299,6 +396,20 @@ pub fn compute(trace: &Trace<'_>, options: &MetricOptions) -> Result<Metrics, Me
         .and_then(|s| overshoot_pct(y, &s));
     let steady = steady_state_error(r, y, dt, window);
     let why = |value: Option<f64>, reason: Undefined| value.is_none().then_some(reason);
+    let tracking = peak_error(r, y, None);
+    let at = |k: Option<usize>| k.map(|k| sample_time_s(k, dt));
+    let at_s = Times {
+        overshoot_pct: at(overshoot
+            .filter(|o| *o > 0.0)
+            .and(step)
+            .and_then(|s| peak_index(y, &s))),
+        peak_command: at(argmax_abs(u)),
+        peak_slew_per_s: at(argmax_step(u)),
+        peak_accel: at(argmax_abs(a)),
+        peak_jerk: at(argmax_step(a)),
+        tracking_error_peak: at(tracking.map(|(_, k)| k)),
+        ..Times::default()
+    };
     let undefined = Reasons {
         rise_time_s: why(rise, step_reason(y, step.as_ref(), Undefined::NotReached)),
         settling_time_s: why(
@@ -311,6 +422,11 @@ pub fn compute(trace: &Trace<'_>, options: &MetricOptions) -> Result<Metrics, Me
         ),
         steady_state_error: why(steady, Undefined::Empty),
         time_saturated_s: options.saturation.is_none().then_some(Undefined::NoLimits),
+        tracking_error_peak: (n == 0).then_some(Undefined::Empty),
+        tracking_error_rms: (n == 0).then_some(Undefined::Empty),
+        ramp_tracking_error_peak: Some(Undefined::NoRamp),
+        disturbance_peak_deviation: Some(Undefined::NoDisturbance),
+        disturbance_recovery_s: Some(Undefined::NoDisturbance),
     };
     Ok(Metrics {
         rise_time_s: rise,
@@ -325,13 +441,55 @@ pub fn compute(trace: &Trace<'_>, options: &MetricOptions) -> Result<Metrics, Me
         peak_accel: peak_abs(a),
         peak_jerk: peak_rate(a, dt),
         time_saturated_s: options.saturation.map(|s| time_saturated_s(u, dt, &s)),
+        tracking_error_peak: tracking.map(|(e, _)| e),
+        tracking_error_rms: rms_error(r, y),
+        ramp_tracking_error_peak: None,
+        disturbance_peak_deviation: None,
+        disturbance_recovery_s: None,
         recovery_time_s: match (options.saturation, error_band) {
             (Some(s), Some(b)) => recovery_time_s(r, y, u, dt, &s, b),
             _ => None,
         },
+        at_s,
         faults: crate::fault::FaultMetrics::default(),
         undefined,
     })
+}
+
+/// The first sample of the largest `|x_i|`.
+fn argmax_abs(x: &[f64]) -> Option<usize> {
+    let mut best: Option<(usize, f64)> = None;
+    for (i, v) in x.iter().enumerate() {
+        if best.is_none_or(|(_, b)| v.abs() > b) {
+            best = Some((i, v.abs()));
+        }
+    }
+    best.map(|(i, _)| i)
+}
+
+/// The later sample `i` of the first largest `|x_i − x_{i−1}|` (as
+/// [`peak_rate`]); `None` with fewer than two samples.
+fn argmax_step(x: &[f64]) -> Option<usize> {
+    let mut best: Option<(usize, f64)> = None;
+    for (i, w) in x.windows(2).enumerate() {
+        let d = (w[1] - w[0]).abs();
+        if best.is_none_or(|(_, b)| d > b) {
+            best = Some((i + 1, d));
+        }
+    }
+    best.map(|(i, _)| i)
+}
+
+/// The first sample of the largest normalised output from the step on
+/// (the peak [`overshoot_pct`] measures).
+fn peak_index(y: &[f64], step: &Step) -> Option<usize> {
+    let mut best: Option<(usize, f64)> = None;
+    for (i, p) in normalised(y, step) {
+        if best.is_none_or(|(_, b)| p > b) {
+            best = Some((i, p));
+        }
+    }
+    best.map(|(i, _)| i)
 }
 
 /// Output as a fraction of the step, `(y − from)/(to − from)`, from the step on.
@@ -499,6 +657,138 @@ pub fn time_saturated_s(command: &[f64], dt_s: f64, limits: &Saturation) -> f64 
     #[allow(clippy::cast_precision_loss)]
     let count = command.iter().filter(|u| limits.holds(**u)).count() as f64;
     count * dt_s
+}
+
+/// **Peak tracking error** `max_i |r_i − y_i|` over the samples where
+/// `mask` is true (all without a mask), with the first sample where it
+/// occurs; `None` when no sample counts. Over the samples of reference
+/// ramps it is the ramp-tracking error (how far the output lags a ramp).
+/// Common practice (the maximum error, a standard figure of merit of a
+/// servo loop; from memory).
+///
+/// ```
+/// use evenkeel_harness::metrics::peak_error;
+/// let r = [0.0, 1.0, 2.0, 2.0];
+/// let y = [0.0, 0.5, 1.2, 1.9];
+/// assert_eq!(peak_error(&r, &y, None), Some((0.8, 2)));
+/// assert_eq!(peak_error(&r, &y, Some(&[false, true, false, true])), Some((0.5, 1)));
+/// ```
+#[must_use]
+pub fn peak_error(
+    reference: &[f64],
+    output: &[f64],
+    mask: Option<&[bool]>,
+) -> Option<(f64, usize)> {
+    let mut best: Option<(f64, usize)> = None;
+    for (i, (r, y)) in reference.iter().zip(output).enumerate() {
+        if mask.is_some_and(|m| !m.get(i).copied().unwrap_or(false)) {
+            continue;
+        }
+        let e = (r - y).abs();
+        if best.is_none_or(|(b, _)| e > b) {
+            best = Some((e, i));
+        }
+    }
+    best
+}
+
+/// **RMS tracking error** `√(Σ(r_i − y_i)²/n)` over the trace; `None` for
+/// an empty trace. The root-mean-square of the error signal, a standard
+/// error measure (Åström & Hägglund, *Advanced PID Control*, 2006, ISE and
+/// its relatives; from memory): `√(ISE/T)` with `T = n·dt`.
+#[must_use]
+pub fn rms_error(reference: &[f64], output: &[f64]) -> Option<f64> {
+    let n = reference.len().min(output.len());
+    if n == 0 {
+        return None;
+    }
+    let sum: f64 = reference
+        .iter()
+        .zip(output)
+        .map(|(r, y)| (r - y) * (r - y))
+        .sum();
+    #[allow(clippy::cast_precision_loss)]
+    Some((sum / n as f64).sqrt())
+}
+
+/// What [`disturbance_rejection`] measures.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Rejection {
+    /// Largest `|r − y|` after a change, and its sample.
+    pub peak: (f64, usize),
+    /// Longest recovery, s, and the change it follows (sample); `None`
+    /// when the output was not back in the band before an episode ended,
+    /// or without a band.
+    pub recovery: Option<(f64, usize)>,
+    /// Why `recovery` is `None`.
+    pub recovery_undefined: Option<Undefined>,
+}
+
+/// **Disturbance rejection** over `episodes`, each `(change, end)`: the
+/// samples from a disturbance change up to (not including) `end`, where
+/// the next reference change or the end of the part judged begins. Peak
+/// deviation: the largest `|r − y|` over the episodes (the maximum error
+/// after a load disturbance, Åström & Hägglund, *Advanced PID Control*,
+/// 2006, §4, from memory). Recovery: for each episode, the time from the
+/// change to the first sample from which `|r − y| ≤ band` holds to the
+/// episode's end (0 if it never leaves the band), the largest over the
+/// episodes; not recovered when the last sample of an episode is outside
+/// the band. Common practice (our definition of the recovery time,
+/// matching the settling band of a step). `None` without episodes.
+///
+/// ```
+/// use evenkeel_harness::metrics::disturbance_rejection;
+/// // Error 0, a kick to 0.5 at sample 2 decaying by half each sample.
+/// let r = [1.0; 8];
+/// let y = [1.0, 1.0, 0.5, 0.75, 0.875, 0.9375, 0.96875, 0.984375];
+/// let rej = disturbance_rejection(&r, &y, 0.1, &[(2, 8)], Some(0.05)).unwrap();
+/// assert_eq!(rej.peak, (0.5, 2));
+/// // |e| = 0.0625 at sample 5 is the last outside 0.05: back at sample 6, 0.4 s after.
+/// assert_eq!(rej.recovery, Some((0.4, 2)));
+/// ```
+#[must_use]
+pub fn disturbance_rejection(
+    reference: &[f64],
+    output: &[f64],
+    dt_s: f64,
+    episodes: &[(usize, usize)],
+    band: Option<f64>,
+) -> Option<Rejection> {
+    let n = reference.len().min(output.len());
+    let err = |k: usize| (reference[k] - output[k]).abs();
+    let mut peak: Option<(f64, usize)> = None;
+    let mut recovery: Option<(f64, usize)> = None;
+    let mut why = band.is_none().then_some(Undefined::NoBand);
+    for &(start, end) in episodes {
+        let end = end.min(n);
+        if start >= end {
+            continue;
+        }
+        for k in start..end {
+            if peak.is_none_or(|(p, _)| err(k) > p) {
+                peak = Some((err(k), k));
+            }
+        }
+        let Some(b) = band else { continue };
+        if err(end - 1) > b {
+            why = Some(Undefined::NotRecovered);
+            continue;
+        }
+        let back = (start..end)
+            .rev()
+            .find(|&k| err(k) > b)
+            .map_or(start, |k| k + 1);
+        let t = sample_time_s(back - start, dt_s);
+        if recovery.is_none_or(|(w, _)| t > w) {
+            recovery = Some((t, start));
+        }
+    }
+    let peak = peak?;
+    Some(Rejection {
+        peak,
+        recovery: if why.is_some() { None } else { recovery },
+        recovery_undefined: why,
+    })
 }
 
 /// **Recovery time after saturation**: for each run of saturated samples,
@@ -738,6 +1028,34 @@ mod tests {
         // Saturated at samples 2 and 3; at the exit (sample 4) |e| = 0 is already in band.
         assert_eq!(m.recovery_time_s, Some(0.0));
         assert_eq!(m.steady_state_error, Some(0.0));
+        // Times of the worst values (dt = 0.5 s): the overshoot peak 2.4 is
+        // sample 3; |u| = 1 first at sample 2, the largest command step
+        // (0 → 1) ends at sample 2; |a| = 10 at sample 2; of the rate changes
+        // 0 → 10 (10), 10 → 4 (6), 4 → −4 (8), the largest ends at sample 2.
+        assert_eq!(m.at_s.overshoot_pct, Some(1.5));
+        assert_eq!(
+            (m.at_s.peak_command, m.at_s.peak_slew_per_s),
+            (Some(1.0), Some(1.0))
+        );
+        assert_eq!(
+            (m.at_s.peak_accel, m.at_s.peak_jerk),
+            (Some(1.0), Some(1.0))
+        );
+        let late = [0.0, 0.0, 1.0, 4.0, -4.0, 0.0];
+        let m2 = compute(
+            &Trace {
+                accel: &late,
+                ..trace
+            },
+            &opts,
+        )
+        .unwrap();
+        // |a| = 4 first at sample 3; 4 → −4 (8) is the largest change, at sample 4.
+        assert_eq!(
+            (m2.at_s.peak_accel, m2.at_s.peak_jerk),
+            (Some(1.5), Some(2.0))
+        );
+        assert_eq!(m.at_s.offset(10, 0.5).peak_jerk, Some(6.0));
 
         let none = compute(&trace, &MetricOptions::default()).unwrap();
         assert_eq!(

@@ -280,8 +280,7 @@ pub fn simulate<B: Backend>(
     let mut taken_over: Option<(usize, f64)> = None;
     let mut windows = Windows::new(setup.overrides.iter().map(|o| (o.start_s, o.duration_s)));
     for k in 0..n {
-        #[allow(clippy::cast_precision_loss)] // k < 2^53
-        let t = k as f64 * ts;
+        let t = crate::metrics::sample_time_s(k, ts);
         let truth = plant.output();
         let measured = match sensor.as_deref_mut() {
             Some(s) => s.measure(truth),

@@ -41,11 +41,15 @@ pub enum Undefined {
     FaultAtEnd,
     /// The value is not a finite number (the run diverged).
     NotFinite,
+    /// The reference has no ramp (in the part judged).
+    NoRamp,
+    /// No disturbance changes (in the part judged).
+    NoDisturbance,
 }
 
 impl Undefined {
     /// Every reason.
-    pub const ALL: [Self; 12] = [
+    pub const ALL: [Self; 14] = [
         Self::NoStep,
         Self::NeverMoved,
         Self::NotReached,
@@ -58,6 +62,8 @@ impl Undefined {
         Self::NotRecovered,
         Self::FaultAtEnd,
         Self::NotFinite,
+        Self::NoRamp,
+        Self::NoDisturbance,
     ];
 
     /// The reason in words, as the reports print it.
@@ -84,6 +90,8 @@ impl Undefined {
             }
             Self::FaultAtEnd => "a fault was still active at the end of the run",
             Self::NotFinite => "not a finite number: the run diverged",
+            Self::NoRamp => "the reference has no ramp here (no ramp tracking to judge)",
+            Self::NoDisturbance => "no disturbance changes here (no rejection to judge)",
         }
     }
 
@@ -103,6 +111,8 @@ impl Undefined {
             Self::NotRecovered => "not_recovered",
             Self::FaultAtEnd => "fault_at_end",
             Self::NotFinite => "not_finite",
+            Self::NoRamp => "no_ramp",
+            Self::NoDisturbance => "no_disturbance",
         }
     }
 

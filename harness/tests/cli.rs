@@ -5,19 +5,24 @@ mod common;
 use common::{assert_exit, data, demos, evenkeel, evenkeel_on, text};
 use evenkeel_harness::CAUTION;
 
-const METRIC_KEYS: [&str; 17] = [
+const METRIC_KEYS: [&str; 22] = [
     "rise_time_s",
     "settling_time_s",
     "overshoot_pct",
     "steady_state_error",
     "iae",
     "ise",
+    "tracking_error_peak",
+    "tracking_error_rms",
+    "ramp_tracking_error_peak",
     "peak_command",
     "command_total_variation",
     "peak_slew_per_s",
     "peak_accel",
     "peak_jerk",
     "time_saturated_s",
+    "disturbance_peak_deviation",
+    "disturbance_recovery_s",
     "limit_violations",
     "fault_flag_errors",
     "fault_recovery_s",
@@ -42,6 +47,32 @@ fn demos_pass_on_all_backends_with_every_report() {
     assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));
     assert_eq!(stdout.matches("PASS").count(), 9, "{stdout}");
+    // Units from the scenario, when the worst value occurred, one number
+    // format, and the summary over the three scenarios.
+    assert!(
+        stdout.contains("at (s)") && stdout.contains(" unit "),
+        "{stdout}"
+    );
+    let jerk = stdout
+        .lines()
+        .find(|l| l.trim_start().starts_with("peak_jerk"))
+        .unwrap();
+    assert!(
+        jerk.contains("<= 2.5 ") && jerk.contains(" m/s³ "),
+        "{jerk}"
+    );
+    let rise = stdout
+        .lines()
+        .find(|l| l.trim_start().starts_with("rise_time_s"))
+        .unwrap();
+    assert!(
+        rise.contains("<= 8 ") && rise.contains(" s ") && rise.contains(" - "),
+        "{rise}"
+    );
+    assert!(
+        stdout.contains("summary: 3 scenarios, 3 passed, 0 failed; "),
+        "{stdout}"
+    );
 
     // JSON: parses, every run passes, metrics have exactly the keys.
     let json: serde_json::Value =
@@ -71,6 +102,10 @@ fn demos_pass_on_all_backends_with_every_report() {
                 }
                 assert!(METRIC_KEYS.contains(&c["name"].as_str().unwrap()));
                 assert_eq!(c["pass"], true, "{c}");
+                assert!(c["unit"].is_string(), "{c}");
+                if c["name"] == "peak_jerk" {
+                    assert!(c["at_s"].as_f64().unwrap() >= 0.0, "{c}");
+                }
                 criteria += 1;
             }
         }
@@ -84,6 +119,34 @@ fn demos_pass_on_all_backends_with_every_report() {
         .filter(|n| n.has_tag_name("testcase"))
         .count();
     assert_eq!(cases, criteria);
+    // Stable names (the criterion, never its limit) and the criterion's
+    // source and limit as properties.
+    let jerk = doc
+        .descendants()
+        .find(|n| {
+            n.has_tag_name("testcase")
+                && n.attribute("classname") == Some("baggage-tug.fixed")
+                && n.attribute("name") == Some("peak_jerk max")
+        })
+        .unwrap();
+    let prop = |name: &str| {
+        jerk.descendants()
+            .find(|p| p.has_tag_name("property") && p.attribute("name") == Some(name))
+            .and_then(|p| p.attribute("value"))
+            .map(str::to_owned)
+    };
+    assert_eq!(prop("limit").as_deref(), Some("2.5"));
+    assert_eq!(prop("unit").as_deref(), Some("m/s³"));
+    assert!(prop("source").unwrap().contains("ISO 15622"));
+    assert!(prop("at_s").unwrap().parse::<f64>().unwrap() >= 0.0);
+    assert!(prop("measured").unwrap().parse::<f64>().unwrap() <= 2.5);
+    assert_eq!(
+        doc.descendants()
+            .filter(|n| n.has_tag_name("testcase"))
+            .filter(|n| n.attribute("name").unwrap().contains("<="))
+            .count(),
+        0
+    );
     assert_eq!(
         doc.descendants()
             .filter(|n| n.has_tag_name("failure"))
@@ -105,6 +168,18 @@ fn demos_pass_on_all_backends_with_every_report() {
                 "{header}"
             );
             assert!(csv.lines().count() > 1000);
+            // Unique column names; times k/rate, so no 0.013000000000000001.
+            let mut names: Vec<&str> = header.split(',').collect();
+            let all = names.len();
+            names.sort_unstable();
+            names.dedup();
+            assert_eq!(names.len(), all, "{header}");
+            assert!(
+                csv.lines()
+                    .skip(1)
+                    .all(|l| l.split(',').next().unwrap().len() <= 8),
+                "a time column with rounding noise"
+            );
             let svg = std::fs::read_to_string(dir.path().join(format!("p-{name}-{backend}.svg")))
                 .unwrap();
             assert!(

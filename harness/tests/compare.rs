@@ -189,7 +189,7 @@ fn cli_compares_the_demos_with_every_report() {
         assert!(svg.contains("fixed Q16.16 against f64"));
         let csv =
             std::fs::read_to_string(dir.path().join(format!("c-{name}-compare.csv"))).unwrap();
-        assert!(csv.starts_with("time_s,reference,output_fixed,output_f64"));
+        assert!(csv.starts_with("t_s,reference,output_fixed,output_f64"));
     }
     // Nothing but the reports (atomic writes leave no temporary files).
     assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 8);

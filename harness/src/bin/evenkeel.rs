@@ -11,7 +11,7 @@ use std::process::ExitCode;
 
 use anyhow::Context;
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use evenkeel_harness::report::{json, junit, write_trace_csv};
+use evenkeel_harness::report::{json, junit, summary, write_trace_csv};
 use evenkeel_harness::{BackendKind, Outcome, Scenario, plot};
 
 #[path = "evenkeel/compare.rs"]
@@ -220,7 +220,10 @@ fn check(args: &CheckArgs) -> anyhow::Result<bool> {
     out.text(args.html.as_deref(), || {
         evenkeel_harness::report::check_html(&outcomes, &plots)
     })?;
-    let tables: String = outcomes.iter().map(ToString::to_string).collect();
+    let mut tables: String = outcomes.iter().map(ToString::to_string).collect();
+    if outcomes.len() > 1 {
+        tables.push_str(&summary(&outcomes));
+    }
     out.finish(&tables)?;
     Ok(outcomes.iter().all(Outcome::passed))
 }

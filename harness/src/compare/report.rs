@@ -329,11 +329,25 @@ pub fn junit(comparisons: &[Comparison]) -> String {
             let failure = (!ch.pass).then(|| {
                 Failure::new("back-to-back", &msg).with_text(ch.note.as_deref().unwrap_or(&msg))
             });
-            x.case(
-                &format!("{name}.compare"),
-                &format!("{} {limit}", ch.name),
-                failure,
-            );
+            let mut props = vec![
+                ("limit", ch.tolerance.limit.to_string()),
+                ("unit", ch.unit.clone()),
+                (
+                    "basis",
+                    if ch.tolerance.declared {
+                        "declared".to_owned()
+                    } else {
+                        "derived".to_owned()
+                    },
+                ),
+            ];
+            if ch.measured.is_finite() {
+                props.push(("measured", ch.measured.to_string()));
+            }
+            if let (true, Some(source)) = (ch.tolerance.declared, &c.scenario.compare.source) {
+                props.push(("source", source.clone()));
+            }
+            x.case_with(&format!("{name}.compare"), ch.name, &props, failure);
         }
         x.close_suite();
     }
@@ -341,12 +355,12 @@ pub fn junit(comparisons: &[Comparison]) -> String {
 }
 
 /// Both trajectories and their differences as CSV, one row per sample:
-/// `time_s,reference,output_fixed,output_f64,output_diff,command_fixed,command_f64,command_diff`.
+/// `t_s,reference,output_fixed,output_f64,output_diff,command_fixed,command_f64,command_diff`.
 #[must_use]
 pub fn trace_csv(c: &Comparison) -> String {
     let (a, b) = (&c.fixed, &c.float);
     let mut s = String::from(
-        "time_s,reference,output_fixed,output_f64,output_diff,command_fixed,command_f64,command_diff\n",
+        "t_s,reference,output_fixed,output_f64,output_diff,command_fixed,command_f64,command_diff\n",
     );
     for k in 0..a.time_s.len().min(b.time_s.len()) {
         let _ = writeln!(

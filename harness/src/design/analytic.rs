@@ -7,7 +7,7 @@ use super::margins::LinearPlant;
 use super::model::{corners, reference_rate};
 use super::tuning::{Fopdt, Pi, half_rule, pole_placement, simc};
 use super::{DesignError, Method, Proposal, Request, corner_margins, fixed_check};
-use crate::criteria::{Bound, MetricKey};
+use crate::criteria::{Bound, MetricKey, Scope};
 use crate::scenario::Scenario;
 use crate::sweep::Param;
 
@@ -27,7 +27,7 @@ pub(crate) fn round3(x: f64) -> f64 {
 pub(crate) fn criterion_max(s: &Scenario, metric: MetricKey) -> Option<f64> {
     s.criteria
         .iter()
-        .filter(|c| c.metric == metric && c.bound == Bound::Max)
+        .filter(|c| c.metric == metric && c.bound == Bound::Max && c.scope == Scope::Run)
         .map(|c| c.limit)
         .reduce(f64::min)
 }

@@ -92,7 +92,7 @@ pub fn json(s: &Scenario, t: &Tuned) -> Value {
                 .map(|c| {
                     let p = &v.points[c.binding];
                     j!({
-                        "name": c.criterion.metric.name(),
+                        "name": c.criterion.label(),
                         "bound": c.criterion.bound.name(),
                         "limit": c.criterion.limit,
                         "source": c.criterion.source,
@@ -251,7 +251,7 @@ pub fn junit(s: &Scenario, t: &Tuned) -> String {
             let p = &v.points[c.binding];
             let msg = format!(
                 "{}: worst {} (required {} {}), margin {:.3}, {} of {} variants fail; binding variant #{} ({}) {}",
-                c.criterion.metric.name(),
+                c.criterion.label(),
                 format_number(c.worst_value),
                 c.criterion.bound.symbol(),
                 format_number(Some(c.criterion.limit)),
@@ -263,7 +263,7 @@ pub fn junit(s: &Scenario, t: &Tuned) -> String {
                 point_label(s, &p.values)
             );
             cases.push((
-                format!("criterion {}", c.criterion.metric.name()),
+                format!("criterion {}", c.criterion.label()),
                 (c.worst_margin < 0.0).then(|| (msg.clone(), msg)),
             ));
         }
@@ -371,7 +371,7 @@ pub fn html(s: &Scenario, t: &Tuned, svg: Option<&str>) -> String {
             .map(|c| {
                 let pt = &v.points[c.binding];
                 vec![
-                    c.criterion.metric.name().to_owned(),
+                    c.criterion.label(),
                     format!(
                         "{} {}",
                         c.criterion.bound.symbol(),

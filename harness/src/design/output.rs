@@ -200,7 +200,7 @@ pub fn report(s: &Scenario, t: &Tuned) -> String {
             let _ = writeln!(
                 out,
                 "    {:<22} {:>12} {:>12} {:>9} {:>9}  #{} {} {}",
-                cm.criterion.metric.name(),
+                cm.criterion.label(),
                 format!("{} {}", cm.criterion.bound.symbol(), n(cm.criterion.limit)),
                 format_number(cm.worst_value),
                 m(cm.worst_margin),

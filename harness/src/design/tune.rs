@@ -408,7 +408,7 @@ pub fn trade_off(s: &Scenario, settings: &Settings, backend: BackendKind, seed: 
             v.margins
                 .iter()
                 .zip(&s.criteria)
-                .map(|(m, c)| (*m, c.metric.name().to_owned()))
+                .map(|(m, c)| (*m, c.label()))
                 .reduce(|a, b| if b.0 < a.0 { b } else { a })
                 .unwrap_or((f64::INFINITY, "none".into()))
         };

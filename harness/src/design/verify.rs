@@ -272,6 +272,7 @@ pub fn constraints(corners: &[CornerReport], spec: &DesignSpec) -> Vec<Constrain
     let mut add = |name, bound, limit: f64, pick: &dyn Fn(&CornerReport) -> f64| {
         let crit = Criterion {
             metric: crate::criteria::MetricKey::Iae, // only its bound and limit are used
+            scope: crate::criteria::Scope::Run,
             bound,
             limit,
             source: None,

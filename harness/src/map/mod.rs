@@ -191,7 +191,7 @@ pub fn robustness_map(
         criteria: s
             .criteria
             .iter()
-            .map(|c| c.metric.name().to_owned())
+            .map(crate::criteria::Criterion::label)
             .collect(),
         boundary,
         backend,

@@ -17,6 +17,11 @@
 //! the rest (an out-of-range reading, a spike) are drawn clipped at the
 //! edge with a triangle, and the legend says how many and how far.
 //!
+//! The worst value of each criterion that is one (peak command, slew,
+//! rate, jerk, overshoot, fault return jump and overshoot, the first
+//! limit violation, tracking errors) is marked where and when it
+//! occurred, labelled with the criterion, the value and the time.
+//!
 //! The sweep envelope ([`crate::sweep::plot_envelope`]) and the comparison
 //! ([`crate::compare::plot`]) are drawn with the same private parts:
 //!
@@ -39,9 +44,9 @@ mod series;
 
 pub(crate) use file::{Figure, render_svg, write_figure};
 pub(crate) use page::{
-    LabelledLine, LegendEntry, Mark, draw_clipped, draw_dashed_segments, draw_error, draw_grid,
-    draw_labelled_line, draw_legend_box, draw_limit_lines, draw_page, draw_side_legend, time_panel,
-    with_legend_column,
+    LabelledLine, LegendEntry, Mark, WorstMark, draw_clipped, draw_dashed_segments, draw_error,
+    draw_grid, draw_labelled_line, draw_legend_box, draw_limit_lines, draw_marks, draw_page,
+    draw_side_legend, time_panel, with_legend_column,
 };
 pub use run::{plot, plot_svg};
 pub(crate) use series::{

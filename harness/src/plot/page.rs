@@ -171,6 +171,8 @@ pub(crate) enum Mark {
     Lane,
     /// Text only, indented under the entry above.
     Text,
+    /// A ring (a worst value marked on the data).
+    Ring,
 }
 
 /// One entry of a side legend: label, colour, mark, and for a lane the
@@ -257,6 +259,9 @@ pub(crate) fn draw_side_legend<DB: DrawingBackend>(
                 ))
                 .map_err(draw_error)?,
             Mark::Text => {}
+            Mark::Ring => column
+                .draw(&Circle::new((16, row + 7), 5, e.colour.stroke_width(2)))
+                .map_err(draw_error)?,
         }
         column
             .draw_text(&e.label, &font, (34, row))
@@ -298,5 +303,38 @@ pub(crate) fn draw_clipped<DB: DrawingBackend>(
                 .map(|&p| TriangleMarker::new(p, 5, colour.filled())),
         )
         .map_err(draw_error)?;
+    Ok(())
+}
+
+/// A worst value to mark: time, value, label.
+pub(crate) type WorstMark = (f64, f64, String);
+
+/// Marks each worst value with a ring of `colour` and its label beside it
+/// (left of the ring in the right third of the panel, so it stays on the
+/// page); a value beyond the panel's `range` is marked at its edge.
+pub(crate) fn draw_marks<DB: DrawingBackend>(
+    panel: &mut TimePanel<'_, DB>,
+    t_end_s: f64,
+    range: &Range<f64>,
+    marks: &[WorstMark],
+    colour: RGBColor,
+) -> Result<(), PlotError> {
+    for (i, (t, v, label)) in marks.iter().enumerate() {
+        let font = (FONT, 14).into_font().color(&colour);
+        // Rough width of the label in pixels, to put it left of the ring.
+        #[allow(clippy::cast_possible_truncation, clippy::cast_possible_wrap)]
+        let width = (label.chars().count() * 7) as i32;
+        let dx = if *t > 0.66 * t_end_s { -width - 10 } else { 10 };
+        #[allow(clippy::cast_possible_truncation)]
+        let dy = -18 + 16 * (i as i32 % 2);
+        let v = v.clamp(range.start, range.end);
+        panel
+            .draw_series(std::iter::once(
+                EmptyElement::at((*t, v))
+                    + Circle::new((0, 0), 6, colour.stroke_width(2))
+                    + Text::new(label.clone(), (dx, dy), font),
+            ))
+            .map_err(draw_error)?;
+    }
     Ok(())
 }

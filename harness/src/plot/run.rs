@@ -7,10 +7,10 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::{
-    Figure, LegendEntry, Mark, PlotError, clamp_points, derivative_units, draw_clipped,
-    draw_dashed_segments, draw_grid, draw_labelled_line, draw_page, draw_side_legend, is_motion,
-    max_limit, mirrored, reduce, render_svg, robust_span, time_panel, with_legend_column,
-    write_figure,
+    Figure, LegendEntry, Mark, PlotError, WorstMark, clamp_points, derivative_units, draw_clipped,
+    draw_dashed_segments, draw_grid, draw_labelled_line, draw_marks, draw_page, draw_side_legend,
+    is_motion, max_limit, mirrored, reduce, render_svg, robust_span, time_panel,
+    with_legend_column, write_figure,
 };
 use crate::criteria::MetricKey;
 use crate::outcome::BackendRun;
@@ -51,6 +51,7 @@ const ORANGE: RGBColor = RGBColor(230, 120, 20);
 const GREEN: RGBColor = RGBColor(44, 160, 44);
 const GREY: RGBColor = RGBColor(150, 150, 150);
 const PURPLE: RGBColor = RGBColor(148, 103, 189);
+const MAGENTA: RGBColor = RGBColor(170, 0, 120);
 
 /// Dashed horizontal segments under one legend entry.
 struct Dashes {
@@ -68,6 +69,27 @@ struct Panel {
     range: Range<f64>,
     /// Lanes panel: names at heights, 0/1 lanes, y labels hidden.
     lanes: bool,
+    /// Worst values marked on this panel.
+    marks: Vec<WorstMark>,
+}
+
+/// The panel (0 output, 1 command, 2 rate, 3 change of rate) a metric's
+/// worst value is drawn on.
+fn panel_of(metric: MetricKey) -> Option<usize> {
+    match metric {
+        MetricKey::Overshoot
+        | MetricKey::FaultOvershoot
+        | MetricKey::TrackingErrorPeak
+        | MetricKey::RampTrackingErrorPeak
+        | MetricKey::DisturbancePeakDeviation => Some(0),
+        MetricKey::PeakCommand
+        | MetricKey::PeakSlew
+        | MetricKey::FaultReturnJump
+        | MetricKey::LimitViolations => Some(1),
+        MetricKey::PeakAccel => Some(2),
+        MetricKey::PeakJerk => Some(3),
+        _ => None,
+    }
 }
 
 /// Whether a lane is raised at sample `k`.
@@ -157,6 +179,7 @@ fn lanes_panel(scenario: &Scenario, run: &BackendRun) -> Panel {
         dashes: Vec::new(),
         range: -0.3..top,
         lanes: true,
+        marks: Vec::new(),
     }
 }
 
@@ -234,6 +257,7 @@ fn draw<DB: DrawingBackend>(
             ],
             dashes: marks,
             lanes: false,
+            marks: Vec::new(),
         },
         Panel {
             y_desc: format!("command ({})", scenario.command_unit),
@@ -244,6 +268,7 @@ fn draw<DB: DrawingBackend>(
             ],
             dashes: vec![limit("output limits", vec![u_lo, u_hi])],
             lanes: false,
+            marks: Vec::new(),
         },
         Panel {
             y_desc: format!("{rate_name} ({rate_unit})"),
@@ -251,6 +276,7 @@ fn draw<DB: DrawingBackend>(
             series: vec![(rate_name.into(), rec.accel.clone(), GREEN)],
             dashes: vec![limit("peak_accel limit (±)", accel_limits)],
             lanes: false,
+            marks: Vec::new(),
         },
         Panel {
             y_desc: format!("{jerk_name} ({jerk_unit})"),
@@ -258,9 +284,38 @@ fn draw<DB: DrawingBackend>(
             series: vec![(jerk_name.into(), jerk, GREEN)],
             dashes: vec![limit("peak_jerk limit (±)", jerk_limits)],
             lanes: false,
+            marks: Vec::new(),
         },
         lanes_panel(scenario, run),
     ];
+    for v in &run.verdicts {
+        let (Some(at), Some(measured), Some(p)) =
+            (v.at_s, v.measured, panel_of(v.criterion.metric))
+        else {
+            continue;
+        };
+        // Truncation is intended: the instant is a whole sample.
+        #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
+        let k = (at / rec.dt_s).round() as usize;
+        let signal: &[f64] = match p {
+            0 => &rec.output,
+            1 => &rec.command,
+            2 => &rec.accel,
+            _ => &rec.jerk(),
+        };
+        let Some(&y) = signal.get(k) else { continue };
+        let metric = v.criterion.metric;
+        let label = format!(
+            "{} {} {} at t = {} s",
+            v.criterion.label(),
+            format_number(Some(measured)),
+            metric.unit(unit, &scenario.command_unit),
+            format_number(Some(at))
+        );
+        if !panels[p].marks.iter().any(|m| m.2 == label) {
+            panels[p].marks.push((at, y, label));
+        }
+    }
 
     let verdict = if run.passed() { "PASS" } else { "FAIL" };
     let title = format!("{} — backend {} — {verdict}", scenario.name, run.backend);
@@ -324,6 +379,10 @@ fn draw<DB: DrawingBackend>(
             } else {
                 legend.push(LegendEntry::new(name, colour, Mark::Line));
             }
+        }
+        if !panel.marks.is_empty() {
+            draw_marks(&mut chart, t_end, &panel.range, &panel.marks, MAGENTA)?;
+            legend.push(LegendEntry::new("worst value", MAGENTA, Mark::Ring));
         }
         if !clipped_all.is_empty() {
             draw_clipped(&mut chart, &clipped_all, RED)?;

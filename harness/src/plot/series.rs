@@ -3,7 +3,7 @@
 
 use std::ops::Range;
 
-use crate::criteria::{Bound, MetricKey};
+use crate::criteria::{Bound, MetricKey, Scope};
 use crate::scenario::Scenario;
 
 /// Longest series drawn; longer ones are reduced to per-bucket min and max,
@@ -15,7 +15,7 @@ pub(crate) fn max_limit(scenario: &Scenario, metric: MetricKey) -> Option<f64> {
     scenario
         .criteria
         .iter()
-        .find(|c| c.metric == metric && c.bound == Bound::Max)
+        .find(|c| c.metric == metric && c.bound == Bound::Max && c.scope == Scope::Run)
         .map(|c| c.limit)
 }
 
@@ -27,11 +27,9 @@ pub(crate) fn mirrored(limit: Option<f64>) -> Vec<f64> {
 /// Units of the first and second time derivative of a signal in `unit`
 /// (`m/s` → `m/s²`, `m/s³`; otherwise `unit/s`, `unit/s²`).
 pub(crate) fn derivative_units(unit: &str) -> (String, String) {
-    match unit {
-        "m/s" => ("m/s²".to_owned(), "m/s³".to_owned()),
-        "rad/s" => ("rad/s²".to_owned(), "rad/s³".to_owned()),
-        u => (format!("{u}/s"), format!("{u}/s²")),
-    }
+    let rate = crate::criteria::per_second(unit);
+    let change = crate::criteria::per_second(&rate);
+    (rate, change)
 }
 
 /// `(t, x)` reduced to at most about `MAX_POINTS` points, keeping each

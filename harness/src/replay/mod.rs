@@ -402,8 +402,7 @@ pub fn synthesize<B: Raw>(s: &crate::Scenario) -> Result<String, String> {
     let _ = writeln!(out, "{MARKER} engage k=0 v={}", u0.raw());
     let env = crate::plant::Environment::default();
     for k in 0..n {
-        #[allow(clippy::cast_precision_loss)]
-        let t = k as f64 * ts;
+        let t = crate::metrics::sample_time_s(usize::try_from(k).unwrap_or(usize::MAX), ts);
         let y_true = plant.output();
         let y = sensor.as_mut().map_or(y_true, |m| m.measure(y_true));
         let input = Input::new(B::from_f64(s.setup.reference.at(t)), B::from_f64(y));

@@ -5,10 +5,26 @@ use std::io::Write;
 use crate::sim::Recording;
 
 /// CSV with a header line: `t_s, reference, measurement, output, command,
-/// applied, accel, jerk, status`, then one column per plant state (units
-/// in the names), then `fault` (1 while an injected fault is active) and
-/// `monitor` (the loop monitor's flags). `status` and `monitor` list flags
-/// joined by `|` (`-` when none), so no field needs quoting.
+/// applied, accel, jerk, status`, then one column per plant state named
+/// `plant_STATE` (units in the names, so every header is unique), then
+/// `fault` (1 while an injected fault is active) and `monitor` (the loop
+/// monitor's flags). `status` and `monitor` list flags joined by `|` (`-`
+/// when none), so no field needs quoting. Numbers are printed shortest
+/// round-trip (Rust's `{}` for `f64`), times as computed by
+/// [`crate::metrics::sample_time_s`].
+///
+/// ```
+/// use evenkeel_harness::{report::trace_csv, Scenario};
+/// let run = Scenario::demo()?.run::<f64>()?;
+/// let csv = trace_csv(&run.recording);
+/// let header: Vec<&str> = csv.lines().next().unwrap_or("").split(',').collect();
+/// let mut unique = header.clone();
+/// unique.sort_unstable();
+/// unique.dedup();
+/// assert_eq!(unique.len(), header.len());
+/// assert!(header.contains(&"plant_speed_m_s"));
+/// # Ok::<(), Box<dyn std::error::Error>>(())
+/// ```
 #[must_use]
 pub fn trace_csv(rec: &Recording) -> String {
     let mut out = Vec::with_capacity(rec.time_s.len() * 120);
@@ -25,7 +41,7 @@ pub fn trace_csv(rec: &Recording) -> String {
 pub fn write_trace_csv(rec: &Recording, out: &mut dyn Write) -> std::io::Result<()> {
     out.write_all(b"t_s,reference,measurement,output,command,applied,accel,jerk,status")?;
     for (name, _) in &rec.states {
-        write!(out, ",{name}")?;
+        write!(out, ",plant_{name}")?;
     }
     out.write_all(b",fault,monitor\n")?;
     let mut last_accel = rec.accel.first().copied().unwrap_or(0.0);

@@ -29,7 +29,13 @@ pub fn xml_escape(s: &str) -> String {
     out
 }
 
-/// The JUnit XML document for `outcomes`.
+/// The JUnit XML document for `outcomes`: one suite per scenario and
+/// backend, one test case per criterion named by the criterion alone
+/// (`rise_time_s max`, no limit in the name, so a CI history survives a
+/// changed limit). Each case carries the properties `metric`, `bound`,
+/// `limit`, `measured` (or `undefined`, the reason's key), `unit`,
+/// `at_s` (when the worst value occurred, if it is one) and `source` (when
+/// the scenario gives one); numbers shortest round-trip.
 #[must_use]
 pub fn junit(outcomes: &[Outcome]) -> String {
     let runs = outcomes.iter().flat_map(|o| o.runs.iter());
@@ -39,33 +45,58 @@ pub fn junit(outcomes: &[Outcome]) -> String {
         .sum();
     let mut x = JunitXml::new("evenkeel check", tests, failures);
     for o in outcomes {
-        let name = &o.scenario.name;
+        let s = &o.scenario;
+        let name = &s.name;
         for r in &o.runs {
             let failed = r.verdicts.iter().filter(|v| !v.pass).count();
             x.open_suite(
                 &format!("{name} [{}]", r.backend),
                 r.verdicts.len(),
                 failed,
-                Some(&o.scenario.source),
+                Some(&s.source),
             );
             let class = format!("{name}.{}", r.backend);
             for v in &r.verdicts {
                 let c = &v.criterion;
+                let unit = c.metric.unit(&s.output_unit, &s.command_unit);
                 let limit = format!("{} {}", c.bound.symbol(), format_number(Some(c.limit)));
                 let why = v
                     .undefined
                     .map_or_else(String::new, |u| format!(" ({})", u.reason()));
-                let msg = format!(
-                    "{} measured {}{why}, required {limit}",
-                    c.metric.name(),
-                    format_number(v.measured)
+                let at = v
+                    .at_s
+                    .map_or_else(String::new, |t| format!(" at t = {t} s"));
+                let measured = v.measured.map_or_else(
+                    || "undefined".to_owned(),
+                    |m| format!("{} {unit}", format_number(Some(m))),
                 );
-                let name = format!("{} {limit}", c.metric.name());
+                let msg = format!(
+                    "{} measured {measured}{at}{why}, required {limit} {unit}",
+                    c.label()
+                );
+                let mut props = vec![
+                    ("metric", c.metric.name().to_owned()),
+                    ("bound", c.bound.name().to_owned()),
+                    ("limit", c.limit.to_string()),
+                ];
+                match (v.measured, v.undefined) {
+                    (Some(m), _) => props.push(("measured", m.to_string())),
+                    (None, Some(u)) => props.push(("undefined", u.key().to_owned())),
+                    (None, None) => {}
+                }
+                props.push(("unit", unit.clone()));
+                if let Some(t) = v.at_s {
+                    props.push(("at_s", t.to_string()));
+                }
+                if let Some(source) = &c.source {
+                    props.push(("source", source.clone()));
+                }
+                let case = format!("{} {}", c.label(), c.bound.name());
                 if v.pass && v.undefined.is_some() {
-                    x.skipped(&class, &name, &msg);
+                    x.skipped_with(&class, &case, &props, &msg);
                 } else {
                     let failure = (!v.pass).then(|| Failure::new("criterion", &msg));
-                    x.case(&class, &name, failure);
+                    x.case_with(&class, &case, &props, failure);
                 }
             }
             x.close_suite();
@@ -140,33 +171,77 @@ impl JunitXml {
 
     /// One test case, passed when `failure` is `None`.
     pub(crate) fn case(&mut self, class: &str, name: &str, failure: Option<Failure<'_>>) {
+        self.case_with(class, name, &[], failure);
+    }
+
+    /// One test case with its own properties (`name`, `value` pairs).
+    pub(crate) fn case_with(
+        &mut self,
+        class: &str,
+        name: &str,
+        properties: &[(&str, String)],
+        failure: Option<Failure<'_>>,
+    ) {
         let _ = write!(
             self.0,
             "    <testcase classname=\"{}\" name=\"{}\"",
             xml_escape(class),
             xml_escape(name)
         );
-        match failure {
-            None => self.0.push_str("/>\n"),
-            Some(f) => {
-                let _ = writeln!(
-                    self.0,
-                    ">\n      <failure message=\"{}\" type=\"{}\">{}</failure>\n    </testcase>",
-                    xml_escape(f.message),
-                    xml_escape(f.kind),
-                    xml_escape(f.text)
-                );
-            }
+        if properties.is_empty() && failure.is_none() {
+            self.0.push_str("/>\n");
+            return;
         }
+        self.0.push_str(">\n");
+        self.properties(properties);
+        if let Some(f) = failure {
+            let _ = writeln!(
+                self.0,
+                "      <failure message=\"{}\" type=\"{}\">{}</failure>",
+                xml_escape(f.message),
+                xml_escape(f.kind),
+                xml_escape(f.text)
+            );
+        }
+        self.0.push_str("    </testcase>\n");
     }
 
-    /// A test case that does not apply to the run (passes), with why.
-    pub(crate) fn skipped(&mut self, class: &str, name: &str, message: &str) {
+    /// The `<properties>` of a test case, if any.
+    fn properties(&mut self, properties: &[(&str, String)]) {
+        if properties.is_empty() {
+            return;
+        }
+        self.0.push_str("      <properties>\n");
+        for (name, value) in properties {
+            let _ = writeln!(
+                self.0,
+                "        <property name=\"{}\" value=\"{}\"/>",
+                xml_escape(name),
+                xml_escape(value)
+            );
+        }
+        self.0.push_str("      </properties>\n");
+    }
+
+    /// A test case that does not apply to the run (passes), with why and
+    /// the case's properties.
+    pub(crate) fn skipped_with(
+        &mut self,
+        class: &str,
+        name: &str,
+        properties: &[(&str, String)],
+        message: &str,
+    ) {
         let _ = writeln!(
             self.0,
-            "    <testcase classname=\"{}\" name=\"{}\">\n      <skipped message=\"{}\"/>\n    </testcase>",
+            "    <testcase classname=\"{}\" name=\"{}\">",
             xml_escape(class),
-            xml_escape(name),
+            xml_escape(name)
+        );
+        self.properties(properties);
+        let _ = writeln!(
+            self.0,
+            "      <skipped message=\"{}\"/>\n    </testcase>",
             xml_escape(message)
         );
     }

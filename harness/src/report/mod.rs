@@ -19,7 +19,7 @@ pub use json::json;
 pub(crate) use junit::{Failure, JunitXml};
 pub use junit::{junit, xml_escape};
 pub use pages::{check_html, compare_html, sweep_html};
-pub use table::{format_number, table};
+pub use table::{SIGNIFICANT_DIGITS, format_number, summary, table};
 
 #[cfg(doc)]
 use crate::outcome::Outcome;

@@ -56,10 +56,16 @@ pub fn check_html(outcomes: &[Outcome], plots: &[Vec<Option<String>>]) -> String
                 .iter()
                 .map(|v| {
                     let c = &v.criterion;
+                    let unit = c.metric.unit(&s.output_unit, &s.command_unit);
                     vec![
-                        c.metric.name().to_owned(),
-                        format!("{} {}", c.bound.symbol(), format_number(Some(c.limit))),
+                        c.label(),
+                        format!(
+                            "{} {} {unit}",
+                            c.bound.symbol(),
+                            format_number(Some(c.limit))
+                        ),
                         format_number(v.measured),
+                        v.at_s.map_or_else(String::new, |t| format_number(Some(t))),
                         verdict_cell(v.pass),
                         v.undefined
                             .map_or_else(String::new, |u| u.reason().to_owned()),
@@ -72,6 +78,7 @@ pub fn check_html(outcomes: &[Outcome], plots: &[Vec<Option<String>>]) -> String
                     "criterion",
                     "limit",
                     "measured",
+                    "at (s)",
                     "verdict",
                     "undefined because",
                     "source",

@@ -5,10 +5,12 @@ use std::ops::Range;
 use evenkeel::{AntiWindup, Settings};
 
 use super::error::{ScenarioError, Source};
-use super::schema::{Int, Num, RawCompare, RawController, RawPlant, RawProfile, RawScenario, Text};
+use super::schema::{
+    Int, Num, RawCompare, RawController, RawLimit, RawPlant, RawProfile, RawScenario, Text,
+};
 use super::{ActuatorSpec, MetricSettings, PlantModel, Scenario};
 use crate::compare::CompareSpec;
-use crate::criteria::{Bound, Criterion, MetricKey};
+use crate::criteria::{Bound, Criterion, MetricKey, Scope};
 use crate::plant::{RotorParams, SensorParams, VehicleParams};
 use crate::profile::{Profile, Segment};
 use crate::sim::{Disturbances, LoadShift, Override, Setup};
@@ -345,45 +347,94 @@ impl Check<'_> {
                     "finite and > 0 s",
                     |x| x > 0.0,
                 )?,
+                disturbance_band: m
+                    .disturbance_band
+                    .as_ref()
+                    .map(|b| {
+                        self.num(
+                            b,
+                            "metrics.disturbance_band",
+                            "finite and > 0 (measurement units)",
+                            |x| x > 0.0,
+                        )
+                    })
+                    .transpose()?,
             },
         };
 
         let mut criteria = Vec::new();
-        for (name, limit) in raw.criteria.entries() {
-            let Some(limit) = limit else { continue };
-            let metric = MetricKey::from_name(name)
-                .ok_or_else(|| self.fail(limit.span(), name, "is not a metric".into()))?;
-            let l = limit.get_ref();
-            let source = l.source.as_ref().map(|s| s.get_ref().clone());
-            let key = format!("criteria.{name}");
-            let mut bounds = Vec::new();
-            if let Some(max) = &l.max {
-                bounds.push((Bound::Max, self.finite(max, &format!("{key}.max"))?));
+        self.limits(
+            &raw.criteria.entries(),
+            "criteria",
+            Scope::Run,
+            &mut criteria,
+        )?;
+        let pieces: Vec<_> = reference.pieces().collect();
+        for (i, seg) in raw.criteria.segment.iter().enumerate() {
+            let key = format!("criteria.segment[{i}]");
+            let count = i64::try_from(pieces.len()).unwrap_or(i64::MAX);
+            if count == 0 {
+                return Err(self.fail(
+                    seg.index.span(),
+                    &format!("{key}.index"),
+                    "the reference has no segments to judge".into(),
+                ));
             }
-            if let Some(min) = &l.min {
-                let lo = self.finite(min, &format!("{key}.min"))?;
-                if let Some((_, hi)) = bounds.first()
-                    && lo > *hi
-                {
-                    return Err(self.fail(
-                        min.span(),
-                        &format!("{key}.min"),
-                        format!("{lo} is not allowed: must be <= {key}.max = {hi}"),
-                    ));
-                }
-                bounds.push((Bound::Min, lo));
+            let index = self.int(&seg.index, &format!("{key}.index"), 0, count - 1)?;
+            let index = usize::try_from(index).unwrap_or(0);
+            let p = &pieces[index];
+            if p.to == p.from {
+                return Err(self.fail(
+                    seg.index.span(),
+                    &format!("{key}.index"),
+                    format!(
+                        "reference.segments[{index}] does not change the reference (it holds {}): a segment judged on its own must be a step or a ramp",
+                        p.from
+                    ),
+                ));
             }
-            if bounds.is_empty() {
-                return Err(self.fail(limit.span(), &key, "needs `max`, `min` or both".into()));
+            if p.start_s >= duration_s {
+                return Err(self.fail(
+                    seg.index.span(),
+                    &format!("{key}.index"),
+                    format!("reference.segments[{index}] starts at {} s, at or after the end of the run", p.start_s),
+                ));
             }
-            for (bound, value) in bounds {
-                criteria.push(Criterion {
-                    metric,
-                    bound,
-                    limit: value,
-                    source: source.clone(),
-                });
-            }
+            self.limits(&seg.entries(), &key, Scope::Segment(index), &mut criteria)?;
+        }
+        for (i, w) in raw.criteria.window.iter().enumerate() {
+            let key = format!("criteria.window[{i}]");
+            let start_s = self.num(
+                &w.start_s,
+                &format!("{key}.start_s"),
+                "finite and >= 0 s, before scenario.duration_s",
+                |x| x >= 0.0 && x < duration_s,
+            )?;
+            let end_s = self.num(
+                &w.end_s,
+                &format!("{key}.end_s"),
+                &format!("finite and > start_s = {start_s} s"),
+                |x| x > start_s,
+            )?;
+            let band = w
+                .band
+                .as_ref()
+                .map(|b| {
+                    self.num(
+                        b,
+                        &format!("{key}.band"),
+                        "finite and > 0 (measurement units)",
+                        |x| x > 0.0,
+                    )
+                })
+                .transpose()?;
+            let scope = Scope::Window {
+                index: i,
+                start_s,
+                end_s,
+                band,
+            };
+            self.limits(&w.entries(), &key, scope, &mut criteria)?;
         }
         if criteria.is_empty() {
             return Err(self.src.error(
@@ -446,6 +497,71 @@ impl Check<'_> {
             &scenario,
         )?;
         Ok(scenario)
+    }
+
+    /// The limits of one criteria table, judged on `scope`, appended to
+    /// `criteria`; `table` names it in errors (`criteria`,
+    /// `criteria.segment[0]`).
+    fn limits(
+        &self,
+        entries: &[(&'static str, Option<&Spanned<RawLimit>>)],
+        table: &str,
+        scope: Scope,
+        criteria: &mut Vec<Criterion>,
+    ) -> Res<()> {
+        let before = criteria.len();
+        for &(name, limit) in entries {
+            let Some(limit) = limit else { continue };
+            let metric = MetricKey::from_name(name)
+                .ok_or_else(|| self.fail(limit.span(), name, "is not a metric".into()))?;
+            let key = format!("{table}.{name}");
+            if scope != Scope::Run && metric.is_fault_check() {
+                return Err(self.fail(
+                    limit.span(),
+                    &key,
+                    "is a fault check, which judges the whole run: put it in [criteria]".into(),
+                ));
+            }
+            let l = limit.get_ref();
+            let source = l.source.as_ref().map(|s| s.get_ref().clone());
+            let mut bounds = Vec::new();
+            if let Some(max) = &l.max {
+                bounds.push((Bound::Max, self.finite(max, &format!("{key}.max"))?));
+            }
+            if let Some(min) = &l.min {
+                let lo = self.finite(min, &format!("{key}.min"))?;
+                if let Some((_, hi)) = bounds.first()
+                    && lo > *hi
+                {
+                    return Err(self.fail(
+                        min.span(),
+                        &format!("{key}.min"),
+                        format!("{lo} is not allowed: must be <= {key}.max = {hi}"),
+                    ));
+                }
+                bounds.push((Bound::Min, lo));
+            }
+            if bounds.is_empty() {
+                return Err(self.fail(limit.span(), &key, "needs `max`, `min` or both".into()));
+            }
+            for (bound, value) in bounds {
+                criteria.push(Criterion {
+                    metric,
+                    scope,
+                    bound,
+                    limit: value,
+                    source: source.clone(),
+                });
+            }
+        }
+        if scope != Scope::Run && criteria.len() == before {
+            return Err(self.src.error(
+                None,
+                Some(table.to_owned()),
+                "names no criterion: give at least one metric limit (e.g. settling_time_s = { max = 3.0 })",
+            ));
+        }
+        Ok(())
     }
 
     /// Refuses what the run never reaches: a profile segment, a fault or

@@ -105,6 +105,9 @@ pub struct MetricSettings {
     pub settling_band: f64,
     /// Window at the end for the steady-state error, s. Default 1.
     pub steady_window_s: f64,
+    /// Error band of `disturbance_recovery_s`, measurement units; `None`:
+    /// `settling_band` times the first reference step.
+    pub disturbance_band: Option<f64>,
 }
 
 impl Default for MetricSettings {
@@ -112,6 +115,7 @@ impl Default for MetricSettings {
         Self {
             settling_band: 0.02,
             steady_window_s: 1.0,
+            disturbance_band: None,
         }
     }
 }

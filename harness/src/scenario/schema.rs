@@ -162,6 +162,7 @@ pub(crate) struct RawLoadShift {
 pub(crate) struct RawMetricOptions {
     pub settling_band: Option<Num>,
     pub steady_window_s: Option<Num>,
+    pub disturbance_band: Option<Num>,
 }
 
 /// One limit; `max`, `min` or both.
@@ -173,54 +174,102 @@ pub(crate) struct RawLimit {
     pub source: Option<Text>,
 }
 
-/// One optional limit per metric key (the keys of `Metrics`).
-#[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub(crate) struct RawCriteria {
-    pub rise_time_s: Option<Spanned<RawLimit>>,
-    pub settling_time_s: Option<Spanned<RawLimit>>,
-    pub overshoot_pct: Option<Spanned<RawLimit>>,
-    pub steady_state_error: Option<Spanned<RawLimit>>,
-    pub iae: Option<Spanned<RawLimit>>,
-    pub ise: Option<Spanned<RawLimit>>,
-    pub peak_command: Option<Spanned<RawLimit>>,
-    pub command_total_variation: Option<Spanned<RawLimit>>,
-    pub peak_slew_per_s: Option<Spanned<RawLimit>>,
-    pub peak_accel: Option<Spanned<RawLimit>>,
-    pub peak_jerk: Option<Spanned<RawLimit>>,
-    pub time_saturated_s: Option<Spanned<RawLimit>>,
-    pub limit_violations: Option<Spanned<RawLimit>>,
-    pub fault_flag_errors: Option<Spanned<RawLimit>>,
-    pub fault_recovery_s: Option<Spanned<RawLimit>>,
-    pub fault_return_jump: Option<Spanned<RawLimit>>,
-    pub fault_overshoot: Option<Spanned<RawLimit>>,
+/// A table of one optional limit per metric key (the keys of `Metrics`),
+/// with `extra` fields of its own; `entries` lists the limits in report
+/// order.
+macro_rules! criteria_table {
+    ($(#[$doc:meta])* $name:ident { $($(#[$m:meta])* $extra:ident : $ty:ty),* $(,)? }) => {
+        $(#[$doc])*
+        #[derive(Debug, Deserialize)]
+        #[serde(deny_unknown_fields)]
+        pub(crate) struct $name {
+            $($(#[$m])* pub $extra: $ty,)*
+            pub rise_time_s: Option<Spanned<RawLimit>>,
+            pub settling_time_s: Option<Spanned<RawLimit>>,
+            pub overshoot_pct: Option<Spanned<RawLimit>>,
+            pub steady_state_error: Option<Spanned<RawLimit>>,
+            pub iae: Option<Spanned<RawLimit>>,
+            pub ise: Option<Spanned<RawLimit>>,
+            pub tracking_error_peak: Option<Spanned<RawLimit>>,
+            pub tracking_error_rms: Option<Spanned<RawLimit>>,
+            pub ramp_tracking_error_peak: Option<Spanned<RawLimit>>,
+            pub peak_command: Option<Spanned<RawLimit>>,
+            pub command_total_variation: Option<Spanned<RawLimit>>,
+            pub peak_slew_per_s: Option<Spanned<RawLimit>>,
+            pub peak_accel: Option<Spanned<RawLimit>>,
+            pub peak_jerk: Option<Spanned<RawLimit>>,
+            pub time_saturated_s: Option<Spanned<RawLimit>>,
+            pub disturbance_peak_deviation: Option<Spanned<RawLimit>>,
+            pub disturbance_recovery_s: Option<Spanned<RawLimit>>,
+            pub limit_violations: Option<Spanned<RawLimit>>,
+            pub fault_flag_errors: Option<Spanned<RawLimit>>,
+            pub fault_recovery_s: Option<Spanned<RawLimit>>,
+            pub fault_return_jump: Option<Spanned<RawLimit>>,
+            pub fault_overshoot: Option<Spanned<RawLimit>>,
+        }
+
+        impl $name {
+            /// `(key, limit)` in report order.
+            pub fn entries(&self) -> [(&'static str, Option<&Spanned<RawLimit>>); 22] {
+                [
+                    ("rise_time_s", self.rise_time_s.as_ref()),
+                    ("settling_time_s", self.settling_time_s.as_ref()),
+                    ("overshoot_pct", self.overshoot_pct.as_ref()),
+                    ("steady_state_error", self.steady_state_error.as_ref()),
+                    ("iae", self.iae.as_ref()),
+                    ("ise", self.ise.as_ref()),
+                    ("tracking_error_peak", self.tracking_error_peak.as_ref()),
+                    ("tracking_error_rms", self.tracking_error_rms.as_ref()),
+                    ("ramp_tracking_error_peak", self.ramp_tracking_error_peak.as_ref()),
+                    ("peak_command", self.peak_command.as_ref()),
+                    ("command_total_variation", self.command_total_variation.as_ref()),
+                    ("peak_slew_per_s", self.peak_slew_per_s.as_ref()),
+                    ("peak_accel", self.peak_accel.as_ref()),
+                    ("peak_jerk", self.peak_jerk.as_ref()),
+                    ("time_saturated_s", self.time_saturated_s.as_ref()),
+                    ("disturbance_peak_deviation", self.disturbance_peak_deviation.as_ref()),
+                    ("disturbance_recovery_s", self.disturbance_recovery_s.as_ref()),
+                    ("limit_violations", self.limit_violations.as_ref()),
+                    ("fault_flag_errors", self.fault_flag_errors.as_ref()),
+                    ("fault_recovery_s", self.fault_recovery_s.as_ref()),
+                    ("fault_return_jump", self.fault_return_jump.as_ref()),
+                    ("fault_overshoot", self.fault_overshoot.as_ref()),
+                ]
+            }
+        }
+    };
 }
 
-impl RawCriteria {
-    /// `(key, limit)` in report order.
-    pub fn entries(&self) -> [(&'static str, Option<&Spanned<RawLimit>>); 17] {
-        [
-            ("rise_time_s", self.rise_time_s.as_ref()),
-            ("settling_time_s", self.settling_time_s.as_ref()),
-            ("overshoot_pct", self.overshoot_pct.as_ref()),
-            ("steady_state_error", self.steady_state_error.as_ref()),
-            ("iae", self.iae.as_ref()),
-            ("ise", self.ise.as_ref()),
-            ("peak_command", self.peak_command.as_ref()),
-            (
-                "command_total_variation",
-                self.command_total_variation.as_ref(),
-            ),
-            ("peak_slew_per_s", self.peak_slew_per_s.as_ref()),
-            ("peak_accel", self.peak_accel.as_ref()),
-            ("peak_jerk", self.peak_jerk.as_ref()),
-            ("time_saturated_s", self.time_saturated_s.as_ref()),
-            ("limit_violations", self.limit_violations.as_ref()),
-            ("fault_flag_errors", self.fault_flag_errors.as_ref()),
-            ("fault_recovery_s", self.fault_recovery_s.as_ref()),
-            ("fault_return_jump", self.fault_return_jump.as_ref()),
-            ("fault_overshoot", self.fault_overshoot.as_ref()),
-        ]
+criteria_table! {
+    /// `[criteria]`: limits over the whole run, then the segments and
+    /// windows judged on their own.
+    RawCriteria {
+        /// `[[criteria.segment]]`
+        #[serde(default)]
+        segment: Vec<RawSegmentCriteria>,
+        /// `[[criteria.window]]`
+        #[serde(default)]
+        window: Vec<RawWindowCriteria>,
+    }
+}
+
+criteria_table! {
+    /// `[[criteria.segment]]`: limits on reference segment `index` alone.
+    RawSegmentCriteria {
+        /// 0-based, as `reference.segments[index]`.
+        index: Int,
+    }
+}
+
+criteria_table! {
+    /// `[[criteria.window]]`: limits on the time window `[start_s, end_s)`.
+    RawWindowCriteria {
+        /// Start, s.
+        start_s: Num,
+        /// End, s.
+        end_s: Num,
+        /// Error band of `disturbance_recovery_s`, measurement units.
+        band: Option<Num>,
     }
 }
 

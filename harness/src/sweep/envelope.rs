@@ -59,8 +59,9 @@ impl Envelope {
         let n = samples_of(scenario);
         let bucket = n.div_ceil(ENVELOPE_BUCKETS).max(1);
         let buckets = n.div_ceil(bucket);
-        #[allow(clippy::cast_precision_loss)]
-        let t: Vec<f64> = (0..n).map(|k| k as f64 * ts).collect();
+        let t: Vec<f64> = (0..n)
+            .map(|k| crate::metrics::sample_time_s(k, ts))
+            .collect();
         let r: Vec<f64> = t.iter().map(|&t| scenario.setup.reference.at(t)).collect();
         let band = || {
             [

@@ -304,19 +304,39 @@ pub fn junit_of(h: &SweepHeader, t: &Tally) -> String {
     for (k, c) in summary.criteria.iter().enumerate() {
         let r = &c.criterion;
         let symbol = if r.bound == "min" { ">=" } else { "<=" };
-        let name = format!("{} {symbol} {}", r.metric, format_number(Some(r.limit)));
+        let required = format!("{} {symbol} {}", r.metric, format_number(Some(r.limit)));
         let who = worst_of(t, k).map_or_else(String::new, |v| {
             format!(" at variant #{} ({})", v.index, params_text(&h.params, v))
         });
         let msg = format!(
-            "{} of {} variants met {name}; worst {}{who}",
+            "{} of {} variants met {required}; worst {}{who}",
             c.passed,
             c.total,
             worst_text(c)
         );
         let passed = c.total > 0 && c.passed == c.total;
         let failure = (!passed).then(|| Failure::new("criterion", &msg));
-        x.case(&class, &name, failure);
+        let mut props = vec![
+            ("metric", r.metric.clone()),
+            ("bound", r.bound.clone()),
+            ("limit", r.limit.to_string()),
+            ("pass_fraction", c.pass_fraction().to_string()),
+        ];
+        if let Some(w) = c.worst.filter(|w| w.is_finite()) {
+            props.push(("worst", w.to_string()));
+        }
+        if let Some(v) = worst_of(t, k) {
+            props.push(("worst_variant", v.index.to_string()));
+        }
+        if let Some(source) = &r.source {
+            props.push(("source", source.clone()));
+        }
+        x.case_with(
+            &class,
+            &format!("{} {}", r.metric, r.bound),
+            &props,
+            failure,
+        );
     }
     x.close_suite();
     x.finish()

@@ -106,7 +106,7 @@ pub fn criteria_records(scenario: &Scenario) -> Vec<CriterionRecord> {
         .criteria
         .iter()
         .map(|c| CriterionRecord {
-            metric: c.metric.name().to_owned(),
+            metric: c.label(),
             bound: c.bound.name().to_owned(),
             limit: c.limit,
             source: c.source.clone(),

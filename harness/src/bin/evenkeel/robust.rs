@@ -120,8 +120,8 @@ impl ReportArgs {
     fn plan_worst(&self, out: &mut Outputs, scenario: &Scenario) -> anyhow::Result<()> {
         if let Some(dir) = &self.worst_dir {
             for c in &scenario.criteria {
-                let file = worst_file(dir, &scenario.name, c.metric.name(), c.bound.name());
-                out.derived(&format!("--worst-dir for {}", c.metric.name()), &file)?;
+                let file = worst_file(dir, &scenario.name, &c.label(), c.bound.name());
+                out.derived(&format!("--worst-dir for {}", c.label()), &file)?;
             }
         }
         Ok(())
@@ -133,8 +133,9 @@ impl ReportArgs {
 fn worst_file(dir: &Path, scenario: &str, metric: &str, bound: &str) -> PathBuf {
     let suffix = if bound == "min" { "-min" } else { "" };
     dir.join(format!(
-        "{}-worst-{metric}{suffix}.toml",
-        safe_stem(scenario)
+        "{}-worst-{}{suffix}.toml",
+        safe_stem(scenario),
+        safe_stem(metric)
     ))
 }
 
