@@ -29,7 +29,7 @@ const METRIC_KEYS: [&str; 17] = [
 fn demos_pass_on_all_backends_with_every_report() {
     let dir = tempfile::tempdir().unwrap();
     let files = demos();
-    assert_eq!(files.len(), 3, "{files:?}");
+    assert_eq!(files.len(), 4, "{files:?}");
     let out = evenkeel_on(
         dir.path(),
         "check",
@@ -41,7 +41,7 @@ fn demos_pass_on_all_backends_with_every_report() {
     let stdout = text(&out.stdout);
     assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));
-    assert_eq!(stdout.matches("PASS").count(), 9, "{stdout}");
+    assert_eq!(stdout.matches("PASS").count(), 16, "{stdout}");
 
     // JSON: parses, every run passes, metrics have exactly the keys.
     let json: serde_json::Value =
@@ -49,7 +49,7 @@ fn demos_pass_on_all_backends_with_every_report() {
     assert_eq!(json["caution"], CAUTION);
     assert_eq!(json["passed"], true);
     let scenarios = json["scenarios"].as_array().unwrap();
-    assert_eq!(scenarios.len(), 3);
+    assert_eq!(scenarios.len(), 4);
     let mut criteria = 0;
     for s in scenarios {
         let runs = s["runs"].as_array().unwrap();
@@ -57,7 +57,7 @@ fn demos_pass_on_all_backends_with_every_report() {
             .iter()
             .map(|r| r["backend"].as_str().unwrap())
             .collect();
-        assert_eq!(backends, ["fixed", "f32", "f64"]);
+        assert_eq!(backends, ["fixed", "slim16", "f32", "f64"]);
         for r in runs {
             let metrics = r["metrics"].as_object().unwrap();
             let mut keys: Vec<&str> = metrics.keys().map(String::as_str).collect();
@@ -93,8 +93,13 @@ fn demos_pass_on_all_backends_with_every_report() {
     assert!(xml.contains(CAUTION));
 
     // One CSV and one plot per scenario and backend.
-    for name in ["baggage-tug", "greenhouse-fan", "irrigation-pump"] {
-        for backend in ["fixed", "f32", "f64"] {
+    for name in [
+        "baggage-tug",
+        "chiller-pump",
+        "greenhouse-fan",
+        "irrigation-pump",
+    ] {
+        for backend in ["fixed", "slim16", "f32", "f64"] {
             let csv = std::fs::read_to_string(dir.path().join(format!("t-{name}-{backend}.csv")))
                 .unwrap();
             let header = csv.lines().next().unwrap();
@@ -116,7 +121,7 @@ fn demos_pass_on_all_backends_with_every_report() {
         }
     }
     // Nothing but the reports (no temporary files left behind).
-    assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 2 + 9 + 9);
+    assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 2 + 16 + 16);
 }
 
 #[test]
