@@ -7,7 +7,7 @@
 use std::hint::black_box;
 
 use criterion::{BatchSize, Criterion, criterion_group, criterion_main};
-use evenkeel::{AntiWindup, Backend, Config, Controller, Input, Settings};
+use evenkeel::{AntiWindup, Backend, Config, Controller, Input, Scaling, Settings, Slim16};
 use fixed::types::I16F16;
 
 /// Kp, Ki and limits only; conditional integration.
@@ -121,8 +121,54 @@ fn bench_layout(c: &mut Criterion) {
     });
 }
 
+/// The 16-bit backend on the same loops, on power-of-two scales that
+/// cover them (`Scaling::covering`: 2048 raw per measurement unit, 8 per
+/// command unit), inputs converted to raw units as a firmware's would be.
+fn bench_slim16(c: &mut Criterion) {
+    let scaling = Scaling::covering(0.0, 8.0, -800.0, 1200.0);
+    let m = scaling.measurement;
+    let u = scaling.command;
+    let full_inputs: Vec<Input<Slim16>> = inputs::<f64>()
+        .iter()
+        .map(|i| {
+            Input::new(
+                Slim16::from_f64(m.raw(i.setpoint)),
+                Slim16::from_f64(m.raw(i.measurement)),
+            )
+            .with_feed_forward(Slim16::from_f64(u.raw_span(i.feed_forward)))
+            .with_applied(Slim16::ZERO)
+        })
+        .collect();
+    let minimal_inputs: Vec<Input<Slim16>> = full_inputs
+        .iter()
+        .map(|i| Input::new(i.setpoint, i.measurement))
+        .collect();
+    for (label, settings, inputs) in [
+        ("minimal", MINIMAL, &minimal_inputs),
+        ("full", FULL, &full_inputs),
+    ] {
+        let settings = settings
+            .with_scaling(scaling)
+            .with_measurement_range(-16.0, 15.99);
+        let config = Config::<Slim16>::try_new(&settings).expect("valid bench settings");
+        let mut pi = Controller::new(config);
+        let mut k = 0usize;
+        c.bench_function(&format!("step/slim16/{label}"), |b| {
+            b.iter(|| {
+                k = (k + 1) & 255;
+                let input = inputs
+                    .get(k)
+                    .copied()
+                    .unwrap_or(Input::new(Slim16::ZERO, Slim16::ZERO));
+                black_box(pi.step_with(black_box(&input)))
+            })
+        });
+    }
+}
+
 fn benches(c: &mut Criterion) {
     bench_layout(c);
+    bench_slim16(c);
     bench_backend::<I16F16>(c);
     bench_backend::<f32>(c);
     bench_backend::<f64>(c);

@@ -4,7 +4,8 @@
 //! controller, bit for bit.
 //!
 //! Values go out in the backend's raw form, so nothing is lost to decimal
-//! printing: Q16.16 as its 32-bit integer in decimal, `f32`/`f64` as their
+//! printing: Q16.16 as its 32-bit integer in decimal, [`crate::Slim16`] as
+//! its 16-bit raw value (the counts) in decimal, `f32`/`f64` as their
 //! IEEE 754 bits in hexadecimal, `-` for an absent value. [`Record::write`]
 //! formats the line with integer operations only (no `core::fmt`, no
 //! float, no panic path) into any byte sink (semihosting, a UART); with
@@ -79,6 +80,17 @@ impl RawText for I16F16 {
             sink(b"-");
         }
         decimal(u64::from(bits.unsigned_abs()), sink);
+    }
+}
+
+impl RawText for crate::Slim16 {
+    /// The raw 16-bit value in decimal (the counts themselves).
+    fn write_raw(self, sink: &mut dyn FnMut(&[u8])) {
+        let raw = self.raw();
+        if raw < 0 {
+            sink(b"-");
+        }
+        decimal(u64::from(raw.unsigned_abs()), sink);
     }
 }
 
@@ -226,6 +238,7 @@ mod defmt_form {
     }
 
     format_record!(I16F16, "{=i32}", |x: I16F16| x.to_bits());
+    format_record!(crate::Slim16, "{=i16}", |x: crate::Slim16| x.raw());
     format_record!(f32, "{=u32:#010x}", |x: f32| x.to_bits());
     format_record!(f64, "{=u64:#018x}", |x: f64| x.to_bits());
 }
@@ -253,6 +266,10 @@ mod tests {
         sink(b" ");
         I16F16::from_bits(-65536).write_raw(&mut sink);
         sink(b" ");
+        crate::Slim16::MIN.write_raw(&mut sink);
+        sink(b" ");
+        crate::Slim16::from_raw(812).write_raw(&mut sink);
+        sink(b" ");
         1.0f32.write_raw(&mut sink);
         sink(b" ");
         (-2.0f64).write_raw(&mut sink);
@@ -260,7 +277,7 @@ mod tests {
         decimal(u64::MAX, &mut sink);
         assert_eq!(
             String::from_utf8(v).unwrap_or_default(),
-            "-2147483648 -65536 0x3f800000 0xc000000000000000 18446744073709551615"
+            "-2147483648 -65536 -32768 812 0x3f800000 0xc000000000000000 18446744073709551615"
         );
         assert_eq!(text(&Record::<f32>::Reset { k: 7 }), "ekr1 reset k=7\n");
         assert_eq!(

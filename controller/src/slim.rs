@@ -580,7 +580,9 @@ impl<L: Layout> Config<Slim16, L> {
         ));
         let slew_step = match p.slew_step {
             Some(s) => {
-                let q = attempt!(signal(s, Setting::Slew));
+                // Rounded down: the command never moves faster than
+                // written (one raw LSB is coarse here).
+                let q = attempt!(limit(s, false, Setting::Slew));
                 let err = q.0 as f64 - s;
                 if q.0 <= 0
                     || err > crate::SLEW_REL_TOLERANCE * s

@@ -6,6 +6,7 @@
 //! - [`plant`]: plant models behind the [`plant::Plant`] trait, actuator and sensor
 //! - [`profile`]: piecewise references and disturbances
 //! - [`sim`]: the closed loop, zero-order hold, override windows
+//! - [`boundary`]: raw units (ADC and PWM counts, 16-bit scales) against physical ones
 //! - [`metrics`]: step-response, effort and saturation metrics of a trace
 //! - [`criteria`]: limits on metrics, evaluated into verdicts; [`undefined`]: why a metric has no value
 //! - [`outcome`]: runs per backend, [`Outcome::assert_pass`]
@@ -25,7 +26,7 @@
 //! use evenkeel_harness::Scenario;
 //! let mut scenario = Scenario::demo()?; // or Scenario::from_path("loops/tug.toml")?
 //! scenario.controller = scenario.controller.with_filter_time_s(0.05); // your settings
-//! let outcome = scenario.run_all()?;    // fixed, f32 and f64
+//! let outcome = scenario.run_all()?;    // fixed, slim16, f32 and f64
 //! outcome.assert_pass();                // panics with the result table
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
@@ -36,6 +37,7 @@
 #![deny(missing_docs)]
 #![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used))]
 
+pub mod boundary;
 pub mod compare;
 pub mod criteria;
 pub mod design;

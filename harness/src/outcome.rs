@@ -19,6 +19,10 @@ use crate::sim::Recording;
 pub enum BackendKind {
     /// Q16.16 fixed point (`I16F16`).
     Fixed,
+    /// 16-bit fixed point (`evenkeel::Slim16`) on the scenario's
+    /// `[scaling]`, or on a power-of-two scale the harness picks
+    /// ([`crate::Scenario::settings_on`]).
+    Slim16,
     /// `f32`.
     F32,
     /// `f64`.
@@ -26,17 +30,24 @@ pub enum BackendKind {
 }
 
 impl BackendKind {
-    /// All three, in report order.
-    pub const ALL: [Self; 3] = [Self::Fixed, Self::F32, Self::F64];
+    /// All four, in report order.
+    pub const ALL: [Self; 4] = [Self::Fixed, Self::Slim16, Self::F32, Self::F64];
 
-    /// `fixed`, `f32` or `f64` (as `evenkeel::Backend::NAME`).
+    /// `fixed`, `slim16`, `f32` or `f64` (as `evenkeel::Backend::NAME`).
     #[must_use]
     pub const fn name(self) -> &'static str {
         match self {
             Self::Fixed => "fixed",
+            Self::Slim16 => "slim16",
             Self::F32 => "f32",
             Self::F64 => "f64",
         }
+    }
+
+    /// `true` for the two fixed-point backends.
+    #[must_use]
+    pub const fn is_fixed(self) -> bool {
+        matches!(self, Self::Fixed | Self::Slim16)
     }
 
     /// The backend called `name`.
@@ -126,11 +137,19 @@ impl BackendRun {
             scenario.controller.output_max,
         );
         let change = scenario.setup.reference.first_change();
+        // Two raw LSB of the stored limit (rounded inward by at most one)
+        // plus relative slack: Q16.16 or 16-bit, in command units.
+        let kind = BackendKind::from_name(rec.backend).unwrap_or(BackendKind::Fixed);
+        let raw_lsb = if kind == BackendKind::Slim16 {
+            1.0
+        } else {
+            f64::powi(2.0, -16)
+        };
+        let per_unit = scenario.settings_on(kind).scaling.command.per_unit;
         let saturation = Saturation {
             min: lo,
             max: hi,
-            // One Q16.16 LSB of the stored limit plus relative slack.
-            tolerance: (hi - lo) * 1e-6 + 2.0 * f64::powi(2.0, -16),
+            tolerance: (hi - lo) * 1e-6 + 2.0 * raw_lsb / per_unit,
         };
         let whole = MetricOptions {
             step: None,

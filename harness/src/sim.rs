@@ -12,13 +12,17 @@
 //! 3. the command and the disturbances are held constant while the plant
 //!    advances by `Ts` (zero-order hold).
 //!
-//! Numbers cross into the backend with `Backend::from_f64` and back with
-//! `to_f64` (exact), so the fixed-point backend sees the Q16.16 values a
-//! firmware would.
+//! Numbers cross into the backend through the settings' scaling
+//! ([`crate::boundary::Boundary`]): with `Scaling::NONE` by
+//! `Backend::from_f64` and back with `to_f64` (exact), so the fixed-point
+//! backend sees the Q16.16 values a firmware would; with ADC or PWM counts
+//! the sensor is read as the ADC reads it and the actuator gets the compare
+//! value the firmware writes.
 
 use evenkeel::monitor::{Monitor, MonitorSettings};
 use evenkeel::{Backend, Config, ConfigError, Controller, Input, Output, Settings, Status};
 
+use crate::boundary::Boundary;
 use crate::fault::{Fault, FaultTrace, Injector};
 use crate::metrics::Trace;
 use crate::plant::{Environment, Plant, Sensor};
@@ -149,7 +153,7 @@ pub fn default_monitor(settings: &Settings, setup: &Setup) -> MonitorSettings {
 /// controller sample.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Recording {
-    /// Backend name (`fixed`, `f32`, `f64`).
+    /// Backend name (`fixed`, `slim16`, `f32`, `f64`).
     pub backend: &'static str,
     /// Controller period, s.
     pub dt_s: f64,
@@ -159,9 +163,10 @@ pub struct Recording {
     pub reference: Vec<f64>,
     /// True plant output (what the metrics judge).
     pub output: Vec<f64>,
-    /// Measurement given to the controller.
+    /// Measurement given to the controller (physical units; with an ADC,
+    /// the value of the count it read).
     pub measurement: Vec<f64>,
-    /// Controller command.
+    /// Controller command (physical units).
     pub command: Vec<f64>,
     /// Value driving the actuator (the command, or the override value).
     pub applied: Vec<f64>,
@@ -231,6 +236,7 @@ pub fn simulate<B: Backend>(
     mut sensor: Option<&mut Sensor>,
 ) -> Result<Recording, ConfigError> {
     let mut pi = Controller::new(Config::<B>::try_new(settings)?);
+    let io = Boundary::new(settings.scaling);
     let ts = settings.period_s;
     // Truncation is intended: whole samples only; durations are validated finite.
     #[allow(clippy::cast_possible_truncation, clippy::cast_sign_loss)]
@@ -272,8 +278,13 @@ pub fn simulate<B: Backend>(
     let mut shift_force = 0.0;
     let mut states = Vec::with_capacity(names.len());
     let mut drive = 0.0;
+    // The last command the firmware wrote and the actuator value it gave:
+    // when the actuator applied exactly that, the firmware reports its own
+    // command back (with counts, the compare value differs from a
+    // fractional command, which is no downstream limit).
+    let mut written: Option<(f64, B)> = None;
     if let Some(u0) = setup.initial_command {
-        pi.engage(B::from_f64(u0));
+        pi.engage(io.command(u0));
         drive = u0;
     }
     // (window index, actuator value when it began)
@@ -314,14 +325,18 @@ pub fn simulate<B: Backend>(
         }
         last_accel = accel;
 
-        let mut input = Input::new(B::from_f64(r), B::from_f64(measured));
+        let mut input: Input<B> = Input::new(io.setpoint(r), io.measurement(measured));
         if report_applied {
             // What the actuator was driven with last period, within its
             // limits (exact round trip for a command that was not limited).
             let (lo, hi) = setup
                 .actuator_limits
                 .unwrap_or((f64::NEG_INFINITY, f64::INFINITY));
-            input = input.with_applied(B::from_f64(drive.clamp(lo, hi)));
+            let applied = drive.clamp(lo, hi);
+            input = input.with_applied(match written {
+                Some((d, u)) if d == applied => u,
+                _ => io.command(applied),
+            });
         }
         // The fault flags the injected values call for (the oracle of
         // `fault_flag_errors`).
@@ -367,7 +382,8 @@ pub fn simulate<B: Backend>(
                 } else {
                     o.command
                 };
-                pi.track(&input, B::from_f64(drive))
+                written = None;
+                pi.track(&input, io.command(drive))
             }
             None if guarded => Output {
                 command: before,
@@ -376,7 +392,8 @@ pub fn simulate<B: Backend>(
             None => {
                 taken_over = None;
                 let out = pi.step_with(&input);
-                drive = out.command.to_f64();
+                drive = io.drive(out.command);
+                written = Some((drive, out.command));
                 out
             }
         };
@@ -399,8 +416,13 @@ pub fn simulate<B: Backend>(
         rec.time_s.push(t);
         rec.reference.push(r);
         rec.output.push(truth);
-        rec.measurement.push(measured);
-        rec.command.push(out.command.to_f64());
+        rec.measurement
+            .push(if measured.is_finite() && !io.is_identity() {
+                io.measured(input.measurement)
+            } else {
+                measured
+            });
+        rec.command.push(io.commanded(out.command));
         rec.applied.push(drive);
         rec.accel.push(accel);
         rec.status.push(out.status);

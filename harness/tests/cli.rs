@@ -34,7 +34,7 @@ const METRIC_KEYS: [&str; 22] = [
 fn demos_pass_on_all_backends_with_every_report() {
     let dir = tempfile::tempdir().unwrap();
     let files = demos();
-    assert_eq!(files.len(), 3, "{files:?}");
+    assert_eq!(files.len(), 4, "{files:?}");
     let out = evenkeel_on(
         dir.path(),
         "check",
@@ -46,7 +46,7 @@ fn demos_pass_on_all_backends_with_every_report() {
     let stdout = text(&out.stdout);
     assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));
-    assert_eq!(stdout.matches("PASS").count(), 9, "{stdout}");
+    assert_eq!(stdout.matches("PASS").count(), 16, "{stdout}");
     // Units from the scenario, when the worst value occurred, one number
     // format, and the summary over the three scenarios.
     assert!(
@@ -70,7 +70,7 @@ fn demos_pass_on_all_backends_with_every_report() {
         "{rise}"
     );
     assert!(
-        stdout.contains("summary: 3 scenarios, 3 passed, 0 failed; "),
+        stdout.contains("summary: 4 scenarios, 4 passed, 0 failed; "),
         "{stdout}"
     );
 
@@ -80,7 +80,7 @@ fn demos_pass_on_all_backends_with_every_report() {
     assert_eq!(json["caution"], CAUTION);
     assert_eq!(json["passed"], true);
     let scenarios = json["scenarios"].as_array().unwrap();
-    assert_eq!(scenarios.len(), 3);
+    assert_eq!(scenarios.len(), 4);
     let mut criteria = 0;
     for s in scenarios {
         let runs = s["runs"].as_array().unwrap();
@@ -88,7 +88,7 @@ fn demos_pass_on_all_backends_with_every_report() {
             .iter()
             .map(|r| r["backend"].as_str().unwrap())
             .collect();
-        assert_eq!(backends, ["fixed", "f32", "f64"]);
+        assert_eq!(backends, ["fixed", "slim16", "f32", "f64"]);
         for r in runs {
             let metrics = r["metrics"].as_object().unwrap();
             let mut keys: Vec<&str> = metrics.keys().map(String::as_str).collect();
@@ -156,8 +156,13 @@ fn demos_pass_on_all_backends_with_every_report() {
     assert!(xml.contains(CAUTION));
 
     // One CSV and one plot per scenario and backend.
-    for name in ["baggage-tug", "greenhouse-fan", "irrigation-pump"] {
-        for backend in ["fixed", "f32", "f64"] {
+    for name in [
+        "baggage-tug",
+        "chiller-pump",
+        "greenhouse-fan",
+        "irrigation-pump",
+    ] {
+        for backend in ["fixed", "slim16", "f32", "f64"] {
             let csv = std::fs::read_to_string(dir.path().join(format!("t-{name}-{backend}.csv")))
                 .unwrap();
             let header = csv.lines().next().unwrap();
@@ -191,7 +196,7 @@ fn demos_pass_on_all_backends_with_every_report() {
         }
     }
     // Nothing but the reports (no temporary files left behind).
-    assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 2 + 9 + 9);
+    assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 2 + 16 + 16);
 }
 
 #[test]

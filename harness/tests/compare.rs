@@ -30,9 +30,16 @@ fn every_demo_stays_within_the_tolerances_derived_from_the_formats() {
         assert!(r.measured > 0.0 && r.measured <= r.tolerance.limit, "{r:?}");
         // Coefficients as the numeric contract promises.
         assert!(compare::coefficients_within_contract(&c.coefficients));
-        // The measured stall error is the analytical one (one LSB here).
+        // The measured stall error is the analytical one (one LSB of the
+        // raw measurement here, in measurement units).
         let s = c.stall.unwrap();
-        assert_eq!((s.bound, s.measured()), (LSB, LSB), "{}", path.display());
+        let lsb = LSB / c.scenario.controller.scaling.measurement.per_unit;
+        assert_eq!(c.measurement_lsb, lsb);
+        assert_eq!((s.bound, s.measured()), (lsb, lsb), "{}", path.display());
+        // The 16-bit backend runs beside it on every demo.
+        let x = c.sixteen.as_ref().unwrap();
+        assert!(x.command.max_abs > 0.0, "{}", path.display());
+        assert!(x.stall.is_some_and(|st| st.bound >= x.measurement_lsb));
     }
 }
 
@@ -170,7 +177,7 @@ fn cli_compares_the_demos_with_every_report() {
     let stdout = text(&out.stdout);
     assert_exit(&out, 0);
     assert!(stdout.contains(CAUTION));
-    assert_eq!(stdout.matches("  PASS  (").count(), 3, "{stdout}");
+    assert_eq!(stdout.matches("  PASS  (").count(), 4, "{stdout}");
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(dir.path().join("c.json")).unwrap()).unwrap();
     assert_eq!(json["passed"], true);
@@ -181,9 +188,18 @@ fn cli_compares_the_demos_with_every_report() {
     assert_eq!(first["checks"].as_array().unwrap().len(), 7);
     let xml = std::fs::read_to_string(dir.path().join("c.xml")).unwrap();
     let doc = roxmltree::Document::parse(&xml).unwrap();
-    assert_eq!(doc.root_element().attribute("tests"), Some("21"));
+    assert_eq!(doc.root_element().attribute("tests"), Some("28"));
     assert_eq!(doc.root_element().attribute("failures"), Some("0"));
-    for name in ["baggage-tug", "greenhouse-fan", "irrigation-pump"] {
+    // The 16-bit run beside Q16.16 in the JSON, not judged.
+    assert_eq!(first["slim16"]["judged"], false);
+    assert!(first["slim16"]["command"]["max_abs"].as_f64().unwrap() > 0.0);
+    assert!(stdout.contains("16-bit (slim16, shown, not judged)"));
+    for name in [
+        "baggage-tug",
+        "chiller-pump",
+        "greenhouse-fan",
+        "irrigation-pump",
+    ] {
         let svg =
             std::fs::read_to_string(dir.path().join(format!("c-{name}-compare.svg"))).unwrap();
         assert!(svg.contains("fixed Q16.16 against f64"));
@@ -192,7 +208,7 @@ fn cli_compares_the_demos_with_every_report() {
         assert!(csv.starts_with("t_s,reference,output_fixed,output_f64"));
     }
     // Nothing but the reports (atomic writes leave no temporary files).
-    assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 8);
+    assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 10);
 }
 
 #[test]

@@ -317,7 +317,12 @@ fn json_and_junit_report_every_criterion_constraint_and_corner() {
 
 #[test]
 fn each_demo_passes_after_being_redesigned() {
-    for name in ["baggage_tug", "greenhouse_fan", "irrigation_pump"] {
+    for name in [
+        "baggage_tug",
+        "chiller_pump",
+        "greenhouse_fan",
+        "irrigation_pump",
+    ] {
         let dir = tempfile::tempdir().unwrap();
         let out = evenkeel(
             dir.path(),
@@ -331,6 +336,24 @@ fn each_demo_passes_after_being_redesigned() {
             ],
         );
         assert_exit(&out, 0);
+        // Which fixed format the loop needs, both formats' figures.
+        let report = String::from_utf8_lossy(&out.stdout).into_owned();
+        assert!(report.contains("fixed format needed: "), "{report}");
+        assert!(
+            report.contains("    Q16.16: steady-state resolution"),
+            "{report}"
+        );
+        assert!(
+            report.contains("    16-bit: steady-state resolution"),
+            "{report}"
+        );
+        if name == "chiller_pump" {
+            // 12-bit ADC and PWM counts: the 16-bit format suffices.
+            assert!(
+                report.contains("fixed format needed: 16-bit (slim16 backend)"),
+                "{report}"
+            );
+        }
         let svg = std::fs::read_to_string(dir.path().join("d.svg")).unwrap();
         assert!(
             svg.contains("Nyquist") && svg.contains("speed trade-off"),

@@ -63,7 +63,7 @@ fn flags_are_raised_exactly_while_the_faults_call_for_them() {
                 held,
                 "{name} sample {k}: command moved during a NaN reading"
             );
-            let want = if backend == BackendKind::Fixed {
+            let want = if backend.is_fixed() {
                 Status::NONE
             } else {
                 Status::NON_FINITE

@@ -93,14 +93,15 @@ fn every_judging_command_writes_one_self_contained_report() {
     let dir = tempfile::tempdir().unwrap();
     let cart = data("map_cart.toml").display().to_string();
     // check: every run's verdict table and plot, exit status unchanged.
-    let out = evenkeel(dir.path(), &["check", &cart, "--html", "check.html"]);
+    let tug = common::demo("baggage_tug").display().to_string();
+    let out = evenkeel(dir.path(), &["check", &tug, "--html", "check.html"]);
     let code = out.status.code();
     assert!(matches!(code, Some(0 | 1)), "{code:?}");
     let page = std::fs::read_to_string(dir.path().join("check.html")).unwrap();
     self_contained(&page);
     let runs = page.matches("<h3>backend ").count();
-    assert_eq!(runs, 3, "one section per backend");
-    assert_eq!(page.matches("<svg").count(), 3, "one plot per run");
+    assert_eq!(runs, 4, "one section per backend");
+    assert_eq!(page.matches("<svg").count(), 4, "one plot per run");
     assert_eq!(
         page.contains("class=\"fail\">FAIL"),
         code == Some(1),

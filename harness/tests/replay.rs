@@ -5,6 +5,7 @@
 
 mod common;
 
+use evenkeel::Slim16;
 use evenkeel::fixed::types::I16F16;
 use evenkeel_harness::Scenario;
 use evenkeel_harness::replay::synthesize;
@@ -16,9 +17,10 @@ fn logs_of_every_backend_replay_bit_exactly_and_an_altered_sample_is_caught() {
     let dir = tempfile::tempdir().unwrap();
     let pump = demo("irrigation_pump");
     let s = Scenario::from_path(&pump).unwrap();
-    for backend in ["fixed", "f32", "f64"] {
+    for backend in ["fixed", "slim16", "f32", "f64"] {
         let log = match backend {
             "fixed" => synthesize::<I16F16>(&s),
+            "slim16" => synthesize::<Slim16>(&s),
             "f32" => synthesize::<f32>(&s),
             _ => synthesize::<f64>(&s),
         }
@@ -95,6 +97,93 @@ fn logs_of_every_backend_replay_bit_exactly_and_an_altered_sample_is_caught() {
         text(&out.stderr)
     );
     assert!(text(&out.stderr).contains("is not a raw f32 value"));
+}
+
+#[test]
+fn a_16_bit_counts_log_with_one_sample_altered_is_caught_at_that_sample() {
+    // The chiller pump demo: ADC counts in, PWM counts out, 16-bit
+    // controller; the log carries the counts themselves.
+    let dir = tempfile::tempdir().unwrap();
+    let pump = demo("chiller_pump");
+    let s = Scenario::from_path(&pump).unwrap();
+    let log = synthesize::<Slim16>(&s).unwrap();
+    // Raw values are counts: the ADC's 12 bits, the compare register's 0..1000.
+    let first = log.lines().find(|l| l.contains(" step k=200 ")).unwrap();
+    let field = |name: &str| -> i32 {
+        let v = first.split(&format!(" {name}=")).nth(1).unwrap();
+        v.split(' ').next().unwrap().parse().unwrap()
+    };
+    assert!((0..=4095).contains(&field("y")), "{first}");
+    assert!((0..=1000).contains(&field("u")), "{first}");
+    std::fs::write(dir.path().join("pump.log"), &log).unwrap();
+    let args = [
+        "replay",
+        "pump.log",
+        "--scenario",
+        pump.to_str().unwrap(),
+        "--backend",
+        "slim16",
+    ];
+    let out = evenkeel(dir.path(), &args);
+    assert_exit(&out, 0);
+    assert!(
+        text(&out.stdout).contains("bit-exact over 3000 samples"),
+        "{}",
+        text(&out.stdout)
+    );
+    // Sample 1234's compare value one count higher.
+    let altered: Vec<String> = log
+        .lines()
+        .map(|l| {
+            if l.contains(" step k=1234 ") {
+                let (head, tail) = l.split_once(" u=").unwrap();
+                let (u, rest) = tail.split_once(' ').unwrap();
+                let u: i32 = u.parse().unwrap();
+                format!("{head} u={} {rest}", u + 1)
+            } else {
+                l.to_owned()
+            }
+        })
+        .collect();
+    std::fs::write(dir.path().join("altered.log"), altered.join("\n")).unwrap();
+    let mut bad = args;
+    bad[1] = "altered.log";
+    let out = evenkeel(dir.path(), &bad);
+    assert_exit(&out, 1);
+    let report = text(&out.stdout);
+    assert!(
+        report.contains("DIFFERS: 1 of 3000 samples; the first at record 1235"),
+        "{report}"
+    );
+    assert!(report.contains("k = 1234"), "{report}");
+    // One count of command is 0.1 % duty.
+    assert!(
+        report.contains("largest command difference 0.1"),
+        "{report}"
+    );
+    // A 16-bit value out of range is refused with its line.
+    let broken: Vec<String> = log
+        .lines()
+        .map(|l| {
+            if l.contains(" step k=0 ") {
+                let (head, tail) = l.split_once(" y=").unwrap();
+                let (_, rest) = tail.split_once(' ').unwrap();
+                format!("{head} y=70000 {rest}")
+            } else {
+                l.to_owned()
+            }
+        })
+        .collect();
+    let broken = broken.join("\n");
+    std::fs::write(dir.path().join("broken.log"), broken).unwrap();
+    bad[1] = "broken.log";
+    let out = evenkeel(dir.path(), &bad);
+    assert_exit(&out, 2);
+    assert!(
+        text(&out.stderr).contains("is not a raw slim16 value"),
+        "{}",
+        text(&out.stderr)
+    );
 }
 
 #[test]

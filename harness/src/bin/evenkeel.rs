@@ -95,6 +95,7 @@ struct CheckArgs {
 #[derive(Clone, Copy, ValueEnum)]
 enum BackendArg {
     Fixed,
+    Slim16,
     F32,
     F64,
     All,
@@ -104,6 +105,7 @@ impl BackendArg {
     fn kinds(self) -> Vec<BackendKind> {
         match self {
             Self::Fixed => vec![BackendKind::Fixed],
+            Self::Slim16 => vec![BackendKind::Slim16],
             Self::F32 => vec![BackendKind::F32],
             Self::F64 => vec![BackendKind::F64],
             Self::All => BackendKind::ALL.to_vec(),

@@ -14,6 +14,10 @@
 //!   in the steady state of the fixed loop, each next to the bound the
 //!   formats give;
 //! - [`coefficient quantization`](coefficient_table);
+//! - the 16-bit backend ([`SixteenBit`]) beside Q16.16: its difference from
+//!   `f64`, limit cycle and [stall bound](stall_16), shown and not judged
+//!   (the checks cover Q16.16; `check --backend slim16` judges the 16-bit
+//!   loop against the scenario's criteria);
 //! - tolerances declared in `[compare]` or [derived from the
 //!   formats](format_bounds), and the [`Check`]s of the verdict;
 //! - reports: [`table`], [`json`], [`junit`], [`trace_csv`], [`plot`].
@@ -31,6 +35,7 @@ mod diff;
 mod limit_cycle;
 mod plot;
 mod report;
+mod sixteen;
 mod stall;
 mod tolerance;
 mod verdict;
@@ -38,20 +43,22 @@ mod verdict;
 use std::ops::Range;
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Config, Status};
+use evenkeel::{Config, Slim16, Status};
 
 pub use coefficients::{CoefRow, coefficient_table, coefficients_within_contract};
 pub use diff::{DiffStats, Divergence, diff_stats, first_divergence};
 pub use limit_cycle::{Detector, LimitCycle, detect_limit_cycle, half_peak_to_peak};
 pub use plot::{plot, plot_svg};
 pub use report::{json, junit, table, trace_csv};
+pub use sixteen::{SixteenBit, stall_16};
 pub use stall::{LSB, Stall, stall};
 pub use tolerance::{
     CompareSpec, DEFAULT_MAX_LSB_PCT, FormatBounds, MARGIN, Tolerance, format_bounds,
+    format_bounds_16, physical_bounds,
 };
 pub use verdict::Check;
 
-use crate::outcome::RunError;
+use crate::outcome::{BackendKind, RunError};
 use crate::scenario::Scenario;
 use crate::sim::Recording;
 
@@ -89,8 +96,14 @@ pub struct Comparison {
     pub fixed_ripple: Ripple,
     /// Ripple of the `f64` run in the window.
     pub float_ripple: Ripple,
-    /// Integrator stall analysis (`None` without integral action).
+    /// Integrator stall analysis (`None` without integral action),
+    /// measurement units.
     pub stall: Option<Stall>,
+    /// One Q16.16 measurement LSB in measurement units (2⁻¹⁶ ÷ the
+    /// measurement's per-unit scale).
+    pub measurement_lsb: f64,
+    /// The 16-bit backend's run beside it, or why it refused the settings.
+    pub sixteen: Result<SixteenBit, String>,
     /// Coefficient quantization table.
     pub coefficients: Vec<CoefRow>,
     /// Rounding bounds from the formats.
@@ -135,6 +148,7 @@ pub fn compare(scenario: &Scenario) -> Result<Comparison, RunError> {
     };
     let settings = &scenario.controller;
     let config = Config::<I16F16>::try_new(settings).map_err(config_error)?;
+    let m_per_unit = settings.scaling.measurement.per_unit;
 
     let (lo, hi) = float
         .reference
@@ -151,7 +165,9 @@ pub fn compare(scenario: &Scenario) -> Result<Comparison, RunError> {
         .map(|(r, y)| (r - y).abs())
         .fold(0.0, f64::max);
     let r_max = error_max.max(2.0 * half_peak_to_peak(&float.measurement));
-    let quantum = scenario.sensor.map_or(0.0, |s| s.quantum);
+    // The sensor's quantum, or the ADC's count when coarser.
+    let adc = settings.scaling.adc_max().map_or(0.0, |_| 1.0 / m_per_unit);
+    let quantum = scenario.sensor.map_or(0.0, |s| s.quantum).max(adc);
     let mut slew_run = 0_usize;
     let mut run = 0_usize;
     for st in &float.status {
@@ -162,8 +178,9 @@ pub fn compare(scenario: &Scenario) -> Result<Comparison, RunError> {
         };
         slew_run = slew_run.max(run);
     }
-    let bounds =
-        format_bounds(settings, quantum, slew_run, r_max, ref_max).map_err(config_error)?;
+    let bounds = physical_bounds(format_bounds, settings, quantum, slew_run, r_max, ref_max)
+        .map_err(config_error)?;
+    let sixteen = sixteen_bit(scenario, &float, quantum, slew_run, r_max, ref_max);
 
     let window = steady_window(scenario, &float);
     let det = Detector::default();
@@ -175,6 +192,31 @@ pub fn compare(scenario: &Scenario) -> Result<Comparison, RunError> {
         command: half_peak_to_peak(rec.command.get(window.clone()).unwrap_or(&[])),
         output: half_peak_to_peak(rec.output.get(window.clone()).unwrap_or(&[])),
     };
+    let sixteen = sixteen.map(|(rec, bounds, config, scaling)| {
+        let command_lsb = 1.0 / scaling.command.per_unit;
+        // A command resting on one 16-bit value is no cycle: half its LSB.
+        let det16 = Detector {
+            min_peak_to_peak: 0.5 * command_lsb,
+            ..det
+        };
+        SixteenBit {
+            scaling,
+            measurement_lsb: 1.0 / scaling.measurement.per_unit,
+            command_lsb,
+            command: diff_stats(&rec.time_s, &rec.command, &float.command),
+            output: diff_stats(&rec.time_s, &rec.output, &float.output),
+            divergence: first_divergence(&rec.status, &float.status),
+            cycle: detect_limit_cycle(
+                rec.command.get(window.clone()).unwrap_or(&[]),
+                rec.dt_s,
+                &det16,
+            ),
+            ripple: ripple(&rec),
+            stall: stall_16(&config, scaling.measurement.per_unit),
+            bounds,
+            recording: rec,
+        }
+    });
     let mut c = Comparison {
         command: diff_stats(&fixed.time_s, &fixed.command, &float.command),
         output: diff_stats(&fixed.time_s, &fixed.output, &float.output),
@@ -184,7 +226,14 @@ pub fn compare(scenario: &Scenario) -> Result<Comparison, RunError> {
         fixed_ripple: ripple(&fixed),
         float_ripple: ripple(&float),
         window,
-        stall: stall(&config),
+        stall: stall(&config).map(|st| Stall {
+            bound: st.bound / m_per_unit,
+            measured_positive: st.measured_positive / m_per_unit,
+            measured_negative: st.measured_negative / m_per_unit,
+            ..st
+        }),
+        measurement_lsb: LSB / m_per_unit,
+        sixteen,
         coefficients: coefficient_table(settings).map_err(config_error)?,
         bounds,
         reference_span,
@@ -195,6 +244,35 @@ pub fn compare(scenario: &Scenario) -> Result<Comparison, RunError> {
     };
     c.checks = verdict::evaluate(&c);
     Ok(c)
+}
+
+/// The 16-bit run of `scenario` with its stored configuration, bounds and
+/// scaling; a message if the backend refuses the settings.
+fn sixteen_bit(
+    scenario: &Scenario,
+    float: &Recording,
+    quantum: f64,
+    slew_run: usize,
+    r_max: f64,
+    ref_max: f64,
+) -> Result<(Recording, FormatBounds, Config<Slim16>, evenkeel::Scaling), String> {
+    let settings = scenario.settings_on(BackendKind::Slim16);
+    let config = Config::<Slim16>::try_new(&settings).map_err(|e| e.to_string())?;
+    let bounds = physical_bounds(
+        format_bounds_16,
+        &settings,
+        quantum,
+        slew_run,
+        r_max,
+        ref_max,
+    )
+    .map_err(|e| e.to_string())?;
+    let rec = scenario
+        .run::<Slim16>()
+        .map_err(|e| e.to_string())?
+        .recording;
+    debug_assert_eq!(rec.time_s.len(), float.time_s.len());
+    Ok((rec, bounds, config, settings.scaling))
 }
 
 /// The steady-state window: the last `[compare] steady_window_s` if

@@ -5,7 +5,7 @@ use std::fmt::Write;
 
 use serde_json::{Value, json as j};
 
-use super::{Comparison, LimitCycle};
+use super::{Comparison, LimitCycle, SixteenBit, Stall};
 use crate::report::{CAUTION, Failure, JunitXml, format_number};
 
 fn n(x: f64) -> String {
@@ -107,25 +107,8 @@ pub fn table(c: &Comparison) -> String {
         "    expected quantization limit-cycle amplitude ≤ G = {}{uu} (one sample's rounding, FORMATS.md §4)",
         n(c.bounds.per_sample)
     );
-    match &c.stall {
-        Some(st) => {
-            let _ = writeln!(
-                o,
-                "  integrator stall: Ki·Ts = {}; smallest error that moves it: bound {}{yu}, measured {} (+) / {} (−){}",
-                n(st.ki_ts),
-                n(st.bound),
-                n(st.measured_positive),
-                n(st.measured_negative),
-                st.samples_per_lsb.map_or_else(String::new, |k| format!(
-                    "; at one LSB of error the command moves one LSB every {} samples",
-                    n(k)
-                ))
-            );
-        }
-        None => {
-            let _ = writeln!(o, "  integrator stall: no integral action");
-        }
-    }
+    stall_line(&mut o, "  ", c.stall.as_ref(), &yu);
+    sixteen_section(&mut o, c, &yu, &uu);
     let _ = writeln!(
         o,
         "  {:<16} {:<16} {:>12} {:>12} {:>22} {:>10}",
@@ -183,6 +166,135 @@ pub fn table(c: &Comparison) -> String {
     o
 }
 
+fn stall_line(o: &mut String, indent: &str, stall: Option<&Stall>, yu: &str) {
+    match stall {
+        Some(st) => {
+            let _ = writeln!(
+                o,
+                "{indent}integrator stall: Ki·Ts = {}; smallest error that moves it: bound {}{yu}, measured {} (+) / {} (−){}",
+                n(st.ki_ts),
+                n(st.bound),
+                n(st.measured_positive),
+                n(st.measured_negative),
+                st.samples_per_lsb.map_or_else(String::new, |k| format!(
+                    "; at one LSB of error the command moves one LSB every {} samples",
+                    n(k)
+                ))
+            );
+        }
+        None => {
+            let _ = writeln!(o, "{indent}integrator stall: no integral action");
+        }
+    }
+}
+
+/// The 16-bit backend beside Q16.16 (shown, not judged).
+fn sixteen_section(o: &mut String, c: &Comparison, yu: &str, uu: &str) {
+    let x: &SixteenBit = match &c.sixteen {
+        Ok(x) => x,
+        Err(e) => {
+            let _ = writeln!(
+                o,
+                "  16-bit (slim16, shown, not judged): refused by the backend: {e}"
+            );
+            return;
+        }
+    };
+    let _ = writeln!(
+        o,
+        "  16-bit (slim16, shown, not judged): measurement LSB {}{yu} ({} raw per unit), command LSB {}{uu} ({} raw per unit)",
+        n(x.measurement_lsb),
+        n(x.scaling.measurement.per_unit),
+        n(x.command_lsb),
+        n(x.scaling.command.per_unit)
+    );
+    let s = &c.scenario;
+    let _ = writeln!(
+        o,
+        "    {:<20} {:>12} {:>10} {:>12}",
+        "difference 16-bit − f64", "largest", "at (s)", "RMS"
+    );
+    for (what, d) in [
+        (format!("command ({})", s.command_unit), &x.command),
+        (format!("output ({})", s.output_unit), &x.output),
+    ] {
+        let _ = writeln!(
+            o,
+            "    {what:<22} {:>12} {:>10} {:>12}",
+            n(d.max_abs),
+            n(d.time_of_max_s),
+            n(d.rms)
+        );
+    }
+    match x.divergence {
+        Some(d) => {
+            let _ = writeln!(
+                o,
+                "    first branch difference at {} s: 16-bit `{}`, f64 `{}`",
+                n(x.recording.time_s.get(d.index).copied().unwrap_or(0.0)),
+                d.fixed,
+                d.float
+            );
+        }
+        None => {
+            let _ = writeln!(o, "    the same branches as f64 at every sample");
+        }
+    }
+    let _ = writeln!(
+        o,
+        "    steady state: {}; ripple ±{}{uu} (command), ±{}{yu} (output); expected quantization limit-cycle amplitude ≤ G = {}{uu} = {} LSB (FORMATS.md §8)",
+        cycle_text(x.cycle.as_ref(), uu),
+        n(x.ripple.command),
+        n(x.ripple.output),
+        n(x.bounds.per_sample),
+        n(x.bounds.per_sample / x.command_lsb)
+    );
+    stall_line(o, "    ", x.stall.as_ref(), yu);
+}
+
+fn stall_json(s: Option<&Stall>) -> Value {
+    s.map_or(Value::Null, |s| {
+        j!({
+            "ki_ts": s.ki_ts,
+            "bound": s.bound,
+            "measured_positive": number(s.measured_positive),
+            "measured_negative": number(s.measured_negative),
+            "samples_per_lsb": s.samples_per_lsb,
+        })
+    })
+}
+
+fn sixteen_json(c: &Comparison) -> Value {
+    let x = match &c.sixteen {
+        Ok(x) => x,
+        Err(e) => return j!({ "judged": false, "refused": e }),
+    };
+    let diff = |d: &super::DiffStats| j!({ "max_abs": d.max_abs, "time_of_max_s": d.time_of_max_s, "rms": d.rms });
+    j!({
+        "judged": false,
+        "refused": Value::Null,
+        "measurement_per_unit": x.scaling.measurement.per_unit,
+        "measurement_offset": x.scaling.measurement.offset,
+        "command_per_unit": x.scaling.command.per_unit,
+        "command_offset": x.scaling.command.offset,
+        "measurement_lsb": x.measurement_lsb,
+        "command_lsb": x.command_lsb,
+        "command": diff(&x.command),
+        "output": diff(&x.output),
+        "first_branch_difference": x.divergence.map_or(Value::Null, |d| j!({
+            "time_s": x.recording.time_s.get(d.index).copied().unwrap_or(0.0),
+            "slim16": d.fixed.to_string(),
+            "f64": d.float.to_string(),
+        })),
+        "limit_cycle": cycle_json(x.cycle.as_ref()),
+        "ripple_command": x.ripple.command,
+        "ripple_output": x.ripple.output,
+        "expected_amplitude": x.bounds.per_sample,
+        "expected_amplitude_lsb": x.bounds.per_sample / x.command_lsb,
+        "stall": stall_json(x.stall.as_ref()),
+    })
+}
+
 fn number(x: f64) -> Value {
     if x.is_finite() {
         Value::from(x)
@@ -212,6 +324,11 @@ fn cycle_json(c: Option<&LimitCycle>) -> Value {
 ///     "steady_state": { "start_s", "end_s", "expected_amplitude",
 ///        "fixed": { "limit_cycle": {…}|null, "ripple_command", "ripple_output" }, "f64": { … } },
 ///     "stall": { "ki_ts", "bound", "measured_positive", "measured_negative", "samples_per_lsb" } | null,
+///     "slim16": { "judged": false, "refused": null | "why",
+///        "measurement_per_unit", "measurement_offset", "command_per_unit", "command_offset",
+///        "measurement_lsb", "command_lsb", "command": {…}, "output": {…},
+///        "first_branch_difference", "limit_cycle", "ripple_command", "ripple_output",
+///        "expected_amplitude", "expected_amplitude_lsb", "stall": {…} | null },
 ///     "bounds": { "per_sample", "slew_drift", "sensor_quantum", "loop_gain", "command", "output" },
 ///     "coefficients": [ { "name", "meaning", "exact", "stored", "representation", "abs_error", "rel_error", "accepted" } ],
 ///     "checks": [ { "name", "unit", "measured", "limit", "declared", "derived", "basis", "pass", "note", "source" } ] } ] }
@@ -247,13 +364,8 @@ pub fn json(comparisons: &[Comparison]) -> Value {
                     "fixed": side(c.fixed_cycle.as_ref(), c.fixed_ripple),
                     "f64": side(c.float_cycle.as_ref(), c.float_ripple),
                 },
-                "stall": c.stall.map_or(Value::Null, |s| j!({
-                    "ki_ts": s.ki_ts,
-                    "bound": s.bound,
-                    "measured_positive": number(s.measured_positive),
-                    "measured_negative": number(s.measured_negative),
-                    "samples_per_lsb": s.samples_per_lsb,
-                })),
+                "stall": stall_json(c.stall.as_ref()),
+                "slim16": sixteen_json(c),
                 "bounds": {
                     "per_sample": c.bounds.per_sample,
                     "slew_drift": c.bounds.slew_drift,

@@ -125,53 +125,185 @@ pub fn format_bounds(
 ) -> Result<FormatBounds, ConfigError> {
     let p = settings.per_sample()?;
     let c = Config::<I16F16>::try_new(settings)?;
+    let stored = Stored {
+        kp: c.kp().to_f64(),
+        ki_ts: c.ki_ts().to_f64(),
+        weight: c.setpoint_weight().map(|x| x.to_f64()),
+        alpha: c.filter_alpha().map(|x| x.to_f64()),
+        slew: c.slew_step().map(|x| x.to_num::<f64>()),
+    };
+    let grid = Grid {
+        q: Q,
+        half_state: f64::powi(2.0, -33),
+    };
+    Ok(bounds(
+        &p,
+        &stored,
+        grid,
+        sensor_quantum,
+        slew_run,
+        r_max,
+        ref_max,
+    ))
+}
+
+/// [`format_bounds`] for the 16-bit backend (`Slim16`, FORMATS.md §8):
+/// q = one raw LSB, half a state LSB h = 2⁻¹⁴, the 16-bit mantissas' errors;
+/// every value in the settings' raw units.
+///
+/// ```
+/// use evenkeel::Settings;
+/// use evenkeel_harness::compare::format_bounds_16;
+/// // P-only, Kp = 1 raw per raw: G = Kp·(½ + 3·½) + ½ + 1 = 3.5 raw LSB.
+/// let b = format_bounds_16(&Settings::new(0.01, 1.0, 0.0, -1000.0, 1000.0), 0.0, 0, 100.0, 100.0)?;
+/// assert_eq!(b.per_sample, 3.5);
+/// # Ok::<(), evenkeel::ConfigError>(())
+/// ```
+///
+/// # Errors
+/// The [`ConfigError`] when the 16-bit backend refuses the settings.
+pub fn format_bounds_16(
+    settings: &Settings,
+    sensor_quantum: f64,
+    slew_run: usize,
+    r_max: f64,
+    ref_max: f64,
+) -> Result<FormatBounds, ConfigError> {
+    use evenkeel::Backend;
+    let p = settings.per_sample()?;
+    let c = Config::<evenkeel::Slim16>::try_new(settings)?;
+    let coef = |x: evenkeel::SlimCoef| x.to_f64();
+    let stored = Stored {
+        kp: coef(c.kp()),
+        ki_ts: coef(c.ki_ts()),
+        weight: c.setpoint_weight().map(coef),
+        alpha: c.filter_alpha().map(coef),
+        slew: c.slew_step().map(Backend::to_f64),
+    };
+    let grid = Grid {
+        q: 1.0,
+        half_state: f64::powi(2.0, -14),
+    };
+    Ok(bounds(
+        &p,
+        &stored,
+        grid,
+        sensor_quantum,
+        slew_run,
+        r_max,
+        ref_max,
+    ))
+}
+
+/// `bound` (a [`format_bounds`] or [`format_bounds_16`]) for settings with
+/// a scaling: the quantum, `r_max` and `ref_max` are given in physical
+/// units and converted to raw ones; the bounds come back in physical
+/// units (command bounds ÷ command per unit, output bound ÷ measurement
+/// per unit). With `Scaling::NONE` the same as `bound` itself.
+///
+/// # Errors
+/// As `bound`.
+pub fn physical_bounds(
+    bound: fn(&Settings, f64, usize, f64, f64) -> Result<FormatBounds, ConfigError>,
+    settings: &Settings,
+    sensor_quantum: f64,
+    slew_run: usize,
+    r_max: f64,
+    ref_max: f64,
+) -> Result<FormatBounds, ConfigError> {
+    let sc = settings.scaling;
+    if sc.is_none() {
+        return bound(settings, sensor_quantum, slew_run, r_max, ref_max);
+    }
+    let (m, c) = (sc.measurement.per_unit, sc.command.per_unit);
+    let b = bound(
+        settings,
+        sensor_quantum * m,
+        slew_run,
+        r_max * m,
+        ref_max * m,
+    )?;
+    Ok(FormatBounds {
+        per_sample: b.per_sample / c,
+        slew_drift: b.slew_drift / c,
+        sensor_quantum,
+        loop_gain: b.loop_gain * m / c,
+        command: b.command / c,
+        output: b.output / m,
+    })
+}
+
+/// The stored values of the per-sample coefficients and the slew step.
+struct Stored {
+    kp: f64,
+    ki_ts: f64,
+    weight: Option<f64>,
+    alpha: Option<f64>,
+    slew: Option<f64>,
+}
+
+/// The signal LSB q and half a state LSB (2⁻³³ for Q32.32).
+#[derive(Clone, Copy)]
+struct Grid {
+    q: f64,
+    half_state: f64,
+}
+
+/// The terms of FORMATS.md §4 for one format.
+fn bounds(
+    p: &evenkeel::PerSample,
+    c: &Stored,
+    grid: Grid,
+    sensor_quantum: f64,
+    slew_run: usize,
+    r_max: f64,
+    ref_max: f64,
+) -> FormatBounds {
+    let Grid { q, half_state } = grid;
     let d = |stored: f64, exact: f64| (stored - exact).abs();
-    let half = Q / 2.0;
-    // Inputs rounded to Q16.16 on the way in.
+    let half = q / 2.0;
+    // Inputs rounded to the format on the way in.
     let delta_r = half;
     let mut delta_y = half;
-    if let (Some(alpha), Some(stored)) = (p.filter_alpha, c.filter_alpha()) {
-        let da = d(stored.to_f64(), alpha);
-        delta_y += Q + da * r_max / alpha + f64::powi(2.0, -33) / alpha;
+    if let (Some(alpha), Some(stored)) = (p.filter_alpha, c.alpha) {
+        let da = d(stored, alpha);
+        delta_y += q + da * r_max / alpha + half_state / alpha;
     }
-    let delta_br = match (p.setpoint_weight, c.setpoint_weight()) {
-        (Some(b), Some(stored)) => half + d(stored.to_f64(), b) * ref_max + b * delta_r,
+    let delta_br = match (p.setpoint_weight, c.weight) {
+        (Some(b), Some(stored)) => half + d(stored, b) * ref_max + b * delta_r,
         _ => delta_r,
     };
     let deadband = if p.deadband.is_some() { half } else { 0.0 };
     let kp = p.kp;
-    let delta_p =
-        kp * (delta_br + 3.0 * delta_y + deadband) + d(c.kp().to_f64(), kp) * r_max + half;
-    // Ki·Ts = 0 adds exactly nothing; otherwise one rounding at 2⁻³².
+    let delta_p = kp * (delta_br + 3.0 * delta_y + deadband) + d(c.kp, kp) * r_max + half;
+    // Ki·Ts = 0 adds exactly nothing; otherwise one rounding of the state.
     let mut delta_i = if p.ki_ts > 0.0 {
-        p.ki_ts * (delta_y + delta_r + deadband)
-            + d(c.ki_ts().to_f64(), p.ki_ts) * r_max
-            + f64::powi(2.0, -31)
+        p.ki_ts * (delta_y + delta_r + deadband) + d(c.ki_ts, p.ki_ts) * r_max + 4.0 * half_state
     } else {
         0.0
     };
     if let Some(ratio) = p.tracking_ratio {
-        delta_i += ratio * (2.0 * delta_p + 2.0 * Q) + f64::powi(2.0, -31);
+        delta_i += ratio * (2.0 * delta_p + 2.0 * q) + 4.0 * half_state;
     }
-    let (delta_s, slew_drift) = match (p.slew_step, c.slew_step()) {
+    let (delta_s, slew_drift) = match (p.slew_step, c.slew) {
         (Some(exact), Some(stored)) => {
-            let ds = d(stored.to_num::<f64>(), exact);
+            let ds = d(stored, exact);
             #[allow(clippy::cast_precision_loss)] // sample counts < 2^53
             (ds, ds * slew_run as f64)
         }
         _ => (0.0, 0.0),
     };
-    let g = delta_p + Q + delta_s + delta_i;
+    let g = delta_p + q + delta_s + delta_i;
     let loop_gain = kp + p.ki_ts;
     let controller = g + slew_drift;
-    Ok(FormatBounds {
+    FormatBounds {
         per_sample: g,
         slew_drift,
         sensor_quantum,
         loop_gain,
         command: controller + loop_gain * sensor_quantum,
         output: half + sensor_quantum + controller / loop_gain,
-    })
+    }
 }
 
 /// A tolerance with where it comes from.

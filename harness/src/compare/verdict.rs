@@ -3,7 +3,6 @@
 //! explanation of what the formats allow and what to change.
 
 use super::Comparison;
-use super::stall::LSB;
 use super::tolerance::{MARGIN, Tolerance};
 use crate::report::format_number;
 
@@ -45,6 +44,9 @@ fn n(x: f64) -> String {
 pub(crate) fn evaluate(c: &Comparison) -> Vec<Check> {
     let spec = &c.scenario.compare;
     let b = &c.bounds;
+    // One Q16.16 measurement LSB in measurement units (2⁻¹⁶ without a
+    // scaling).
+    let lsb = c.measurement_lsb;
     let out_unit = c.scenario.output_unit.as_str();
     let cmd_unit = c.scenario.command_unit.as_str();
     let cmd_suffix = if cmd_unit == "1" {
@@ -61,7 +63,7 @@ pub(crate) fn evaluate(c: &Comparison) -> Vec<Check> {
     );
     let e_y = format!(
         "E_y = q/2 + Q_s + (G + m·Δs)/(Kp + Ki·Ts) = {} + {} + {}/{}",
-        n(LSB / 2.0),
+        n(lsb / 2.0),
         n(b.sensor_quantum),
         n(b.per_sample + b.slew_drift),
         n(b.loop_gain)
@@ -199,7 +201,7 @@ pub(crate) fn evaluate(c: &Comparison) -> Vec<Check> {
                 "max_stall_error",
                 out_unit,
                 s.measured(),
-                Tolerance::pick(spec.max_stall_error, LSB, format!("one LSB q = {}", n(LSB))),
+                Tolerance::pick(spec.max_stall_error, lsb, format!("one LSB q = {}", n(lsb))),
             );
             if !ch.pass {
                 ch.note = Some(format!(
@@ -207,7 +209,7 @@ pub(crate) fn evaluate(c: &Comparison) -> Vec<Check> {
                     n(s.ki_ts),
                     n(f64::powi(2.0, -17)),
                     n(s.measured()),
-                    n(s.measured() / LSB)
+                    n(s.measured() / lsb)
                 ));
             }
             ch
@@ -217,7 +219,7 @@ pub(crate) fn evaluate(c: &Comparison) -> Vec<Check> {
                 "max_stall_error",
                 out_unit,
                 0.0,
-                Tolerance::pick(spec.max_stall_error, LSB, "one LSB q".into()),
+                Tolerance::pick(spec.max_stall_error, lsb, "one LSB q".into()),
             );
             ch.note = Some("no integral action (Ki = 0)".into());
             ch
@@ -228,7 +230,7 @@ pub(crate) fn evaluate(c: &Comparison) -> Vec<Check> {
 
     // Resolution of the format against the reference span.
     let pct = if c.reference_span > 0.0 {
-        100.0 * LSB / c.reference_span
+        100.0 * lsb / c.reference_span
     } else {
         0.0
     };
@@ -250,7 +252,7 @@ pub(crate) fn evaluate(c: &Comparison) -> Vec<Check> {
         );
         res.note = Some(format!(
             "one Q16.16 LSB ({} {out_unit}) is {} % of the reference span {} {out_unit}: the format is too coarse for signals at this scale. Express the loop in units {} times smaller (measurement values ×{}, Kp and Ki ÷{}) so that the span covers at least {} LSB",
-            n(LSB),
+            n(lsb),
             n(pct),
             n(c.reference_span),
             factor,

@@ -373,8 +373,16 @@ pub fn design(s: &Scenario, req: &Request) -> Result<Proposal, DesignError> {
         b
     };
 
-    let b = round3(b);
+    let mut b = round3(b);
+    let scaling = s.controller.scaling;
+    if b != 1.0 && scaling.measurement.offset != 0.0 {
+        why.push(format!(
+            "setpoint weight set to 1 (not {b}): the measurement's raw scale has an offset ([scaling] measurement_offset), with which a weight below 1 is refused (b·r − y in raw units would carry (1 − b)·offset)"
+        ));
+        b = 1.0;
+    }
     let mut settings = Settings::new(ts, kp, ki, out_lo, out_hi)
+        .with_scaling(scaling)
         .with_setpoint_weight(b)
         .with_anti_windup(AntiWindup::BackCalculation {
             tracking_time_s: tt,

@@ -183,6 +183,36 @@ pub fn rust_snippet(s: &Scenario, c: &Settings, what: &str) -> String {
             c.measurement_min, c.measurement_max
         );
     }
+    if !c.scaling.is_none() {
+        let sc = c.scaling;
+        let m = sc.measurement;
+        let u = sc.command;
+        let measurement = if sc.measurement_bits > 0 {
+            format!(
+                "with_adc({}, evenkeel::Scale::new({:?}, {:?}))",
+                sc.measurement_bits, m.per_unit, m.offset
+            )
+        } else {
+            format!(
+                "with_measurement(evenkeel::Scale::new({:?}, {:?}))",
+                m.per_unit, m.offset
+            )
+        };
+        let command = format!(
+            "{}(evenkeel::Scale::new({:?}, {:?}))",
+            if sc.command_counts {
+                "with_pwm"
+            } else {
+                "with_command"
+            },
+            u.per_unit,
+            u.offset
+        );
+        let _ = write!(
+            out,
+            "\n    .with_scaling(evenkeel::Scaling::NONE.{measurement}.{command})"
+        );
+    }
     match c.anti_windup {
         AntiWindup::BackCalculation { tracking_time_s } => {
             let _ = write!(

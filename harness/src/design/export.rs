@@ -53,7 +53,10 @@ fn settings(c: &evenkeel::Settings) -> Value {
 ///   "corners": [ { "corner", "values": {..}, "gain_factor", "operating_output", "gain_margin",
 ///                  "phase_margin_deg", "gain_crossover_rad_s", "delay_margin_s", "ms", "mt",
 ///                  "min_damping", "bandwidth_rad_s", "stable" } ],
-///   "fixed_point": { "accepted", "error", "coefficients": [ { "name", "wanted", "stored", "tolerance", "ok" } ] } }
+///   "fixed_point": { "accepted", "error", "coefficients": [ { "name", "wanted", "stored", "tolerance", "ok" } ] },
+///   "formats": { "needed": "slim16" | "fixed" | null,
+///                "each": [ { "backend", "label", "refused", "measurement_lsb", "command_lsb", "stall_error",
+///                            "resolution", "allowed", "allowed_basis", "gain_error", "limit_cycle_lsb", "fits" } ] } }
 /// ```
 ///
 /// Infinite values are the strings `"inf"`/`"-inf"`, undefined ones `null`.
@@ -217,6 +220,35 @@ pub fn json(s: &Scenario, t: &Tuned) -> Value {
             "error": t.fixed.accepted.as_ref().err().map(ToString::to_string),
             "coefficients": coefficients,
         },
+        "formats": formats_json(s, t),
+    })
+}
+
+/// Which fixed format the loop handed over needs (`design::format_fits`).
+fn formats_json(s: &Scenario, t: &Tuned) -> Value {
+    let fits = super::format_fits(s, &t.settings);
+    let each: Vec<Value> = fits
+        .iter()
+        .map(|f| {
+            j!({
+                "backend": f.backend.name(),
+                "label": f.label,
+                "refused": f.refused,
+                "measurement_lsb": number(f.measurement_lsb),
+                "command_lsb": number(f.command_lsb),
+                "stall_error": f.stall_error.map(number),
+                "resolution": number(f.resolution),
+                "allowed": number(f.allowed.0),
+                "allowed_basis": f.allowed.1,
+                "gain_error": number(f.gain_error),
+                "limit_cycle_lsb": number(f.limit_cycle_lsb),
+                "fits": f.fits(),
+            })
+        })
+        .collect();
+    j!({
+        "needed": super::needed(&fits).map(|f| f.backend.name()),
+        "each": each,
     })
 }
 

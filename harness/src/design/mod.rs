@@ -47,6 +47,7 @@ mod analytic;
 mod edit;
 mod export;
 mod feasibility;
+mod formats;
 mod margins;
 mod model;
 mod output;
@@ -63,6 +64,7 @@ pub use analytic::design;
 pub use edit::{DesignedValue, HEADER_MARK, designed_values, rust_snippet, scenario_toml, snippet};
 pub use export::{html, json, junit};
 pub use feasibility::{Feasibility, Finding, Severity, feasibility};
+pub use formats::{FormatFit, RESOLUTION_SHARE, format_fits, needed};
 pub use margins::{
     LinearPlant, LoopCoefficients, Margins, ResponsePoint, SampledLoop, frequency_response, margins,
 };

@@ -244,6 +244,7 @@ pub fn report(s: &Scenario, t: &Tuned) -> String {
         let _ = writeln!(out, "    - {line}");
     }
     fixed_section(&mut out, &t.fixed);
+    formats_section(&mut out, s, &t.settings);
     corner_table(&mut out, &t.corners);
     let _ = writeln!(out, "  {CAUTION}");
     out
@@ -275,6 +276,31 @@ fn fixed_section(out: &mut String, f: &FixedCheck) {
             }
         );
     }
+}
+
+/// Which fixed format the loop needs (`design::format_fits`).
+fn formats_section(out: &mut String, s: &Scenario, settings: &evenkeel::Settings) {
+    let fits = super::format_fits(s, settings);
+    let unit = if s.output_unit == "1" {
+        String::new()
+    } else {
+        format!(" {}", s.output_unit)
+    };
+    let _ = writeln!(
+        out,
+        "  fixed format needed: {}",
+        super::needed(&fits).map_or_else(
+            || "neither fixed format fits (see below)".to_owned(),
+            |f| format!("{} ({} backend)", f.label, f.backend.name())
+        )
+    );
+    for f in &fits {
+        let _ = writeln!(out, "    {}", f.summary(&unit));
+    }
+    let _ = writeln!(
+        out,
+        "    resolution: the larger of one measurement LSB and the integrator's stall bound; limit cycle bound: one sample's rounding G (FORMATS.md §4, §8) in command LSB"
+    );
 }
 
 fn corner_table(out: &mut String, corners: &[CornerReport]) {

@@ -305,8 +305,12 @@ impl Evaluator<'_> {
                     && super::fixed_check(c).holds()
                     && match self.backend {
                         BackendKind::Fixed => true,
-                        BackendKind::F32 => evenkeel::Config::<f32>::try_new(c).is_ok(),
-                        BackendKind::F64 => evenkeel::Config::<f64>::try_new(c).is_ok(),
+                        BackendKind::Slim16 => {
+                            let mut b = s.clone();
+                            b.controller = *c;
+                            b.accepts(BackendKind::Slim16).is_ok()
+                        }
+                        other => crate::scenario::accepts(c, other).is_ok(),
                     }
             })
             .collect();

@@ -9,7 +9,6 @@
 //! with its own sensor-noise seed.
 
 use evenkeel::Settings;
-use evenkeel::fixed::types::I16F16;
 use rayon::prelude::*;
 
 use super::CornerReport;
@@ -165,11 +164,7 @@ pub(crate) fn run_variant(
     backend: BackendKind,
 ) -> VariantCheck {
     let v = apply_variant(base, &p.values, p.seed);
-    let run = match backend {
-        BackendKind::Fixed => v.run::<I16F16>(),
-        BackendKind::F32 => v.run::<f32>(),
-        BackendKind::F64 => v.run::<f64>(),
-    };
+    let run = v.run_kind(backend);
     match run {
         Ok(run) => VariantCheck {
             index,

@@ -7,8 +7,10 @@
 //! `defmt` helper emits (`evenkeel::log::ReplayRecord`), decoded on the
 //! host, so a record may sit anywhere in a line (after a timestamp or a
 //! level). Every value is the backend's raw representation, so nothing is
-//! lost to decimal printing: Q16.16 as its 32-bit integer, `f32`/`f64` as
-//! their IEEE 754 bits in hexadecimal; `-` where a value is absent.
+//! lost to decimal printing: Q16.16 as its 32-bit integer, the 16-bit
+//! backend (`slim16`) as its raw 16-bit value (the counts, on the
+//! settings' scaling), `f32`/`f64` as their IEEE 754 bits in hexadecimal;
+//! `-` where a value is absent.
 //!
 //! ```text
 //! ekr1 engage k=0 v=32768
@@ -30,10 +32,11 @@ mod parse;
 use std::fmt::Write;
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Backend, Config, ConfigError, Controller, Input, Settings, Status};
+use evenkeel::{Backend, Config, ConfigError, Controller, Input, Settings, Slim16, Status};
 
 pub use parse::{Kind, MARKER, MAX_REPLAY_BYTES, Record, ReplayError, parse, read};
 
+use crate::boundary::Boundary;
 use crate::outcome::BackendKind;
 use crate::report::CAUTION;
 
@@ -51,6 +54,15 @@ impl Raw for I16F16 {
     }
     fn raw(self) -> String {
         self.to_bits().to_string()
+    }
+}
+
+impl Raw for Slim16 {
+    fn from_raw(text: &str) -> Option<Self> {
+        text.parse::<i16>().ok().map(Slim16::from_raw)
+    }
+    fn raw(self) -> String {
+        Slim16::raw(self).to_string()
     }
 }
 
@@ -83,7 +95,7 @@ pub struct Difference {
     pub k: u64,
     /// Source line of the record.
     pub line: usize,
-    /// The device's command (raw, physical).
+    /// The device's command (raw, physical through the settings' scaling).
     pub device: (String, f64),
     /// The host's command.
     pub host: (String, f64),
@@ -152,6 +164,7 @@ fn value<B: Raw>(file: &str, r: &Record, field: &str, text: &str) -> Result<B, R
                 B::NAME,
                 match B::NAME {
                     "fixed" => "a 32-bit integer, the Q16.16 bits",
+                    "slim16" => "a 16-bit integer, −32768 … 32767, the raw value",
                     "f32" => "0x and 8 hex digits, the IEEE 754 bits",
                     _ => "0x and 16 hex digits, the IEEE 754 bits",
                 }
@@ -186,6 +199,7 @@ pub fn replay<B: Raw>(
 ) -> Result<Replay, RunReplayError> {
     let config = Config::<B>::try_new(settings).map_err(|e| RunReplayError::Config(B::NAME, e))?;
     let mut pi = Controller::new(config);
+    let io = Boundary::new(settings.scaling);
     let mut out = Replay {
         file: file.to_owned(),
         backend,
@@ -259,7 +273,7 @@ pub fn replay<B: Raw>(
                     out.differing += 1;
                     out.agreeing_tail = 0;
                     out.last_difference = Some(r.k);
-                    let d = (host.command.to_f64() - device.to_f64()).abs();
+                    let d = (io.commanded(host.command) - io.commanded(device)).abs();
                     if d.is_finite() {
                         out.largest_difference = out.largest_difference.max(d);
                     }
@@ -268,12 +282,12 @@ pub fn replay<B: Raw>(
                             record: n,
                             k: r.k,
                             line: r.line,
-                            device: (device.raw(), device.to_f64()),
-                            host: (host.command.raw(), host.command.to_f64()),
+                            device: (device.raw(), io.commanded(device)),
+                            host: (host.command.raw(), io.commanded(host.command)),
                             device_status,
                             host_status: host.status,
-                            integral: (integral.raw(), integral.to_f64()),
-                            last_command: (last.raw(), last.to_f64()),
+                            integral: (integral.raw(), io.commanded(integral)),
+                            last_command: (last.raw(), io.commanded(last)),
                             inputs: ["r", "y", "a", "f", "v"]
                                 .iter()
                                 .filter_map(|k| field(k).map(|v| format!("{k}={v}")))
@@ -300,6 +314,7 @@ pub fn replay_on(
 ) -> Result<Replay, RunReplayError> {
     match kind {
         BackendKind::Fixed => replay::<I16F16>(file, settings, records, kind),
+        BackendKind::Slim16 => replay::<Slim16>(file, settings, records, kind),
         BackendKind::F32 => replay::<f32>(file, settings, records, kind),
         BackendKind::F64 => replay::<f64>(file, settings, records, kind),
     }
@@ -384,7 +399,9 @@ pub fn report(r: &Replay) -> String {
 /// # Errors
 /// A message if the plant, sensor or settings cannot be built.
 pub fn synthesize<B: Raw>(s: &crate::Scenario) -> Result<String, String> {
-    let config = Config::<B>::try_new(&s.controller).map_err(|e| e.to_string())?;
+    let settings = s.settings_for::<B>();
+    let config = Config::<B>::try_new(&settings).map_err(|e| e.to_string())?;
+    let io = Boundary::new(settings.scaling);
     let mut pi = Controller::new(config);
     let mut plant = s.build_plant().map_err(|e| e.to_string())?;
     let mut sensor = s.build_sensor().map_err(|e| e.to_string())?;
@@ -397,7 +414,7 @@ pub fn synthesize<B: Raw>(s: &crate::Scenario) -> Result<String, String> {
         s.name,
         s.source
     );
-    let u0 = B::from_f64(s.setup.initial_command.unwrap_or(0.0));
+    let u0: B = io.command(s.setup.initial_command.unwrap_or(0.0));
     pi.engage(u0);
     let _ = writeln!(out, "{MARKER} engage k=0 v={}", u0.raw());
     let env = crate::plant::Environment::default();
@@ -405,7 +422,7 @@ pub fn synthesize<B: Raw>(s: &crate::Scenario) -> Result<String, String> {
         let t = crate::metrics::sample_time_s(usize::try_from(k).unwrap_or(usize::MAX), ts);
         let y_true = plant.output();
         let y = sensor.as_mut().map_or(y_true, |m| m.measure(y_true));
-        let input = Input::new(B::from_f64(s.setup.reference.at(t)), B::from_f64(y));
+        let input = Input::new(io.setpoint(s.setup.reference.at(t)), io.measurement(y));
         let o = pi.step_with(&input);
         let _ = writeln!(
             out,
@@ -416,7 +433,7 @@ pub fn synthesize<B: Raw>(s: &crate::Scenario) -> Result<String, String> {
             o.command.raw(),
             o.status.bits()
         );
-        plant.advance(o.command.to_f64(), &env, ts);
+        plant.advance(io.drive(o.command), &env, ts);
     }
     Ok(out)
 }

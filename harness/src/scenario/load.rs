@@ -6,7 +6,8 @@ use evenkeel::{AntiWindup, Settings};
 
 use super::error::{ScenarioError, Source};
 use super::schema::{
-    Int, Num, RawCompare, RawController, RawLimit, RawPlant, RawProfile, RawScenario, Text,
+    Int, Num, RawCompare, RawController, RawLimit, RawPlant, RawProfile, RawScaling, RawScenario,
+    Text,
 };
 use super::{ActuatorSpec, MetricSettings, PlantModel, Scenario};
 use crate::compare::CompareSpec;
@@ -163,6 +164,10 @@ impl Check<'_> {
             None => 0,
         };
         let controller = self.controller(&raw.controller)?;
+        let controller = match &raw.scaling {
+            None => controller,
+            Some(sc) => self.scaling(sc, &raw.controller, controller)?,
+        };
         // Bounded memory: a run keeps one row of every series per sample.
         let samples = duration_s / controller.period_s;
         if samples > MAX_SAMPLES {
@@ -754,6 +759,59 @@ impl Check<'_> {
             let span = controller_span(c, e.to_string().split(' ').next().unwrap_or(""));
             self.src
                 .error(span, Some("controller".into()), e.to_string())
+        })?;
+        Ok(s)
+    }
+
+    /// `[scaling]` applied to the controller settings, checked as the
+    /// controller crate checks it.
+    fn scaling(&self, sc: &RawScaling, c: &RawController, s: Settings) -> Res<Settings> {
+        let k = |name: &str| format!("scaling.{name}");
+        let per_unit = |v: Option<&Num>, name: &str| {
+            self.opt(
+                v,
+                &k(name),
+                1.0,
+                "finite and > 0 (raw units per unit)",
+                |x| x > 0.0,
+            )
+        };
+        let offset = |v: Option<&Num>, name: &str| {
+            self.opt(v, &k(name), 0.0, "a finite number (raw units)", |_| true)
+        };
+        let measurement = evenkeel::Scale::new(
+            per_unit(sc.measurement_per_unit.as_ref(), "measurement_per_unit")?,
+            offset(sc.measurement_offset.as_ref(), "measurement_offset")?,
+        );
+        let command = evenkeel::Scale::new(
+            per_unit(sc.command_per_unit.as_ref(), "command_per_unit")?,
+            offset(sc.command_offset.as_ref(), "command_offset")?,
+        );
+        let mut scaling = evenkeel::Scaling::NONE.with_measurement(measurement);
+        if let Some(b) = &sc.adc_bits {
+            let bits = self.int(b, &k("adc_bits"), 1, 31)?;
+            scaling = scaling.with_adc(u8::try_from(bits).unwrap_or(31), measurement);
+        }
+        scaling = if sc.command_counts.as_ref().is_some_and(|b| *b.get_ref()) {
+            scaling.with_pwm(command)
+        } else {
+            scaling.with_command(command)
+        };
+        let s = s.with_scaling(scaling);
+        s.per_sample().map_err(|e| {
+            let span = match e {
+                evenkeel::ConfigError::WeightedOffset => c
+                    .setpoint_weight
+                    .as_ref()
+                    .map(Spanned::span)
+                    .or_else(|| sc.measurement_offset.as_ref().map(Spanned::span)),
+                _ => sc
+                    .measurement_per_unit
+                    .as_ref()
+                    .or(sc.command_per_unit.as_ref())
+                    .map(Spanned::span),
+            };
+            self.src.error(span, Some("scaling".into()), e.to_string())
         })?;
         Ok(s)
     }

@@ -31,6 +31,7 @@ mod error;
 mod faults;
 mod load;
 mod sanity;
+mod scale;
 mod schema;
 mod uncertainty;
 
@@ -38,7 +39,7 @@ use std::io::Read;
 use std::path::Path;
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Backend, Settings};
+use evenkeel::{Backend, Settings, Slim16};
 
 pub use design_table::{DesignSpec, LimitChoice};
 pub use error::ScenarioError;
@@ -136,7 +137,8 @@ pub struct Scenario {
     pub output_unit: String,
     /// Unit of the command, for reports.
     pub command_unit: String,
-    /// Controller settings in physical units (`[controller]`).
+    /// Controller settings in physical units (`[controller]`), with the
+    /// raw units of `[scaling]` (`Scaling::NONE` without it).
     pub controller: Settings,
     /// Plant model.
     pub plant: PlantModel,
@@ -278,6 +280,36 @@ impl Scenario {
         self.sensor.map(|p| Sensor::new(p, self.seed)).transpose()
     }
 
+    /// The controller settings backend `kind` runs with: the scenario's
+    /// own, except that the 16-bit backend (`slim16`) of a scenario without
+    /// `[scaling]` gets power-of-two scales covering the loop's range
+    /// (±2¹⁴ raw for the measurement range, or the reference's range and the
+    /// initial output; ±2¹⁵ raw for the output limits widened by their
+    /// span, the integrator's range) and a measurement range cut to what
+    /// 16 bits hold on that scale.
+    ///
+    /// ```
+    /// use evenkeel_harness::{BackendKind, Scenario};
+    /// let tug = Scenario::demo()?;
+    /// assert!(tug.settings_on(BackendKind::Fixed).scaling.is_none());
+    /// assert_eq!(tug.settings_on(BackendKind::Slim16).scaling.command.per_unit, 8192.0);
+    /// # Ok::<(), Box<dyn std::error::Error>>(())
+    /// ```
+    #[must_use]
+    pub fn settings_on(&self, kind: BackendKind) -> Settings {
+        if kind == BackendKind::Slim16 && self.controller.scaling.is_none() {
+            scale::sixteen_bit(self)
+        } else {
+            self.controller
+        }
+    }
+
+    /// [`Scenario::settings_on`] for the backend type `B`.
+    #[must_use]
+    pub fn settings_for<B: Backend>(&self) -> Settings {
+        self.settings_on(BackendKind::from_name(B::NAME).unwrap_or(BackendKind::Fixed))
+    }
+
     /// Runs the scenario with backend `B` and evaluates the criteria.
     ///
     /// # Errors
@@ -287,7 +319,7 @@ impl Scenario {
         let mut plant = self.build_plant()?;
         let mut sensor = self.build_sensor()?;
         let rec = simulate::<B>(
-            &self.controller,
+            &self.settings_for::<B>(),
             &self.setup,
             plant.as_mut(),
             sensor.as_mut(),
@@ -328,18 +360,36 @@ impl Scenario {
         }
     }
 
+    /// Runs the scenario on backend `kind` ([`Scenario::run`]).
+    ///
+    /// # Errors
+    /// As [`Scenario::run`].
+    pub fn run_kind(&self, kind: BackendKind) -> Result<BackendRun, RunError> {
+        match kind {
+            BackendKind::Fixed => self.run::<I16F16>(),
+            BackendKind::Slim16 => self.run::<Slim16>(),
+            BackendKind::F32 => self.run::<f32>(),
+            BackendKind::F64 => self.run::<f64>(),
+        }
+    }
+
+    /// Whether backend `kind` accepts the settings it would run with
+    /// ([`Scenario::settings_on`]).
+    ///
+    /// # Errors
+    /// The controller's refusal.
+    pub fn accepts(&self, kind: BackendKind) -> Result<(), evenkeel::ConfigError> {
+        accepts(&self.settings_on(kind), kind)
+    }
+
     /// Runs on each of `backends`.
     ///
     /// # Errors
     /// As [`Scenario::run`].
     pub fn run_on(&self, backends: &[BackendKind]) -> Result<Outcome, RunError> {
         let mut runs = Vec::with_capacity(backends.len());
-        for b in backends {
-            runs.push(match b {
-                BackendKind::Fixed => self.run::<I16F16>()?,
-                BackendKind::F32 => self.run::<f32>()?,
-                BackendKind::F64 => self.run::<f64>()?,
-            });
+        for &b in backends {
+            runs.push(self.run_kind(b)?);
         }
         Ok(Outcome {
             scenario: self.clone(),
@@ -347,12 +397,26 @@ impl Scenario {
         })
     }
 
-    /// Runs on fixed, f32 and f64.
+    /// Runs on fixed, slim16, f32 and f64.
     ///
     /// # Errors
     /// As [`Scenario::run`].
     pub fn run_all(&self) -> Result<Outcome, RunError> {
         self.run_on(&BackendKind::ALL)
+    }
+}
+
+/// Whether backend `kind` accepts `settings` as they are.
+///
+/// # Errors
+/// The controller's refusal.
+pub fn accepts(settings: &Settings, kind: BackendKind) -> Result<(), evenkeel::ConfigError> {
+    use evenkeel::Config;
+    match kind {
+        BackendKind::Fixed => Config::<I16F16>::try_new(settings).map(drop),
+        BackendKind::Slim16 => Config::<Slim16>::try_new(settings).map(drop),
+        BackendKind::F32 => Config::<f32>::try_new(settings).map(drop),
+        BackendKind::F64 => Config::<f64>::try_new(settings).map(drop),
     }
 }
 

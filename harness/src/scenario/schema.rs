@@ -17,6 +17,8 @@ pub(crate) type Text = Spanned<String>;
 pub(crate) struct RawScenario {
     pub scenario: RawMeta,
     pub controller: RawController,
+    /// Raw units of measurement and command (ADC and PWM counts).
+    pub scaling: Option<RawScaling>,
     pub plant: RawPlant,
     pub actuator: Option<RawActuator>,
     pub sensor: Option<RawSensor>,
@@ -70,6 +72,18 @@ pub(crate) struct RawController {
     pub measurement_min: Option<Num>,
     pub measurement_max: Option<Num>,
     pub initial_command: Option<Num>,
+}
+
+/// `[scaling]`: `raw = physical · per_unit + offset` on each side.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawScaling {
+    pub measurement_per_unit: Option<Num>,
+    pub measurement_offset: Option<Num>,
+    pub adc_bits: Option<Int>,
+    pub command_per_unit: Option<Num>,
+    pub command_offset: Option<Num>,
+    pub command_counts: Option<Spanned<bool>>,
 }
 
 #[derive(Debug, Deserialize)]

@@ -1,7 +1,6 @@
 //! One variant of a sweep, and the results kept for sweeps that fit in
 //! memory.
 
-use evenkeel::fixed::types::I16F16;
 use serde::{Deserialize, Serialize};
 
 use super::SweepError;
@@ -178,11 +177,7 @@ pub(crate) fn run_one(
 ) -> (VariantResult, Option<BackendRun>) {
     let seed = noise_seed(plan_seed, index);
     let s = apply_variant(scenario, point, seed);
-    let run = match backend {
-        BackendKind::Fixed => s.run::<I16F16>(),
-        BackendKind::F32 => s.run::<f32>(),
-        BackendKind::F64 => s.run::<f64>(),
-    };
+    let run = s.run_kind(backend);
     let n = scenario.criteria.len();
     match run {
         Ok(run) => (

@@ -1,8 +1,6 @@
 //! A sweep run with its results aggregated as they arrive: memory does
 //! not grow with the number of variants.
 
-use evenkeel::Config;
-use evenkeel::fixed::types::I16F16;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
@@ -128,11 +126,7 @@ pub struct Streamed {
 
 /// Refuses settings `backend` cannot hold, once for all variants.
 fn backend_accepts(scenario: &Scenario, backend: BackendKind) -> Result<(), SweepError> {
-    let result = match backend {
-        BackendKind::Fixed => Config::<I16F16>::try_new(&scenario.controller).map(drop),
-        BackendKind::F32 => Config::<f32>::try_new(&scenario.controller).map(drop),
-        BackendKind::F64 => Config::<f64>::try_new(&scenario.controller).map(drop),
-    };
+    let result = scenario.accepts(backend);
     result.map_err(|e| SweepError::Run(scenario.refused(backend.name(), e)))
 }
 

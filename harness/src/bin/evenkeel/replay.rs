@@ -15,7 +15,7 @@ pub struct ReplayArgs {
     /// The device log: `ekr1` records (decoded defmt text lines, or any
     /// text with them) or CSV with the header `kind,k,r,y,a,f,v,u,s`.
     log: PathBuf,
-    /// The scenario whose `[controller]` the device ran.
+    /// The scenario whose `[controller]` (and `[scaling]`) the device ran.
     #[arg(long, value_name = "FILE")]
     scenario: PathBuf,
     /// The device's numeric backend.
@@ -33,7 +33,8 @@ pub fn run(args: &ReplayArgs) -> anyhow::Result<bool> {
     let scenario = Scenario::from_path(&args.scenario)?;
     let records = replay::read(&args.log)?;
     let file = args.log.display().to_string();
-    let r = replay::replay_on(args.backend.kind(), &file, &scenario.controller, &records)?;
+    let kind = args.backend.kind();
+    let r = replay::replay_on(kind, &file, &scenario.settings_on(kind), &records)?;
     let text = replay::report(&r);
     out.json(args.json.as_deref(), || {
         json!({

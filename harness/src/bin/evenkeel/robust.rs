@@ -150,6 +150,7 @@ enum MethodArg {
 #[derive(Clone, Copy, ValueEnum)]
 pub(crate) enum OneBackend {
     Fixed,
+    Slim16,
     F32,
     F64,
 }
@@ -159,6 +160,7 @@ impl OneBackend {
     pub(crate) fn kind(self) -> BackendKind {
         match self {
             Self::Fixed => BackendKind::Fixed,
+            Self::Slim16 => BackendKind::Slim16,
             Self::F32 => BackendKind::F32,
             Self::F64 => BackendKind::F64,
         }
