@@ -59,6 +59,18 @@ impl Disturbances {
             gain_factor: self.gain_factor.at(t_s),
         }
     }
+
+    /// [`Disturbances::at`] for times that do not decrease, one
+    /// [`Profile::at_forward`] position per profile (all 0 before the first
+    /// call); the same values.
+    pub fn at_forward(&self, started: &mut [usize; 4], t_s: f64) -> Environment {
+        Environment {
+            grade_pct: self.grade_pct.at_forward(&mut started[0], t_s),
+            force_n: self.force_n.at_forward(&mut started[1], t_s),
+            load: self.load.at_forward(&mut started[2], t_s),
+            gain_factor: self.gain_factor.at_forward(&mut started[3], t_s),
+        }
+    }
 }
 
 /// A time window in which another source (a driver, an operator, a safety
@@ -279,6 +291,9 @@ pub fn simulate<B: Backend>(
     // (window index, actuator value when it began)
     let mut taken_over: Option<(usize, f64)> = None;
     let mut windows = Windows::new(setup.overrides.iter().map(|o| (o.start_s, o.duration_s)));
+    let (mut reference_started, mut disturbances_started) = (0, [0; 4]);
+    // The last reference converted: its bits and the backend's value.
+    let mut setpoint = (f64::NAN.to_bits(), B::from_f64(f64::NAN));
     for k in 0..n {
         #[allow(clippy::cast_precision_loss)] // k < 2^53
         let t = k as f64 * ts;
@@ -288,8 +303,8 @@ pub fn simulate<B: Backend>(
             None => truth,
         };
         let measured = injector.sensor(t, measured);
-        let r = setup.reference.at(t);
-        let mut env = setup.disturbances.at(t);
+        let r = setup.reference.at_forward(&mut reference_started, t);
+        let mut env = setup.disturbances.at_forward(&mut disturbances_started, t);
         env.gain_factor *= injector.gain_factor(t);
         let accel = plant.rate();
 
@@ -315,7 +330,12 @@ pub fn simulate<B: Backend>(
         }
         last_accel = accel;
 
-        let mut input = Input::new(B::from_f64(r), B::from_f64(measured));
+        // The reference holds for long stretches: convert it only when it
+        // changes (same bits in, same value out).
+        if r.to_bits() != setpoint.0 {
+            setpoint = (r.to_bits(), B::from_f64(r));
+        }
+        let mut input = Input::new(setpoint.1, B::from_f64(measured));
         if report_applied {
             // What the actuator was driven with last period, within its
             // limits (exact round trip for a command that was not limited).
