@@ -133,7 +133,45 @@ impl Profile {
     #[must_use]
     pub fn at(&self, t_s: f64) -> f64 {
         // The last segment that has started by `t_s` decides the value.
-        let started = self.pieces.partition_point(|&(start, _, _)| start <= t_s);
+        self.value(
+            self.pieces.partition_point(|&(start, _, _)| start <= t_s),
+            t_s,
+        )
+    }
+
+    /// [`Profile::at`] for times that do not decrease from call to call (a
+    /// run's samples): `started` keeps the number of segments started at the
+    /// last call (0 before the first), and the search walks forward from it
+    /// instead of bisecting. The same value, bit for bit; a time earlier than
+    /// the last call's bisects again.
+    ///
+    /// ```
+    /// use evenkeel_harness::profile::{Profile, Segment};
+    /// let p = Profile::new(0.0, vec![Segment::hold(1.0), Segment::ramp(2.0, 2.0, 1.0)]);
+    /// let mut started = 0;
+    /// for t in [0.0, 0.5, 1.5, 2.5, 9.0, 0.25] {
+    ///     assert_eq!(p.at_forward(&mut started, t), p.at(t));
+    /// }
+    /// ```
+    pub fn at_forward(&self, started: &mut usize, t_s: f64) -> f64 {
+        let begun = |i: usize| {
+            self.pieces
+                .get(i)
+                .is_some_and(|&(start, _, _)| start <= t_s)
+        };
+        let mut n = (*started).min(self.pieces.len());
+        if n > 0 && !begun(n - 1) {
+            n = self.pieces.partition_point(|&(start, _, _)| start <= t_s);
+        }
+        while begun(n) {
+            n += 1;
+        }
+        *started = n;
+        self.value(n, t_s)
+    }
+
+    /// The value at `t_s` when the first `started` segments have started.
+    fn value(&self, started: usize, t_s: f64) -> f64 {
         let Some(&(start, from, s)) = started.checked_sub(1).and_then(|i| self.pieces.get(i))
         else {
             return self.initial;

@@ -63,6 +63,18 @@ impl Disturbances {
             gain_factor: self.gain_factor.at(t_s),
         }
     }
+
+    /// [`Disturbances::at`] for times that do not decrease, one
+    /// [`Profile::at_forward`] position per profile (all 0 before the first
+    /// call); the same values.
+    pub fn at_forward(&self, started: &mut [usize; 4], t_s: f64) -> Environment {
+        Environment {
+            grade_pct: self.grade_pct.at_forward(&mut started[0], t_s),
+            force_n: self.force_n.at_forward(&mut started[1], t_s),
+            load: self.load.at_forward(&mut started[2], t_s),
+            gain_factor: self.gain_factor.at_forward(&mut started[3], t_s),
+        }
+    }
 }
 
 /// A time window in which another source (a driver, an operator, a safety
@@ -290,6 +302,9 @@ pub fn simulate<B: Backend>(
     // (window index, actuator value when it began)
     let mut taken_over: Option<(usize, f64)> = None;
     let mut windows = Windows::new(setup.overrides.iter().map(|o| (o.start_s, o.duration_s)));
+    let (mut reference_started, mut disturbances_started) = (0, [0; 4]);
+    // The last reference converted: its bits and the backend's value.
+    let mut setpoint: Option<(u64, B)> = None;
     for k in 0..n {
         let t = crate::metrics::sample_time_s(k, ts);
         let truth = plant.output();
@@ -298,8 +313,8 @@ pub fn simulate<B: Backend>(
             None => truth,
         };
         let measured = injector.sensor(t, measured);
-        let r = setup.reference.at(t);
-        let mut env = setup.disturbances.at(t);
+        let r = setup.reference.at_forward(&mut reference_started, t);
+        let mut env = setup.disturbances.at_forward(&mut disturbances_started, t);
         env.gain_factor *= injector.gain_factor(t);
         let accel = plant.rate();
 
@@ -325,7 +340,17 @@ pub fn simulate<B: Backend>(
         }
         last_accel = accel;
 
-        let mut input: Input<B> = Input::new(io.setpoint(r), io.measurement(measured));
+        // The reference holds for long stretches: convert it only when it
+        // changes (same bits in, same value out).
+        let sp = match setpoint {
+            Some((bits, v)) if bits == r.to_bits() => v,
+            _ => {
+                let v = io.setpoint(r);
+                setpoint = Some((r.to_bits(), v));
+                v
+            }
+        };
+        let mut input: Input<B> = Input::new(sp, io.measurement(measured));
         if report_applied {
             // What the actuator was driven with last period, within its
             // limits (exact round trip for a command that was not limited).

@@ -75,6 +75,6 @@ fn a_scenario_built_in_code() {
     ];
     let outcome = s.run_all().unwrap();
     outcome.assert_pass();
-    assert_eq!(outcome.runs.len(), 3);
+    assert_eq!(outcome.runs.len(), 4, "fixed, slim16, f32, f64");
     assert!(outcome.to_string().contains("level-tank"));
 }

@@ -1,6 +1,6 @@
 //! Actuator dynamics and limits, in front of any plant.
 
-use super::{Environment, ParamError, Plant, check, valid_period};
+use super::{Environment, Memo, ParamError, Plant, check, valid_period};
 
 /// An actuator that clamps the command to `[min, max]` and follows it with
 /// a first-order lag `τ·ȧ = −a + clamp(u)` (exact discretisation; `τ = 0`
@@ -22,6 +22,9 @@ pub struct Actuator {
     min: f64,
     max: f64,
     value: f64,
+    /// [`Actuator::decay`] of the last step length: a run of equal
+    /// periods computes `e^(−r) − 1` once, not once per period.
+    decay: Memo<Option<(f64, f64)>>,
 }
 
 impl Actuator {
@@ -39,6 +42,7 @@ impl Actuator {
             min,
             max,
             value: 0.0_f64.clamp(min, max),
+            decay: Memo::new(1.0, decay_of(tau_s, 1.0)),
         })
     }
 
@@ -51,16 +55,15 @@ impl Actuator {
         if !valid_period(dt_s) {
             return self.value;
         }
-        self.advance_by(command, self.decay(dt_s))
+        let decay = self.decay(dt_s);
+        self.advance_by(command, decay)
     }
 
-    /// `(r, e^(−r) − 1)` with `r = dt/τ` (`None` without lag): what a step
-    /// of `dt_s` needs, computed once for repeated equal steps.
-    fn decay(&self, dt_s: f64) -> Option<(f64, f64)> {
-        (self.tau_s > 0.0).then(|| {
-            let r = dt_s / self.tau_s;
-            (r, (-r).exp_m1())
-        })
+    /// [`decay_of`] this actuator's lag over `dt_s`, computed once per
+    /// step length.
+    fn decay(&mut self, dt_s: f64) -> Option<(f64, f64)> {
+        let tau_s = self.tau_s;
+        self.decay.get(dt_s, |dt_s| decay_of(tau_s, dt_s))
     }
 
     /// One step with a precomputed [`Actuator::decay`]; bit for bit what
@@ -98,6 +101,15 @@ impl Actuator {
     pub fn reset(&mut self, value: f64) {
         self.value = value.clamp(self.min, self.max);
     }
+}
+
+/// `(r, e^(−r) − 1)` with `r = dt/τ` (`None` without lag, `τ = 0`): what a
+/// step of `dt_s` needs.
+fn decay_of(tau_s: f64, dt_s: f64) -> Option<(f64, f64)> {
+    (tau_s > 0.0).then(|| {
+        let r = dt_s / tau_s;
+        (r, (-r).exp_m1())
+    })
 }
 
 /// A plant driven through an [`Actuator`]. Each period is split into

@@ -139,6 +139,43 @@ pub(crate) fn check(
     }
 }
 
+/// A value that depends on one `f64` only, kept with that argument's bits
+/// so that asking again with the same argument returns it without
+/// computing it again: the same bits as computing it afresh. The models
+/// use it for terms that change seldom (a grade's trigonometry, a step
+/// length's decay). Any two compare equal: what is kept never makes two
+/// models differ.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Memo<T> {
+    arg_bits: u64,
+    value: T,
+}
+
+impl<T: Copy> Memo<T> {
+    /// `value` kept as the result for `arg`.
+    pub(crate) fn new(arg: f64, value: T) -> Self {
+        Self {
+            arg_bits: arg.to_bits(),
+            value,
+        }
+    }
+
+    /// The result for `arg`: the kept one when `arg` has the same bits as
+    /// last time, else `compute(arg)` (then kept).
+    pub(crate) fn get(&mut self, arg: f64, compute: impl FnOnce(f64) -> T) -> T {
+        if arg.to_bits() != self.arg_bits {
+            *self = Self::new(arg, compute(arg));
+        }
+        self.value
+    }
+}
+
+impl<T> PartialEq for Memo<T> {
+    fn eq(&self, _: &Self) -> bool {
+        true
+    }
+}
+
 /// `true` when `dt_s` is a usable period.
 pub(crate) fn valid_period(dt_s: f64) -> bool {
     dt_s.is_finite() && dt_s > 0.0

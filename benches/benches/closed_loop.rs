@@ -2,7 +2,7 @@
 //! (one thread): a whole scenario run (sensor, controller, plant, recording
 //! and metrics) divided by its number of controller periods.
 //!
-//! `cargo bench -p evenkeel-harness --bench closed_loop`; figures in
+//! `cargo bench --manifest-path benches/Cargo.toml --bench closed_loop`; figures in
 //! BENCHMARKS.md.
 
 use std::hint::black_box;

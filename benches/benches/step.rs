@@ -1,7 +1,7 @@
 //! Cost of one controller step per backend, minimal and full feature sets;
 //! engage and reset; building a configuration.
 //!
-//! `cargo bench -p evenkeel --bench step`. Report ratios measured in one
+//! `cargo bench --manifest-path benches/Cargo.toml --bench step`. Report ratios measured in one
 //! run (BENCHMARKS.md); absolute times depend on the machine.
 
 use std::hint::black_box;
