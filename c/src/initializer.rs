@@ -93,12 +93,26 @@ fn coef_value(c: EkcCoef) -> f64 {
     f64::from(c.mantissa) / scale
 }
 
+/// An `int32_t` as a C constant expression (the most negative one has no
+/// literal: `-2147483648` is the negation of a `long`).
+struct CInt(i32);
+
+impl fmt::Display for CInt {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if self.0 == i32::MIN {
+            f.write_str("(-2147483647 - 1)")
+        } else {
+            write!(f, "{}", self.0)
+        }
+    }
+}
+
 fn write_coef(out: &mut impl Write, field: &str, c: EkcCoef, on: bool) -> fmt::Result {
     if on {
         writeln!(
             out,
             "    .{field} = {{ {}, {} }}, /* {} */",
-            c.mantissa,
+            CInt(c.mantissa),
             c.shift,
             coef_value(c)
         )
@@ -114,11 +128,12 @@ fn write_signal(out: &mut impl Write, field: &str, raw: i32, format: u32, on: bo
     if format == EKC_FORMAT_Q16_16 {
         writeln!(
             out,
-            "    .{field} = {raw}, /* {} */",
+            "    .{field} = {}, /* {} */",
+            CInt(raw),
             f64::from(raw) / 65_536.0
         )
     } else {
-        writeln!(out, "    .{field} = {raw},")
+        writeln!(out, "    .{field} = {},", CInt(raw))
     }
 }
 
@@ -248,6 +263,24 @@ mod tests {
         assert_eq!(&buf[..n], b"oven_2_zone");
         let n = c_identifier("2nd", &mut buf);
         assert_eq!(&buf[..n], b"cfg_2nd");
+    }
+
+    #[test]
+    fn the_most_negative_value_is_a_c_constant_expression() {
+        let mut s = String::new();
+        let item = Item {
+            name: "wide",
+            coefficients: EkcCoefficients {
+                format: EKC_FORMAT_Q16_16,
+                output_min: i32::MIN,
+                ..EkcCoefficients::default()
+            },
+        };
+        write_coefficients(&mut s, &item).unwrap();
+        assert!(
+            s.contains(".output_min = (-2147483647 - 1), /* -32768 */"),
+            "{s}"
+        );
     }
 
     #[test]

@@ -46,13 +46,13 @@ pub struct EkcSlimLoop {
     pub opaque: [u8; EKC_SLIM_LOOP_SIZE],
 }
 
-/// What the storage holds once configured.
+/// What the storage holds once configured. The controller is first, so
+/// that its address is the storage's (no offset to add on every call).
 #[repr(C)]
 pub(crate) struct Slot<B: Backend> {
-    /// [`Storage::TAG`]; first, so that it is read as the storage's first
-    /// word.
-    tag: u32,
     controller: Controller<B>,
+    /// [`Storage::TAG`].
+    tag: u32,
 }
 
 /// A C storage type and the controller it holds.
@@ -100,12 +100,15 @@ fn slot<S: Storage>(storage: *const S) -> Result<*mut Slot<S::Backend>, EkcCode>
 
 /// The tag word of the storage behind a checked slot pointer.
 fn tag<B: Backend>(slot: *mut Slot<B>) -> u32 {
-    // SAFETY: `slot` is non-null and aligned (from `slot()`), and points to
+    let tag = slot
+        .wrapping_byte_add(core::mem::offset_of!(Slot<B>, tag))
+        .cast::<u32>();
+    // SAFETY: `slot` is non-null and aligned (from `slot()`) and points to
     // C storage of the published size (header contract), which is at least
-    // the slot's size (asserted above); the tag is the first field of a
-    // `repr(C)` struct, so this reads the storage's first 4 bytes, and any
-    // bytes are a valid `u32`.
-    unsafe { slot.cast::<u32>().read() }
+    // the slot's size (asserted above); `tag` is the address of the slot's
+    // `u32` field inside it (aligned: the slot is), and any bytes are a
+    // valid `u32`.
+    unsafe { tag.read() }
 }
 
 /// Put a new controller (and the tag) into `storage`, whatever it held.
