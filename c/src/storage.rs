@@ -243,4 +243,71 @@ mod tests {
             EKC_SLIM_LOOP_SIZE
         );
     }
+
+    /// Every pointer path of the interface with real pointers (the test
+    /// Miri runs: `cargo +nightly miri test -p evenkeel-c --lib`).
+    #[test]
+    #[allow(clippy::multiple_unsafe_ops_per_block)] // one contract for the whole sequence of calls
+    fn calls_through_pointers() {
+        use crate::codes::*;
+        use crate::common_api::{ekc_code_text, ekc_settings_init};
+        use crate::fixed_api::*;
+        use crate::slim_api::{ekc_slim_configure, ekc_slim_step};
+        use crate::types::{EkcInput, EkcOutput, EkcSettings, EkcSlimOutput};
+        use core::mem::MaybeUninit;
+
+        // SAFETY: (test) zeroed bytes are what a C static holds; every
+        // field of these types is an integer, a float or a byte array.
+        let mut pi: EkcLoop = unsafe { MaybeUninit::zeroed().assume_init() };
+        // SAFETY: (test) as above.
+        let mut settings: EkcSettings = unsafe { MaybeUninit::zeroed().assume_init() };
+        let mut out = EkcOutput::default();
+        // SAFETY: (test) every pointer below is null, or points to a live
+        // local of its type, or is the deliberately misaligned one (never
+        // dereferenced: refused first).
+        unsafe {
+            assert_eq!(ekc_step(&mut pi, 0, 0, &mut out), EKC_ERR_UNCONFIGURED);
+            assert_eq!(
+                ekc_settings_init(&mut settings, 0.01, 0.5, 0.0, -1.0, 1.0),
+                EKC_OK
+            );
+            assert_eq!(
+                ekc_configure(core::ptr::null_mut(), &settings),
+                EKC_ERR_NULL
+            );
+            assert_eq!(ekc_configure(&mut pi, &settings), EKC_OK);
+            assert_eq!(ekc_step(&mut pi, 3, 0, &mut out), EKC_OK);
+            assert_eq!((out.command, out.status), (2, 0)); // 0.5 · 3 LSB = 1.5 → 2
+            let input = EkcInput {
+                setpoint: 3,
+                measurement: 0,
+                feed_forward: 0,
+                applied: 2,
+                has_applied: 1,
+            };
+            assert_eq!(ekc_step_with(&mut pi, &input, &mut out), EKC_OK);
+            let mut value = 0;
+            assert_eq!(ekc_last_command(&pi, &mut value), EKC_OK);
+            assert_eq!(value, out.command);
+            let misaligned = core::ptr::from_mut(&mut pi)
+                .cast::<u8>()
+                .wrapping_add(4)
+                .cast::<EkcLoop>();
+            assert_eq!(ekc_reset(misaligned), EKC_ERR_MISALIGNED);
+            assert_eq!(ekc_step(&mut pi, 0, 0, core::ptr::null_mut()), EKC_ERR_NULL);
+            let mut text = [0u8; 16];
+            let n = ekc_code_text(EKC_ERR_NULL, text.as_mut_ptr().cast(), text.len());
+            assert_eq!(&text[..15], &b"a pointer argument is null"[..15]);
+            assert_eq!(text[15], 0);
+            assert!(n > 16);
+            // SAFETY: (test) as above.
+            let mut slim: EkcSlimLoop = MaybeUninit::zeroed().assume_init();
+            let mut slim_out = EkcSlimOutput::default();
+            assert_eq!(ekc_slim_configure(&mut slim, &settings), EKC_OK);
+            assert_eq!(ekc_slim_step(&mut slim, 3, 0, &mut slim_out), EKC_OK);
+            // 0.5 · 3 = 1.5 raw, clamped to output_max = 1 raw (unit scale).
+            assert_eq!(slim_out.command, 1);
+            assert_ne!(slim_out.status & crate::types::EKC_STATUS_CLAMP_HIGH, 0);
+        }
+    }
 }
