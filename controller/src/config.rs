@@ -407,6 +407,34 @@ impl<L: Layout> Config<I16F16, L> {
         if measurement_min.to_bits() >= measurement_max.to_bits() {
             return Err(ConfigError::Inverted(Setting::MeasurementMax));
         }
+        let zero = attempt!(fixed_signal(p.command_zero, Setting::CommandScale));
+        let rest = if output_min.to_bits() > zero.to_bits() {
+            output_min
+        } else if output_max.to_bits() < zero.to_bits() {
+            output_max
+        } else {
+            zero
+        };
+        let coefs = [kp, setpoint_weight, ki_ts, tracking_ratio, filter_alpha];
+        let signals = [slew_step, deadband, measurement_min, measurement_max, rest];
+        Ok(Self::assemble(
+            features, coefs, signals, output_min, output_max,
+        ))
+    }
+
+    /// The configuration of checked parts; the integrator and feed-forward
+    /// ranges follow from the output limits. `coefs`: Kp, setpoint weight,
+    /// Ki·Ts, Ts/Tt, α; `signals`: slew step, deadband, measurement min and
+    /// max, the command at rest (within the output limits).
+    pub(crate) const fn assemble(
+        features: Features,
+        coefs: [FixedCoef; 5],
+        signals: [I16F16; 5],
+        output_min: I16F16,
+        output_max: I16F16,
+    ) -> Self {
+        let [kp, setpoint_weight, ki_ts, tracking_ratio, filter_alpha] = coefs;
+        let [slew_step, deadband, measurement_min, measurement_max, rest] = signals;
         // Integrator and feed-forward range: the output range widened by its
         // span on both sides. Exact in i64; |bounds| < 3·2³¹ Q16.16 LSB, so
         // the integrator's Q32.32 bits stay below 1.5·2⁴⁸ in magnitude (the
@@ -414,15 +442,7 @@ impl<L: Layout> Config<I16F16, L> {
         let lo = output_min.to_bits() as i64;
         let hi = output_max.to_bits() as i64;
         let span = hi - lo;
-        let zero = attempt!(fixed_signal(p.command_zero, Setting::CommandScale));
-        let rest = if lo > zero.to_bits() as i64 {
-            output_min
-        } else if hi < zero.to_bits() as i64 {
-            output_max
-        } else {
-            zero
-        };
-        Ok(Self {
+        Self {
             features,
             kp,
             setpoint_weight,
@@ -448,7 +468,7 @@ impl<L: Layout> Config<I16F16, L> {
             measurement_max,
             rest,
             layout: PhantomData,
-        })
+        }
     }
 }
 

@@ -146,6 +146,11 @@ impl Features {
         self.0
     }
 
+    /// The set with these raw bits (the caller checks for unknown bits).
+    pub(crate) const fn from_bits(bits: u8) -> Self {
+        Self(bits)
+    }
+
     const NAMES: [(Self, &'static str); 5] = [
         (Self::FILTER, "filter"),
         (Self::DEADBAND, "deadband"),

@@ -43,6 +43,7 @@ pub mod log;
 #[cfg(feature = "monitor")]
 #[allow(clippy::float_arithmetic)] // on-target diagnostics in f32, beside the step
 pub mod monitor;
+mod parts;
 #[allow(clippy::float_arithmetic)] // const conversions from f64, run once
 pub mod q;
 pub mod record;
@@ -62,6 +63,7 @@ pub use controller::{Controller, Input, Output};
 pub use error::{ConfigError, Setting};
 pub use fixed;
 pub use layout::{Features, Layout, Runtime, Shape};
+pub use parts::{CoefParts, ConfigParts};
 pub use q::FixedCoef;
 pub use scaling::{Scale, Scaling};
 pub use schedule::{Breakpoint, Schedule, ScheduleError};

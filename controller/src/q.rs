@@ -170,6 +170,28 @@ impl FixedCoef {
         }
     }
 
+    /// The coefficient `mantissa · 2^-shift` from its stored parts (what
+    /// [`FixedCoef::mantissa`] and [`FixedCoef::shift`] give), with no
+    /// floating point. `None` if `shift` is above [`MAX_SHIFT`].
+    ///
+    /// ```
+    /// use evenkeel::FixedCoef;
+    /// let c = FixedCoef::from_parts(3, 2).ok_or("shift too large")?;
+    /// assert_eq!(c, FixedCoef::with_shift(0.75, 2).ok_or("does not fit")?);
+    /// assert!(FixedCoef::from_parts(1, 63).is_none());
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[must_use]
+    pub const fn from_parts(mantissa: i32, shift: u32) -> Option<Self> {
+        if shift > MAX_SHIFT {
+            return None;
+        }
+        Some(Self {
+            mantissa,
+            shift: shift as u8,
+        })
+    }
+
     /// The stored value as `f64` (exact).
     ///
     /// ```

@@ -191,6 +191,27 @@ impl SlimCoef {
         }
     }
 
+    /// The coefficient `mantissa · 2^-shift` from its stored parts, with no
+    /// floating point. `None` if `shift` is above [`SLIM_MAX_SHIFT`].
+    ///
+    /// ```
+    /// use evenkeel::SlimCoef;
+    /// let c = SlimCoef::from_parts(26_214, 18).ok_or("shift too large")?;
+    /// assert_eq!(c, SlimCoef::from_f64(0.1, 0).ok_or("does not fit")?);
+    /// assert!(SlimCoef::from_parts(1, 31).is_none());
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[must_use]
+    pub const fn from_parts(mantissa: i16, shift: u32) -> Option<Self> {
+        if shift > SLIM_MAX_SHIFT {
+            return None;
+        }
+        Some(Self {
+            mantissa,
+            shift: shift as u8,
+        })
+    }
+
     /// The stored value (exact).
     ///
     /// ```
@@ -609,16 +630,37 @@ impl<L: Layout> Config<Slim16, L> {
             return Err(ConfigError::Inverted(Setting::MeasurementMax));
         }
         let zero = attempt!(signal(p.command_zero, Setting::CommandScale));
+        let rest =
+            Slim16(clamp_i32(zero.0 as i32, output_min.0 as i32, output_max.0 as i32) as i16);
+        let coefs = [kp, setpoint_weight, ki_ts, tracking_ratio, filter_alpha];
+        let signals = [slew_step, deadband, measurement_min, measurement_max, rest];
+        Ok(Self::assemble(
+            features, coefs, signals, output_min, output_max,
+        ))
+    }
+
+    /// The configuration of checked parts; the integrator and feed-forward
+    /// ranges follow from the output limits. `coefs`: Kp, setpoint weight,
+    /// Ki·Ts, Ts/Tt, α; `signals`: slew step, deadband, measurement min and
+    /// max, the command at rest (within the output limits).
+    pub(crate) const fn assemble(
+        features: crate::layout::Features,
+        coefs: [SlimCoef; 5],
+        signals: [Slim16; 5],
+        output_min: Slim16,
+        output_max: Slim16,
+    ) -> Self {
+        let [kp, setpoint_weight, ki_ts, tracking_ratio, filter_alpha] = coefs;
+        let [slew_step, deadband, measurement_min, measurement_max, rest] = signals;
         // Integrator and feed-forward range: the output range widened by
         // its span on both sides (|bounds| ≤ 98 303 raw, so the state's
         // bits stay below 8.06e8: the bound `SlimCoef::integrate` uses).
         let lo = output_min.0 as i32;
         let hi = output_max.0 as i32;
         let span = hi - lo;
-        let rest = clamp_i32(zero.0 as i32, lo, hi);
         let ff_lo = lo - span;
         let ff_hi = hi + span;
-        Ok(Self {
+        Self {
             features,
             kp,
             setpoint_weight,
@@ -636,9 +678,9 @@ impl<L: Layout> Config<Slim16, L> {
             integral_max: ff_hi << SLIM_STATE_FRAC_BITS,
             measurement_min,
             measurement_max,
-            rest: Slim16(rest as i16),
+            rest,
             layout: core::marker::PhantomData,
-        })
+        }
     }
 }
 

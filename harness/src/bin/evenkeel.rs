@@ -14,6 +14,8 @@ use clap::{Args, Parser, Subcommand, ValueEnum};
 use evenkeel_harness::report::{json, junit, summary, write_trace_csv};
 use evenkeel_harness::{BackendKind, Outcome, Scenario, plot};
 
+#[path = "evenkeel/c_config.rs"]
+mod c_config;
 #[path = "evenkeel/compare.rs"]
 mod compare;
 #[path = "evenkeel/design.rs"]
@@ -60,6 +62,11 @@ enum Command {
     /// side by side and judge the difference against `[compare]`
     /// tolerances (derived from the formats when absent).
     Compare(compare::CompareArgs),
+    /// Write a scenario's `[controller]` as a C header for firmware: the
+    /// precomputed Q16.16 coefficients as a `static const
+    /// EkcCoefficients`, loaded with `ekc_load` (no floating point on the
+    /// target; see the README, "From C").
+    CConfig(c_config::CConfigArgs),
 }
 
 #[derive(Args)]
@@ -149,6 +156,7 @@ fn main() -> ExitCode {
         Command::Fit(args) => fit::run(args),
         Command::Replay(args) => replay::run(args),
         Command::Compare(args) => compare::run(args),
+        Command::CConfig(args) => c_config::run(args),
     };
     match result {
         Ok(true) => ExitCode::from(PASS),

@@ -4,7 +4,10 @@
 
 use std::fmt::Write;
 
-use evenkeel::{AntiWindup, Settings};
+use evenkeel::fixed::types::I16F16;
+use evenkeel::{AntiWindup, Config, ConfigError, Settings};
+use evenkeel_c::initializer::{self, Item as CItem};
+use evenkeel_c::types::{EKC_FORMAT_Q16_16, EkcCoefficients};
 use toml_edit::{DocumentMut, Item, Value};
 
 use crate::report::CAUTION;
@@ -135,7 +138,14 @@ pub fn scenario_toml(text: &str, c: &Settings, header: &[String]) -> Result<Stri
 /// and `--rust-out` writes), saying whether it was verified.
 #[must_use]
 pub fn snippet(s: &Scenario, t: &super::Tuned) -> String {
-    let what = format!(
+    rust_snippet(s, &t.settings, &provenance(t))
+}
+
+/// Where a design's output comes from and whether it was verified (the
+/// words inside "Proposed by `evenkeel design` (…)").
+#[must_use]
+pub fn provenance(t: &super::Tuned) -> String {
+    format!(
         "from {}, {} on the {} backend over {} variants",
         t.start_name(),
         if t.passed() {
@@ -145,8 +155,7 @@ pub fn snippet(s: &Scenario, t: &super::Tuned) -> String {
         },
         t.options.backend.name(),
         t.verification.as_ref().map_or(0, |v| v.variants.len())
-    );
-    rust_snippet(s, &t.settings, &what)
+    )
 }
 
 /// A Rust `const` configuration for firmware, checked by the compiler
@@ -226,6 +235,75 @@ pub fn rust_snippet(s: &Scenario, c: &Settings, what: &str) -> String {
     }
     out.push_str(";\npub const CONFIG: Config<I16F16> = evenkeel::config!(I16F16, SETTINGS);\n");
     out
+}
+
+/// The C identifier `design` and `c-config` give the configuration of
+/// scenario `name` (`<name>_coefficients`, other characters as `_`).
+#[must_use]
+pub fn c_name(name: &str) -> String {
+    let mut buf = [0u8; 64];
+    let len = initializer::c_identifier(name, &mut buf);
+    let base = String::from_utf8_lossy(buf.get(..len).unwrap_or_default()).into_owned();
+    format!("{base}_coefficients")
+}
+
+/// A C header for firmware: the Q16.16 configuration of `c` as a
+/// `static const EkcCoefficients` initialiser (the precomputed per-sample
+/// coefficients and limits, exactly those of `evenkeel::config!`), loaded
+/// with `ekc_load` from `evenkeel.h` (crate `evenkeel-c`) with no floating
+/// point on the target. `file_name` makes the include guard; `name` is the
+/// C identifier (see [`c_name`]).
+///
+/// # Errors
+/// A message naming the first setting the Q16.16 format refuses, or a
+/// `name` that is not a C identifier.
+pub fn c_header(
+    s: &Scenario,
+    c: &Settings,
+    what: &str,
+    file_name: &str,
+    name: &str,
+) -> Result<String, String> {
+    if !initializer::is_c_identifier(name) {
+        return Err(format!(
+            "`{name}` is not a C identifier (letters, digits, _; not starting with a digit or ekc_/EKC_/Ekc)"
+        ));
+    }
+    let config = Config::<I16F16>::try_new(c)
+        .map_err(|e: ConfigError| format!("the Q16.16 format refuses the settings: {e}"))?;
+    let coefficients = EkcCoefficients::from_parts(EKC_FORMAT_Q16_16, &config.to_parts());
+    let anti_windup = match c.anti_windup {
+        AntiWindup::BackCalculation { tracking_time_s } => {
+            format!("back-calculation, tracking_time_s = {tracking_time_s:?}")
+        }
+        AntiWindup::ConditionalIntegration => "conditional integration".to_owned(),
+    };
+    let optional =
+        |key: &str, v: Option<f64>| v.map_or(String::new(), |v| format!(", {key} = {v:?}"));
+    let lines = [
+        format!("{what} for scenario `{}`.", s.name),
+        format!(
+            "Settings: period_s = {:?}, kp = {:?}, ki_per_s = {:?}, setpoint_weight = {:?}, output {:?} to {:?}, measurement {:?} to {:?}{}{}{}, {anti_windup}.",
+            c.period_s,
+            c.kp,
+            c.ki_per_s,
+            c.setpoint_weight,
+            c.output_min,
+            c.output_max,
+            c.measurement_min,
+            c.measurement_max,
+            optional("slew_per_s", c.slew_per_s),
+            optional("filter_time_s", c.filter_time_s),
+            optional("deadband", c.deadband),
+        ),
+        "Q16.16 signals (value · 65536). On the target: `static EkcLoop pi;`".to_owned(),
+        format!("then `ekc_load(&pi, &{name})`: no floating point (evenkeel.h, crate evenkeel-c)."),
+    ];
+    let lines: Vec<&str> = lines.iter().map(String::as_str).collect();
+    let mut out = String::new();
+    initializer::write_header(&mut out, file_name, &lines, &[CItem { name, coefficients }])
+        .map_err(|_| format!("`{name}` is not a C identifier"))?;
+    Ok(out)
 }
 
 #[cfg(test)]

@@ -61,7 +61,10 @@ use evenkeel::fixed::types::I16F16;
 use evenkeel::{Config, ConfigError, Settings};
 
 pub use analytic::design;
-pub use edit::{DesignedValue, HEADER_MARK, designed_values, rust_snippet, scenario_toml, snippet};
+pub use edit::{
+    DesignedValue, HEADER_MARK, c_header, c_name, designed_values, provenance, rust_snippet,
+    scenario_toml, snippet,
+};
 pub use export::{html, json, junit};
 pub use feasibility::{Feasibility, Finding, Severity, feasibility};
 pub use formats::{FormatFit, RESOLUTION_SHARE, format_fits, needed};

@@ -75,6 +75,12 @@ pub struct DesignArgs {
     /// standard output).
     #[arg(long, value_name = "PATH")]
     rust_out: Option<PathBuf>,
+    /// Write the configuration for C firmware to PATH (`-`: standard
+    /// output): a header with the precomputed Q16.16 coefficients as a
+    /// `static const EkcCoefficients`, loaded with `ekc_load` (no floating
+    /// point on the target).
+    #[arg(long, value_name = "PATH.h")]
+    c_out: Option<PathBuf>,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -104,6 +110,7 @@ fn plan_outputs(args: &DesignArgs) -> anyhow::Result<Outputs> {
         })?;
     }
     out.file("--rust-out", args.rust_out.as_deref())?;
+    out.file("--c-out", args.c_out.as_deref())?;
     if args.in_place {
         out.in_place("--in-place", &args.scenario)?;
     }
@@ -153,6 +160,22 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
         && tuned.feasibility.feasible()
     {
         out.bytes(path, snippet.as_bytes())?;
+    }
+    if let Some(path) = &args.c_out
+        && tuned.feasibility.feasible()
+    {
+        let header = design::c_header(
+            &scenario,
+            &tuned.settings,
+            &format!(
+                "Proposed by `evenkeel design` ({})",
+                design::provenance(&tuned)
+            ),
+            &output::header_file_name(path),
+            &design::c_name(&scenario.name),
+        )
+        .map_err(|e| anyhow::anyhow!("--c-out: {e}"))?;
+        out.bytes(path, header.as_bytes())?;
     }
     // Nothing is written when nothing was tuned (infeasible); the input
     // itself only when the design passes.

@@ -12,6 +12,16 @@ use evenkeel_harness::files::{OutputPlan, Staging, printable};
 use evenkeel_harness::report::per_run_path;
 use evenkeel_harness::sim::Recording;
 
+/// The file name a header written to `path` is known by (its include
+/// guard is made from it): the last component, or `evenkeel_config.h` for
+/// standard output.
+pub(crate) fn header_file_name(path: &Path) -> String {
+    match path.file_name() {
+        Some(name) if path.as_os_str() != "-" => name.to_string_lossy().into_owned(),
+        _ => "evenkeel_config.h".to_owned(),
+    }
+}
+
 /// The outputs of one command run.
 pub(crate) struct Outputs {
     plan: OutputPlan,

@@ -1,0 +1,313 @@
+//! The controller storage that C owns, and every access through a C
+//! pointer. All the crate's `unsafe` is in this module, one operation per
+//! block, each with the reason it is sound.
+//!
+//! The storage types (`EkcLoop`, `EkcSlimLoop`) are opaque byte arrays of
+//! published size and alignment. Inside is a `Slot`: a tag word, then
+//! the controller. Only `install` writes the tag, always together with a
+//! whole valid controller; every other access reads the tag first and
+//! refuses storage without it (`EKC_ERR_UNCONFIGURED`), so zeroed storage
+//! (a C `static`) is never taken for a controller.
+
+use core::ffi::c_char;
+use core::mem::{align_of, size_of};
+
+use evenkeel::fixed::types::I16F16;
+use evenkeel::{Backend, Controller, Slim16};
+
+use crate::codes::{EKC_ERR_MISALIGNED, EKC_ERR_NULL, EKC_ERR_UNCONFIGURED, EkcCode};
+use crate::types::{
+    EkcCoef, EkcCoefficients, EkcInput, EkcOutput, EkcSettings, EkcSlimInput, EkcSlimOutput,
+};
+
+/// Bytes of an `EkcLoop`.
+pub const EKC_LOOP_SIZE: usize = 152;
+/// Alignment of an `EkcLoop` in bytes.
+pub const EKC_LOOP_ALIGN: usize = 8;
+/// Bytes of an `EkcSlimLoop`.
+pub const EKC_SLIM_LOOP_SIZE: usize = 76;
+/// Alignment of an `EkcSlimLoop` in bytes.
+pub const EKC_SLIM_LOOP_ALIGN: usize = 4;
+
+/// Storage for one Q16.16 controller (`int32_t` signals). Declare it where
+/// it lives (a `static`, a struct member); it is configured by
+/// `ekc_configure` or `ekc_load` and then used only through `ekc_…`
+/// functions. Copying a configured one copies the controller.
+#[repr(C, align(8))]
+pub struct EkcLoop {
+    /// The controller's state: not to be read or written by C.
+    pub opaque: [u8; EKC_LOOP_SIZE],
+}
+
+/// Storage for one 16-bit controller (`int16_t` signals); see `EkcLoop`.
+#[repr(C, align(4))]
+pub struct EkcSlimLoop {
+    /// The controller's state: not to be read or written by C.
+    pub opaque: [u8; EKC_SLIM_LOOP_SIZE],
+}
+
+/// What the storage holds once configured. The controller is first, so
+/// that its address is the storage's (no offset to add on every call).
+#[repr(C)]
+pub(crate) struct Slot<B: Backend> {
+    controller: Controller<B>,
+    /// [`Storage::TAG`].
+    tag: u32,
+}
+
+/// A C storage type and the controller it holds.
+pub(crate) trait Storage {
+    /// The controller's backend.
+    type Backend: Backend;
+    /// The tag of a configured storage of this type (differs per type).
+    const TAG: u32;
+}
+
+impl Storage for EkcLoop {
+    type Backend = I16F16;
+    const TAG: u32 = u32::from_le_bytes(*b"EKCq");
+}
+
+impl Storage for EkcSlimLoop {
+    type Backend = Slim16;
+    const TAG: u32 = u32::from_le_bytes(*b"EKCs");
+}
+
+// The slot fits the published storage, and the storage's alignment is
+// enough for it (checked by the compiler for every target built).
+const _: () = {
+    assert!(size_of::<Slot<I16F16>>() <= size_of::<EkcLoop>());
+    assert!(align_of::<Slot<I16F16>>() <= align_of::<EkcLoop>());
+    assert!(size_of::<EkcLoop>() == EKC_LOOP_SIZE && align_of::<EkcLoop>() == EKC_LOOP_ALIGN);
+    assert!(size_of::<Slot<Slim16>>() <= size_of::<EkcSlimLoop>());
+    assert!(align_of::<Slot<Slim16>>() <= align_of::<EkcSlimLoop>());
+    assert!(
+        size_of::<EkcSlimLoop>() == EKC_SLIM_LOOP_SIZE
+            && align_of::<EkcSlimLoop>() == EKC_SLIM_LOOP_ALIGN
+    );
+};
+
+/// The slot in `storage`, if the pointer is non-null and aligned.
+fn slot<S: Storage>(storage: *const S) -> Result<*mut Slot<S::Backend>, EkcCode> {
+    if storage.is_null() {
+        Err(EKC_ERR_NULL)
+    } else if !storage.is_aligned() {
+        Err(EKC_ERR_MISALIGNED)
+    } else {
+        Ok(storage.cast_mut().cast())
+    }
+}
+
+/// The tag word of the storage behind a checked slot pointer.
+fn tag<B: Backend>(slot: *mut Slot<B>) -> u32 {
+    let tag = slot
+        .wrapping_byte_add(core::mem::offset_of!(Slot<B>, tag))
+        .cast::<u32>();
+    // SAFETY: `slot` is non-null and aligned (from `slot()`) and points to
+    // C storage of the published size (header contract), which is at least
+    // the slot's size (asserted above); `tag` is the address of the slot's
+    // `u32` field inside it (aligned: the slot is), and any bytes are a
+    // valid `u32`.
+    unsafe { tag.read() }
+}
+
+/// Put a new controller (and the tag) into `storage`, whatever it held.
+pub(crate) fn install<S: Storage>(
+    storage: *mut S,
+    controller: Controller<S::Backend>,
+) -> Result<(), EkcCode> {
+    let slot = slot(storage)?;
+    // SAFETY: non-null, aligned, in bounds as in `tag`; C passes no other
+    // pointer to this storage while the call runs (one caller at a time,
+    // header contract); `write` neither reads nor drops the old bytes.
+    unsafe {
+        slot.write(Slot {
+            tag: S::TAG,
+            controller,
+        });
+    }
+    Ok(())
+}
+
+/// Run `f` on the controller in `storage`, if it was configured.
+pub(crate) fn with_mut<S: Storage, T>(
+    storage: *mut S,
+    f: impl FnOnce(&mut Controller<S::Backend>) -> T,
+) -> Result<T, EkcCode> {
+    let slot = slot(storage)?;
+    if tag(slot) != S::TAG {
+        return Err(EKC_ERR_UNCONFIGURED);
+    }
+    // SAFETY: non-null, aligned, in bounds as in `tag`. The tag is written
+    // only by `install`, together with a whole valid controller, and C only
+    // moves these bytes as a whole (the storage is opaque), so they hold a
+    // valid `Controller`. No other reference to it exists while `f` runs:
+    // C makes one call at a time per controller (header contract), and the
+    // reference does not outlive this function.
+    let controller = unsafe { &mut (*slot).controller };
+    Ok(f(controller))
+}
+
+/// Run `f` on the controller in `storage` (read only), if it was
+/// configured.
+pub(crate) fn with_ref<S: Storage, T>(
+    storage: *const S,
+    f: impl FnOnce(&Controller<S::Backend>) -> T,
+) -> Result<T, EkcCode> {
+    let slot = slot(storage)?;
+    if tag(slot) != S::TAG {
+        return Err(EKC_ERR_UNCONFIGURED);
+    }
+    // SAFETY: as in `with_mut`; only a shared reference is made, so the
+    // storage may be read-only memory.
+    let controller = unsafe { &(*slot).controller };
+    Ok(f(controller))
+}
+
+/// Types C passes by pointer that are valid for every bit pattern
+/// (integers and `f64`s only, no `bool`, enum or reference).
+pub(crate) trait Plain: Copy {}
+impl Plain for i32 {}
+impl Plain for i16 {}
+impl Plain for EkcSettings {}
+impl Plain for EkcCoefficients {}
+impl Plain for EkcCoef {}
+impl Plain for EkcInput {}
+impl Plain for EkcOutput {}
+impl Plain for EkcSlimInput {}
+impl Plain for EkcSlimOutput {}
+
+/// A copy of the value C points to.
+pub(crate) fn read<T: Plain>(p: *const T) -> Result<T, EkcCode> {
+    if p.is_null() {
+        return Err(EKC_ERR_NULL);
+    }
+    if !p.is_aligned() {
+        return Err(EKC_ERR_MISALIGNED);
+    }
+    // SAFETY: non-null and aligned (checked above); C passes a pointer to a
+    // whole `T` (header contract) that nothing writes during the call; any
+    // bit pattern is a valid `T` (`Plain`).
+    Ok(unsafe { p.read() })
+}
+
+/// An out-pointer checked before any work is done, so that a bad one
+/// leaves the controller untouched.
+pub(crate) struct Out<T: Plain>(*mut T);
+
+impl<T: Plain> Out<T> {
+    /// `p`, if non-null and aligned.
+    pub(crate) fn new(p: *mut T) -> Result<Self, EkcCode> {
+        if p.is_null() {
+            Err(EKC_ERR_NULL)
+        } else if !p.is_aligned() {
+            Err(EKC_ERR_MISALIGNED)
+        } else {
+            Ok(Self(p))
+        }
+    }
+
+    /// Store the result.
+    pub(crate) fn put(self, value: T) {
+        // SAFETY: non-null and aligned (checked in `new`); C passes a
+        // pointer to writable room for a whole `T` that nothing else uses
+        // during the call (header contract); `T` has no drop glue.
+        unsafe { self.0.write(value) }
+    }
+}
+
+/// The writable bytes of a C text buffer, if there are any.
+pub(crate) fn text_buffer<'a>(buffer: *mut c_char, capacity: usize) -> Option<&'a mut [u8]> {
+    if buffer.is_null() || capacity == 0 || capacity > isize::MAX as usize {
+        return None;
+    }
+    // SAFETY: non-null; C passes `capacity` writable bytes at `buffer`
+    // (header contract) that nothing else uses during the call, and
+    // `capacity` ≤ isize::MAX (checked); `u8` has alignment 1 and is valid
+    // for any bytes; the slice lives only for the call (`ekc_code_text`).
+    Some(unsafe { core::slice::from_raw_parts_mut(buffer.cast::<u8>(), capacity) })
+}
+
+#[cfg(test)]
+mod tests {
+    extern crate std;
+    use super::*;
+
+    #[test]
+    fn published_sizes_are_exact_on_this_target() {
+        // No byte wasted: the header's sizes are the slots' (rounded up to
+        // the alignment).
+        assert_eq!(size_of::<Slot<I16F16>>(), EKC_LOOP_SIZE);
+        assert_eq!(
+            size_of::<Slot<Slim16>>().next_multiple_of(4),
+            EKC_SLIM_LOOP_SIZE
+        );
+    }
+
+    /// Every pointer path of the interface with real pointers (the test
+    /// Miri runs: `cargo +nightly miri test -p evenkeel-c --lib`).
+    #[test]
+    #[allow(clippy::multiple_unsafe_ops_per_block)] // one contract for the whole sequence of calls
+    fn calls_through_pointers() {
+        use crate::codes::*;
+        use crate::common_api::{ekc_code_text, ekc_settings_init};
+        use crate::fixed_api::*;
+        use crate::slim_api::{ekc_slim_configure, ekc_slim_step};
+        use crate::types::{EkcInput, EkcOutput, EkcSettings, EkcSlimOutput};
+        use core::mem::MaybeUninit;
+
+        // SAFETY: (test) zeroed bytes are what a C static holds; every
+        // field of these types is an integer, a float or a byte array.
+        let mut pi: EkcLoop = unsafe { MaybeUninit::zeroed().assume_init() };
+        // SAFETY: (test) as above.
+        let mut settings: EkcSettings = unsafe { MaybeUninit::zeroed().assume_init() };
+        let mut out = EkcOutput::default();
+        // SAFETY: (test) every pointer below is null, or points to a live
+        // local of its type, or is the deliberately misaligned one (never
+        // dereferenced: refused first).
+        unsafe {
+            assert_eq!(ekc_step(&mut pi, 0, 0, &mut out), EKC_ERR_UNCONFIGURED);
+            assert_eq!(
+                ekc_settings_init(&mut settings, 0.01, 0.5, 0.0, -1.0, 1.0),
+                EKC_OK
+            );
+            assert_eq!(
+                ekc_configure(core::ptr::null_mut(), &settings),
+                EKC_ERR_NULL
+            );
+            assert_eq!(ekc_configure(&mut pi, &settings), EKC_OK);
+            assert_eq!(ekc_step(&mut pi, 3, 0, &mut out), EKC_OK);
+            assert_eq!((out.command, out.status), (2, 0)); // 0.5 · 3 LSB = 1.5 → 2
+            let input = EkcInput {
+                setpoint: 3,
+                measurement: 0,
+                feed_forward: 0,
+                applied: 2,
+                has_applied: 1,
+            };
+            assert_eq!(ekc_step_with(&mut pi, &input, &mut out), EKC_OK);
+            let mut value = 0;
+            assert_eq!(ekc_last_command(&pi, &mut value), EKC_OK);
+            assert_eq!(value, out.command);
+            let misaligned = core::ptr::from_mut(&mut pi)
+                .cast::<u8>()
+                .wrapping_add(4)
+                .cast::<EkcLoop>();
+            assert_eq!(ekc_reset(misaligned), EKC_ERR_MISALIGNED);
+            assert_eq!(ekc_step(&mut pi, 0, 0, core::ptr::null_mut()), EKC_ERR_NULL);
+            let mut text = [0u8; 16];
+            let n = ekc_code_text(EKC_ERR_NULL, text.as_mut_ptr().cast(), text.len());
+            assert_eq!(&text[..15], &b"a pointer argument is null"[..15]);
+            assert_eq!(text[15], 0);
+            assert!(n > 16);
+            // SAFETY: (test) as above.
+            let mut slim: EkcSlimLoop = MaybeUninit::zeroed().assume_init();
+            let mut slim_out = EkcSlimOutput::default();
+            assert_eq!(ekc_slim_configure(&mut slim, &settings), EKC_OK);
+            assert_eq!(ekc_slim_step(&mut slim, 3, 0, &mut slim_out), EKC_OK);
+            // 0.5 · 3 = 1.5 raw, clamped to output_max = 1 raw (unit scale).
+            assert_eq!(slim_out.command, 1);
+            assert_ne!(slim_out.status & crate::types::EKC_STATUS_CLAMP_HIGH, 0);
+        }
+    }
+}

@@ -1,0 +1,435 @@
+//! The plain-data structs and constants C passes in and gets back.
+//!
+//! Every struct here is `repr(C)` and valid for any bit pattern (integers
+//! and `double`s only; a flag is a `uint8_t` or `uint32_t` where any
+//! non-zero value means yes), so reading one from C can never produce an
+//! invalid Rust value.
+
+use evenkeel::fixed::types::I16F16;
+use evenkeel::{AntiWindup, CoefParts, ConfigParts, Scale, Scaling, Settings, Slim16, Status};
+
+use crate::codes::{EKC_ERR_FORMAT, EkcCode};
+
+/// Q16.16 one: a signal of `EkcLoop` is `value · EKC_ONE` (`int32_t`).
+pub const EKC_ONE: i32 = 1 << 16;
+
+/// `EkcCoefficients.format` of the Q16.16 backend (`EkcLoop`).
+pub const EKC_FORMAT_Q16_16: u32 = 1;
+/// `EkcCoefficients.format` of the 16-bit backend (`EkcSlimLoop`).
+pub const EKC_FORMAT_SLIM16: u32 = 2;
+
+/// `EkcCoefficients.features`: measurement low-pass.
+pub const EKC_FEATURE_FILTER: u32 = 1 << 0;
+/// `EkcCoefficients.features`: error deadband.
+pub const EKC_FEATURE_DEADBAND: u32 = 1 << 1;
+/// `EkcCoefficients.features`: setpoint weight b ≠ 1.
+pub const EKC_FEATURE_SETPOINT_WEIGHT: u32 = 1 << 2;
+/// `EkcCoefficients.features`: slew limiter.
+pub const EKC_FEATURE_SLEW: u32 = 1 << 3;
+/// `EkcCoefficients.features`: back-calculation anti-windup (otherwise
+/// conditional integration).
+pub const EKC_FEATURE_BACK_CALCULATION: u32 = 1 << 4;
+
+/// `EkcSettings.parts`: `slew_per_s` is given.
+pub const EKC_PART_SLEW: u32 = 1 << 0;
+/// `EkcSettings.parts`: `filter_time_s` is given.
+pub const EKC_PART_FILTER: u32 = 1 << 1;
+/// `EkcSettings.parts`: `deadband` is given.
+pub const EKC_PART_DEADBAND: u32 = 1 << 2;
+/// `EkcSettings.parts`: back-calculation with `tracking_time_s` (otherwise
+/// conditional integration).
+pub const EKC_PART_BACK_CALCULATION: u32 = 1 << 3;
+
+/// Status bit: the command was clamped to `output_max`.
+pub const EKC_STATUS_CLAMP_HIGH: u16 = 1 << 0;
+/// Status bit: the command was clamped to `output_min`.
+pub const EKC_STATUS_CLAMP_LOW: u16 = 1 << 1;
+/// Status bit: the slew limiter shortened the command change.
+pub const EKC_STATUS_SLEW: u16 = 1 << 2;
+/// Status bit: the applied value differed from the last command.
+pub const EKC_STATUS_DOWNSTREAM: u16 = 1 << 3;
+/// Status bit: conditional integration held the integrator.
+pub const EKC_STATUS_INTEGRATOR_HELD: u16 = 1 << 4;
+/// Status bit: the error was inside the deadband.
+pub const EKC_STATUS_DEADBAND: u16 = 1 << 5;
+/// Status bit: the controller tracked an external actuator value.
+pub const EKC_STATUS_TRACKING: u16 = 1 << 6;
+/// Status bit: this step engaged the controller bumplessly.
+pub const EKC_STATUS_ENGAGED: u16 = 1 << 7;
+/// Status bit (fault): a non-finite input (float backends only; never set
+/// here).
+pub const EKC_STATUS_NON_FINITE: u16 = 1 << 8;
+/// Status bit (fault): the measurement was outside its range and clamped.
+pub const EKC_STATUS_MEASUREMENT_RANGE: u16 = 1 << 9;
+/// Status bit (fault): the setpoint was outside the measurement range and
+/// clamped.
+pub const EKC_STATUS_SETPOINT_RANGE: u16 = 1 << 10;
+
+/// Physical-unit settings (`ekc_settings_init` fills the defaults).
+/// Converting them needs `double` arithmetic: on a core without FPU, load
+/// precomputed `EkcCoefficients` instead.
+#[repr(C)]
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct EkcSettings {
+    /// Sample period Ts, seconds, > 0.
+    pub period_s: f64,
+    /// Proportional gain, ≥ 0.
+    pub kp: f64,
+    /// Integral gain, per second, ≥ 0 (not both zero with `kp`).
+    pub ki_per_s: f64,
+    /// Setpoint weight b of the proportional part, in [0, 1] (1: none).
+    pub setpoint_weight: f64,
+    /// Lowest command.
+    pub output_min: f64,
+    /// Highest command, above `output_min`.
+    pub output_max: f64,
+    /// Lowest plausible measurement (default −30 000).
+    pub measurement_min: f64,
+    /// Highest plausible measurement (default 30 000).
+    pub measurement_max: f64,
+    /// Which optional settings below are given: `EKC_PART_…` bits.
+    pub parts: u32,
+    /// Slew limit, command units per second, > 0 (`EKC_PART_SLEW`).
+    pub slew_per_s: f64,
+    /// Measurement filter time constant, seconds, > 0 (`EKC_PART_FILTER`).
+    pub filter_time_s: f64,
+    /// Error deadband half-width, ≥ 0 (`EKC_PART_DEADBAND`).
+    pub deadband: f64,
+    /// Back-calculation tracking time Tt, seconds, ≥ `period_s`
+    /// (`EKC_PART_BACK_CALCULATION`).
+    pub tracking_time_s: f64,
+    /// Raw measurement units per physical unit (default 1).
+    pub measurement_per_unit: f64,
+    /// Raw measurement value at physical zero (default 0).
+    pub measurement_offset: f64,
+    /// ADC resolution in bits of the raw measurement (0: not an ADC).
+    pub measurement_bits: u32,
+    /// Raw command units per physical unit (default 1).
+    pub command_per_unit: f64,
+    /// Raw command value at physical zero (default 0).
+    pub command_offset: f64,
+    /// Non-zero: the actuator takes whole counts (a PWM compare value).
+    pub command_counts: u32,
+}
+
+impl EkcSettings {
+    /// The settings in the controller's terms.
+    #[must_use]
+    pub fn to_settings(&self) -> Settings {
+        let given = |bit: u32, v: f64| (self.parts & bit != 0).then_some(v);
+        let bits = u8::try_from(self.measurement_bits).unwrap_or(u8::MAX);
+        Settings {
+            period_s: self.period_s,
+            kp: self.kp,
+            ki_per_s: self.ki_per_s,
+            setpoint_weight: self.setpoint_weight,
+            output_min: self.output_min,
+            output_max: self.output_max,
+            slew_per_s: given(EKC_PART_SLEW, self.slew_per_s),
+            filter_time_s: given(EKC_PART_FILTER, self.filter_time_s),
+            deadband: given(EKC_PART_DEADBAND, self.deadband),
+            anti_windup: match given(EKC_PART_BACK_CALCULATION, self.tracking_time_s) {
+                Some(tracking_time_s) => AntiWindup::BackCalculation { tracking_time_s },
+                None => AntiWindup::ConditionalIntegration,
+            },
+            measurement_min: self.measurement_min,
+            measurement_max: self.measurement_max,
+            scaling: Scaling {
+                measurement: Scale::new(self.measurement_per_unit, self.measurement_offset),
+                measurement_bits: bits,
+                command: Scale::new(self.command_per_unit, self.command_offset),
+                command_counts: self.command_counts != 0,
+            },
+        }
+    }
+
+    /// The C settings of `s`.
+    #[must_use]
+    pub fn from_settings(s: &Settings) -> Self {
+        let mut parts = 0;
+        let mut part = |bit: u32, v: Option<f64>| {
+            if v.is_some() {
+                parts |= bit;
+            }
+            v.unwrap_or(0.0)
+        };
+        let slew_per_s = part(EKC_PART_SLEW, s.slew_per_s);
+        let filter_time_s = part(EKC_PART_FILTER, s.filter_time_s);
+        let deadband = part(EKC_PART_DEADBAND, s.deadband);
+        let tracking_time_s = part(
+            EKC_PART_BACK_CALCULATION,
+            match s.anti_windup {
+                AntiWindup::BackCalculation { tracking_time_s } => Some(tracking_time_s),
+                AntiWindup::ConditionalIntegration => None,
+            },
+        );
+        Self {
+            period_s: s.period_s,
+            kp: s.kp,
+            ki_per_s: s.ki_per_s,
+            setpoint_weight: s.setpoint_weight,
+            output_min: s.output_min,
+            output_max: s.output_max,
+            measurement_min: s.measurement_min,
+            measurement_max: s.measurement_max,
+            parts,
+            slew_per_s,
+            filter_time_s,
+            deadband,
+            tracking_time_s,
+            measurement_per_unit: s.scaling.measurement.per_unit,
+            measurement_offset: s.scaling.measurement.offset,
+            measurement_bits: u32::from(s.scaling.measurement_bits),
+            command_per_unit: s.scaling.command.per_unit,
+            command_offset: s.scaling.command.offset,
+            command_counts: u32::from(s.scaling.command_counts),
+        }
+    }
+}
+
+/// A stored coefficient: value = `mantissa · 2^-shift`.
+#[repr(C)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct EkcCoef {
+    /// The mantissa (16-bit format: within `int16_t`).
+    pub mantissa: i32,
+    /// The binary point (Q16.16: 0 to 62; 16-bit format: 0 to 30).
+    pub shift: u8,
+}
+
+/// A configuration as precomputed integers: what `ekc_compute` gives and
+/// `ekc_load` takes. `evenkeel design --c-out` and `evenkeel c-config`
+/// write one as a `const` initialiser, so that a firmware configures with
+/// no floating-point code. Signals are raw: Q16.16 bits for `EkcLoop`,
+/// `int16_t` values for `EkcSlimLoop`. The coefficient and signal of a
+/// feature that is off are ignored.
+#[repr(C)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct EkcCoefficients {
+    /// `EKC_FORMAT_Q16_16` or `EKC_FORMAT_SLIM16`: which loop type takes it.
+    pub format: u32,
+    /// `EKC_FEATURE_…` bits: the optional parts that are on.
+    pub features: u32,
+    /// Kp.
+    pub kp: EkcCoef,
+    /// Setpoint weight b, in [0, 1] (`EKC_FEATURE_SETPOINT_WEIGHT`).
+    pub setpoint_weight: EkcCoef,
+    /// Ki·Ts, per sample (shift ≥ 16; 16-bit format ≥ 15).
+    pub ki_ts: EkcCoef,
+    /// Ts/Tt, in (0, 1] (`EKC_FEATURE_BACK_CALCULATION`; shift ≥ 16, or 14).
+    pub tracking_ratio: EkcCoef,
+    /// Filter α = Ts/(Tf + Ts), in (0, 1] (`EKC_FEATURE_FILTER`; shift ≥
+    /// 16, or 15).
+    pub filter_alpha: EkcCoef,
+    /// Largest command change per sample, > 0 (`EKC_FEATURE_SLEW`).
+    pub slew_step: i32,
+    /// Deadband half-width, ≥ 0 (`EKC_FEATURE_DEADBAND`).
+    pub deadband: i32,
+    /// Lowest command.
+    pub output_min: i32,
+    /// Highest command, above `output_min`.
+    pub output_max: i32,
+    /// Lowest plausible measurement.
+    pub measurement_min: i32,
+    /// Highest plausible measurement, above `measurement_min`.
+    pub measurement_max: i32,
+    /// Command at rest (after load and reset), within the output limits.
+    pub rest: i32,
+}
+
+impl EkcCoefficients {
+    /// The C form of `parts` in `format`.
+    #[must_use]
+    pub fn from_parts(format: u32, p: &ConfigParts) -> Self {
+        let c = |x: CoefParts| EkcCoef {
+            mantissa: x.mantissa,
+            shift: x.shift,
+        };
+        Self {
+            format,
+            features: u32::from(p.features),
+            kp: c(p.kp),
+            setpoint_weight: c(p.setpoint_weight),
+            ki_ts: c(p.ki_ts),
+            tracking_ratio: c(p.tracking_ratio),
+            filter_alpha: c(p.filter_alpha),
+            slew_step: p.slew_step,
+            deadband: p.deadband,
+            output_min: p.output_min,
+            output_max: p.output_max,
+            measurement_min: p.measurement_min,
+            measurement_max: p.measurement_max,
+            rest: p.rest,
+        }
+    }
+
+    /// The controller's parts, if these are of `format`.
+    ///
+    /// # Errors
+    /// `EKC_ERR_FORMAT` for another format; unknown feature bits give the
+    /// controller's own error when the parts are checked.
+    pub fn to_parts(&self, format: u32) -> Result<ConfigParts, EkcCode> {
+        if self.format != format {
+            return Err(EKC_ERR_FORMAT);
+        }
+        let c = |x: EkcCoef| CoefParts {
+            mantissa: x.mantissa,
+            shift: x.shift,
+        };
+        Ok(ConfigParts {
+            // Bits above 7 become bit 7, which is no feature either.
+            features: u8::try_from(self.features).unwrap_or(u8::MAX),
+            kp: c(self.kp),
+            setpoint_weight: c(self.setpoint_weight),
+            ki_ts: c(self.ki_ts),
+            tracking_ratio: c(self.tracking_ratio),
+            filter_alpha: c(self.filter_alpha),
+            slew_step: self.slew_step,
+            deadband: self.deadband,
+            output_min: self.output_min,
+            output_max: self.output_max,
+            measurement_min: self.measurement_min,
+            measurement_max: self.measurement_max,
+            rest: self.rest,
+        })
+    }
+}
+
+/// Inputs of one `ekc_step_with` or `ekc_track` (Q16.16 bits).
+#[repr(C)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct EkcInput {
+    /// Setpoint r.
+    pub setpoint: i32,
+    /// Measurement y.
+    pub measurement: i32,
+    /// Feed-forward added before the limits (0 if unused).
+    pub feed_forward: i32,
+    /// What the actuator applied of the previous command (read only when
+    /// `has_applied` is non-zero).
+    pub applied: i32,
+    /// Non-zero: `applied` is known.
+    pub has_applied: u8,
+}
+
+/// Result of one step (Q16.16 bits).
+#[repr(C)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct EkcOutput {
+    /// The command, always within the output limits.
+    pub command: i32,
+    /// `EKC_STATUS_…` bits: what acted during the step.
+    pub status: u16,
+}
+
+/// Inputs of one `ekc_slim_step_with` or `ekc_slim_track` (raw 16-bit).
+#[repr(C)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct EkcSlimInput {
+    /// Setpoint r.
+    pub setpoint: i16,
+    /// Measurement y.
+    pub measurement: i16,
+    /// Feed-forward added before the limits (0 if unused).
+    pub feed_forward: i16,
+    /// What the actuator applied of the previous command (read only when
+    /// `has_applied` is non-zero).
+    pub applied: i16,
+    /// Non-zero: `applied` is known.
+    pub has_applied: u8,
+}
+
+/// Result of one 16-bit step.
+#[repr(C)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct EkcSlimOutput {
+    /// The command, always within the output limits.
+    pub command: i16,
+    /// `EKC_STATUS_…` bits: what acted during the step.
+    pub status: u16,
+}
+
+/// The controller's input of a Q16.16 C input.
+pub(crate) fn fixed_input(i: &EkcInput) -> evenkeel::Input<I16F16> {
+    let q = I16F16::from_bits;
+    let input =
+        evenkeel::Input::new(q(i.setpoint), q(i.measurement)).with_feed_forward(q(i.feed_forward));
+    if i.has_applied != 0 {
+        input.with_applied(q(i.applied))
+    } else {
+        input
+    }
+}
+
+/// The controller's input of a 16-bit C input.
+pub(crate) fn slim_input(i: &EkcSlimInput) -> evenkeel::Input<Slim16> {
+    let q = Slim16::from_raw;
+    let input =
+        evenkeel::Input::new(q(i.setpoint), q(i.measurement)).with_feed_forward(q(i.feed_forward));
+    if i.has_applied != 0 {
+        input.with_applied(q(i.applied))
+    } else {
+        input
+    }
+}
+
+/// Status bits of the header, with their names in the controller.
+pub const STATUS_BITS: [(u16, Status); 11] = [
+    (EKC_STATUS_CLAMP_HIGH, Status::CLAMP_HIGH),
+    (EKC_STATUS_CLAMP_LOW, Status::CLAMP_LOW),
+    (EKC_STATUS_SLEW, Status::SLEW),
+    (EKC_STATUS_DOWNSTREAM, Status::DOWNSTREAM),
+    (EKC_STATUS_INTEGRATOR_HELD, Status::INTEGRATOR_HELD),
+    (EKC_STATUS_DEADBAND, Status::DEADBAND),
+    (EKC_STATUS_TRACKING, Status::TRACKING),
+    (EKC_STATUS_ENGAGED, Status::ENGAGED),
+    (EKC_STATUS_NON_FINITE, Status::NON_FINITE),
+    (EKC_STATUS_MEASUREMENT_RANGE, Status::MEASUREMENT_RANGE),
+    (EKC_STATUS_SETPOINT_RANGE, Status::SETPOINT_RANGE),
+];
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use evenkeel::Features;
+
+    #[test]
+    fn status_bits_are_the_controllers() {
+        let mut all = 0;
+        for (bits, status) in STATUS_BITS {
+            assert_eq!(bits, status.bits());
+            all |= bits;
+        }
+        assert_eq!(Status::from_bits(all).bits(), all);
+        assert_eq!(Status::from_bits(u16::MAX).bits(), all); // no flag missing
+    }
+
+    #[test]
+    fn feature_bits_are_the_controllers() {
+        for (bit, f) in [
+            (EKC_FEATURE_FILTER, Features::FILTER),
+            (EKC_FEATURE_DEADBAND, Features::DEADBAND),
+            (EKC_FEATURE_SETPOINT_WEIGHT, Features::SETPOINT_WEIGHT),
+            (EKC_FEATURE_SLEW, Features::SLEW),
+            (EKC_FEATURE_BACK_CALCULATION, Features::BACK_CALCULATION),
+        ] {
+            assert_eq!(bit, u32::from(f.bits()));
+        }
+    }
+
+    #[test]
+    fn settings_round_trip() {
+        let s = Settings::new(0.01, 2.0, 5.0, -10.0, 10.0)
+            .with_slew_per_s(200.0)
+            .with_deadband(0.0)
+            .with_anti_windup(AntiWindup::BackCalculation {
+                tracking_time_s: 0.1,
+            })
+            .with_scaling(Scaling::NONE.with_adc(12, Scale::new(409.5, 3.0)));
+        assert_eq!(EkcSettings::from_settings(&s).to_settings(), s);
+        let plain = Settings::new(0.5, 1.0, 0.0, 0.0, 1.0);
+        let c = EkcSettings::from_settings(&plain);
+        assert_eq!(c.parts, 0);
+        assert_eq!(c.to_settings(), plain);
+    }
+}
