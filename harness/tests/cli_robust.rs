@@ -38,7 +38,17 @@ fn sweep_writes_every_report_and_shards_merge() {
     assert_eq!(json["criteria"][0]["pass_fraction"], 1.0);
     assert!(json["criteria"][0]["worst_variant"]["params"]["gain"].is_number());
     let xml = std::fs::read_to_string(dir.path().join("s.xml")).unwrap();
-    roxmltree::Document::parse(&xml).unwrap();
+    // Stable JUnit names (no limit in the name), the limit as a property.
+    let doc = roxmltree::Document::parse(&xml).unwrap();
+    let case = doc
+        .descendants()
+        .find(|n| n.has_tag_name("testcase"))
+        .unwrap();
+    assert!(case.attribute("name").unwrap().ends_with(" max"), "{xml}");
+    assert!(
+        case.descendants()
+            .any(|p| p.has_tag_name("property") && p.attribute("name") == Some("limit"))
+    );
     assert!(
         std::fs::read_to_string(dir.path().join("env.svg"))
             .unwrap()
