@@ -1,6 +1,6 @@
 //! Actuator dynamics and limits, in front of any plant.
 
-use super::{Environment, Memo, ParamError, Plant, check, valid_period};
+use super::{Environment, Lagged, Memo, ParamError, Plant, check, valid_period};
 
 /// An actuator that clamps the command to `[min, max]` and follows it with
 /// a first-order lag `τ·ȧ = −a + clamp(u)` (exact discretisation; `τ = 0`
@@ -113,9 +113,12 @@ fn decay_of(tau_s: f64, dt_s: f64) -> Option<(f64, f64)> {
 }
 
 /// A plant driven through an [`Actuator`]. Each period is split into
-/// `substeps` equal pieces; in each piece the plant gets the exact mean of
-/// the actuator output over that piece. That is exact for an integrating
-/// plant and converges as O(h²) for the others.
+/// `substeps` equal pieces; in each piece the plant gets the actuator's
+/// output over that piece ([`Plant::advance_lagged`]): a model that
+/// evaluates its input inside a step (the vehicle's RK4 stages) takes the
+/// exact lagged value at each stage; the others get the exact mean over the
+/// piece, which is exact for an integrating plant and converges as O(h²)
+/// for the others.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Actuated<P> {
     actuator: Actuator,
@@ -161,8 +164,21 @@ impl<P: Plant> Plant for Actuated<P> {
         let h = dt_s / f64::from(self.substeps);
         let decay = self.actuator.decay(h);
         for _ in 0..self.substeps {
+            let start = self.actuator.value;
             let mean = self.actuator.advance_by(u, decay);
-            self.plant.advance(mean, env, h);
+            match decay {
+                Some((ratio, _)) => {
+                    let target = u.clamp(self.actuator.min, self.actuator.max);
+                    let input = Lagged {
+                        target,
+                        gap: start - target,
+                        ratio,
+                        mean,
+                    };
+                    self.plant.advance_lagged(&input, env, h);
+                }
+                None => self.plant.advance(mean, env, h),
+            }
         }
     }
 

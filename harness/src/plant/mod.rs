@@ -24,6 +24,7 @@ mod sensor;
 mod vehicle;
 
 pub use actuator::{Actuated, Actuator};
+
 pub use linear::{FirstOrderLag, Integrator};
 pub use rotor::{Rotor, RotorParams};
 pub use sensor::{Sensor, SensorParams};
@@ -85,6 +86,30 @@ pub trait Plant {
 
     /// Puts the plant at rest with output `output0`.
     fn reset(&mut self, output0: f64);
+
+    /// Advances by `dt_s` seconds while the input follows a known lag over
+    /// the step (an [`Actuator`](crate::plant::Actuator) in front):
+    /// `u(t) = target + gap·e^(−t/τ)`. A model that evaluates its input
+    /// inside the step (the RK4 stages of the vehicle) takes it from there;
+    /// the default holds the step's mean, which is exact for a plant that
+    /// integrates its input.
+    fn advance_lagged(&mut self, input: &Lagged, env: &Environment, dt_s: f64) {
+        self.advance(input.mean, env, dt_s);
+    }
+}
+
+/// An input following a first-order lag over one step of `dt` seconds:
+/// `u(t) = target + gap·e^(−t/τ)` for `0 ≤ t ≤ dt`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Lagged {
+    /// The value the input is heading for.
+    pub target: f64,
+    /// Start value minus `target`.
+    pub gap: f64,
+    /// `dt/τ`, positive.
+    pub ratio: f64,
+    /// The mean of `u(t)` over the step.
+    pub mean: f64,
 }
 
 impl<P: Plant + ?Sized> Plant for Box<P> {
@@ -102,6 +127,9 @@ impl<P: Plant + ?Sized> Plant for Box<P> {
     }
     fn reset(&mut self, output0: f64) {
         (**self).reset(output0);
+    }
+    fn advance_lagged(&mut self, input: &Lagged, env: &Environment, dt_s: f64) {
+        (**self).advance_lagged(input, env, dt_s);
     }
 }
 
