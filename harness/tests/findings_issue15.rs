@@ -306,6 +306,34 @@ fn finding_9_a_meaningless_plant_is_refused_at_load() {
 }
 
 #[test]
+fn finding_9_a_plant_state_that_stops_being_finite_stops_the_run() {
+    // A load of 1e308 measurement/s from t = 1 s on an integrator the
+    // controller (±5, gain 1) cannot hold: the level reaches f64's range
+    // (1.8e308) after about 180 periods, near t = 2.8 s.
+    let runaway = base()
+        .replacen("name = \"tank\"", "name = \"runaway\"", 1)
+        .replacen(
+            "[criteria]",
+            "[disturbance.load]\nsegments = [{ hold_s = 1.0 }, { to = 1e308, hold_s = 3.0 }]\n\n[criteria]",
+            1,
+        );
+    let dir = dir_with(&[("s.toml", &runaway)]);
+    let out = evenkeel(
+        dir.path(),
+        &["check", "s.toml", "--backend", "f64", "--json", "r.json"],
+    );
+    assert_exit(&out, 2);
+    let err = text(&out.stderr);
+    assert!(err.contains("s.toml"), "{err}");
+    assert!(
+        err.contains("the plant's output is inf at t = 2.8 s on the f64 backend"),
+        "{err}"
+    );
+    // Nothing is written for a run that is meaningless.
+    assert_eq!(all_files(dir.path()), ["s.toml"]);
+}
+
+#[test]
 fn finding_10_inputs_and_designs_are_bounded_before_they_run() {
     let dir = dir_with(&[("s.toml", &base())]);
     let d = dir.path();

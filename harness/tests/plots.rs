@@ -136,3 +136,91 @@ fn each_sweep_panel_shows_its_own_worst_variant() {
     assert!(svg.contains(">\nmass_kg = "));
     assert!(svg.contains(">\nactuator_gain_n = "));
 }
+
+#[test]
+fn worst_values_are_ringed_where_and_when_they_happen() {
+    // Every criterion the JSON gives a time for gets a ring and a label
+    // "name value unit at t = T s" on the run plot, and the rings sit at
+    // those times: the panels share one time axis, so the rings' x
+    // positions must lie on one line x = a + b·t (to a pixel's rounding).
+    let tug = demo("baggage_tug").display().to_string();
+    let dir = tempfile::tempdir().unwrap();
+    let out = evenkeel(
+        dir.path(),
+        &[
+            "check",
+            &tug,
+            "--backend",
+            "f64",
+            "--plot",
+            "p.svg",
+            "--json",
+            "r.json",
+        ],
+    );
+    assert_exit(&out, 0);
+    let svg = std::fs::read_to_string(dir.path().join("p.svg")).unwrap();
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("r.json")).unwrap()).unwrap();
+    let timed: Vec<(String, f64)> = json["scenarios"][0]["runs"][0]["criteria"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|c| Some((c["name"].as_str()?.to_owned(), c["at_s"].as_f64()?)))
+        .collect();
+    assert!(timed.len() >= 3, "{timed:?}");
+    // The labels, in the order they are drawn, with the ring drawn just
+    // before each.
+    let mut rings = Vec::new();
+    for (name, at) in &timed {
+        let label_at = svg
+            .find(&format!(">\n{name} "))
+            .unwrap_or_else(|| panic!("no label for {name}"));
+        let line = svg[label_at + 2..].lines().next().unwrap();
+        let t: f64 = line
+            .split("at t = ")
+            .nth(1)
+            .and_then(|s| s.strip_suffix(" s"))
+            .unwrap_or_else(|| panic!("{line}"))
+            .parse()
+            .unwrap();
+        assert!(
+            (t - at).abs() <= 1e-3 * at.abs().max(1.0),
+            "{name}: {t} vs {at}"
+        );
+        let ring = svg[..label_at].rfind("<circle").unwrap();
+        let cx: f64 = svg[ring..]
+            .split("cx=\"")
+            .nth(1)
+            .unwrap()
+            .split('"')
+            .next()
+            .unwrap()
+            .parse()
+            .unwrap();
+        assert!(
+            svg[ring..label_at].contains("r=\"6\""),
+            "{name}: a ring, not a legend mark"
+        );
+        rings.push((*at, cx));
+    }
+    let (lo, hi) = rings.iter().fold((rings[0], rings[0]), |(lo, hi), &r| {
+        (
+            if r.0 < lo.0 { r } else { lo },
+            if r.0 > hi.0 { r } else { hi },
+        )
+    });
+    assert!(
+        hi.0 - lo.0 > 10.0,
+        "times spread enough to fit a line: {rings:?}"
+    );
+    let slope = (hi.1 - lo.1) / (hi.0 - lo.0);
+    assert!(slope > 0.0);
+    for (t, x) in &rings {
+        let expected = lo.1 + slope * (t - lo.0);
+        assert!(
+            (x - expected).abs() <= 1.5,
+            "ring at x = {x} for t = {t} s, expected {expected:.1}: {rings:?}"
+        );
+    }
+}
