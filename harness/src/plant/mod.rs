@@ -88,7 +88,7 @@ pub trait Plant {
     fn reset(&mut self, output0: f64);
 
     /// Advances by `dt_s` seconds while the input follows a known lag over
-    /// the step (an [`Actuator`](crate::plant::Actuator) in front):
+    /// the step (an [`Actuator`] in front):
     /// `u(t) = target + gap·e^(−t/τ)`. A model that evaluates its input
     /// inside the step (the RK4 stages of the vehicle) takes it from there;
     /// the default holds the step's mean, which is exact for a plant that
