@@ -11,6 +11,9 @@ use crate::tables::{ConfigVisitor, SCHEDULE_ROWS, golden, schedule, slim16};
 /// A signal as the vector files store it: Q16.16 bits, or a 16-bit raw
 /// value sign-extended (format version 3).
 pub trait Word: Backend {
+    /// Whether the backend's vector files may schedule (`false` keeps the
+    /// schedule code out of a firmware that replays only 16-bit files).
+    const SCHEDULES: bool;
     /// The signal stored as `word`; `None` if it does not fit the backend.
     fn from_word(word: i32) -> Option<Self>;
     /// The stored form of the signal.
@@ -18,6 +21,7 @@ pub trait Word: Backend {
 }
 
 impl Word for I16F16 {
+    const SCHEDULES: bool = true;
     fn from_word(word: i32) -> Option<Self> {
         Some(I16F16::from_bits(word))
     }
@@ -27,6 +31,8 @@ impl Word for I16F16 {
 }
 
 impl Word for Slim16 {
+    // FORMATS.md §8: no gain schedules for this format yet.
+    const SCHEDULES: bool = false;
     fn from_word(word: i32) -> Option<Self> {
         i16::try_from(word).ok().map(Slim16::from_raw)
     }
@@ -86,7 +92,8 @@ pub enum ReplayError {
     /// The vector file is malformed.
     Format(FormatError),
     /// The file and the compile-time tables disagree (scenario count or
-    /// name).
+    /// name, or a schedule step without a schedule or in a backend without
+    /// schedules).
     Tables,
     /// A retune refers to a gain the scenario does not have, or the
     /// controller refused it.
@@ -298,6 +305,9 @@ pub fn apply<B: Word, L: Layout>(
             run(pi)
         }
         Op::Schedule { at } => {
+            if !B::SCHEDULES {
+                return Err(ReplayError::Tables);
+            }
             let table = table.ok_or(ReplayError::Tables)?;
             probe::schedule(pi, table, q(at)?);
             run(pi)
