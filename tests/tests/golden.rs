@@ -500,3 +500,29 @@ fn slim16_vectors_cover_every_flag_operation_and_feature() {
         "keep the file small: it is embedded in M0 flash"
     );
 }
+
+/// The sub-LSB scenario's command changes exactly where its comment works
+/// out by hand (`tests/src/vectors/slim_scenarios.rs`, `sub_lsb_integral`):
+/// 0 → 1 at step 256 from 1-LSB errors at Ki·Ts = 1e-4, held through 100
+/// steps of a 1-LSB error that Ki·Ts = 3e-5 cannot integrate, 1 → 0 at
+/// step 445 from a 3-LSB error that it can.
+#[test]
+fn slim16_sub_lsb_integral_moves_stalls_and_returns() {
+    let recordings = vectors::slim16_scenarios().expect("valid");
+    let rec = recordings
+        .iter()
+        .find(|r| r.name == "slim_sub_lsb_integral")
+        .expect("present");
+    let changes: Vec<(usize, i32)> = rec
+        .steps
+        .iter()
+        .enumerate()
+        .scan(0, |last, (k, s)| {
+            let changed = s.command != *last;
+            *last = s.command;
+            Some(changed.then_some((k, s.command)))
+        })
+        .flatten()
+        .collect();
+    assert_eq!(changes, [(256, 1), (445, 0)]);
+}

@@ -386,23 +386,27 @@ fn downstream_saturation() -> Result<Recording, ConfigError> {
     Ok(rec.finish())
 }
 
-/// Raw units (no scaling). Ki·Ts = 1e-4: a 1-LSB error adds
-/// round(0.8192) = 1 state LSB per step (2⁻¹³ raw), so the command moves by
-/// one LSB only after thousands of steps; then Ki·Ts = 3e-5, where a 1-LSB
-/// error adds round(0.25) = 0 (the integrator stalls) and a 3-LSB error
-/// round(0.74) = 1.
+/// Raw units (no scaling), P = 0. Ki·Ts = 1e-4: a 40-LSB error adds 33
+/// state LSB (2⁻¹³ raw) per step, 120 steps bring I to 3 960, just below
+/// the half LSB (4 096) where the command becomes 1; a 1-LSB error then
+/// adds round(0.8192) = 1 per step: the command is 1 from step 256 (I =
+/// 3 960 + 136). From step 300 (I = 4 140) Ki·Ts = 3e-5: a 1-LSB error
+/// adds round(−0.25) = 0 (the integrator stalls, the command stays 1); from
+/// step 400 a 3-LSB error adds round(−0.74) = −1 per step: the command is 0
+/// again from step 445 (I = 4 140 − 45). Pinned by
+/// `tests/golden.rs::slim16_sub_lsb_integral_moves_stalls_and_returns`.
 fn sub_lsb_integral() -> Result<Recording, ConfigError> {
     let settings =
         Settings::new(0.001, 0.0, 0.1, -100.0, 100.0).with_measurement_range(-1_000.0, 1_000.0);
     let mut rec = SlimRecorder::new("slim_sub_lsb_integral", settings)?;
     for k in 0..600 {
         let y = match k {
-            0..200 => -40,
-            200..300 => -1,
+            0..120 => -40,
+            120..300 => -1,
             300..400 => 1,
             _ => 3,
         };
-        let event = if k == 400 {
+        let event = if k == 300 {
             SlimEvent::Retune {
                 kp: 0.0,
                 ki_per_s: 0.03,
