@@ -1,5 +1,6 @@
 //! Turns the committed vector files into compile-time tables, one module
-//! per file: one `Config<I16F16>` per scenario (through `evenkeel::config!`,
+//! per file: one `Config<I16F16>` per scenario (`Config<Slim16>` for the
+//! 16-bit file, version 3) (through `evenkeel::config!`,
 //! so the target never converts settings at run time and links no
 //! floating-point routine), the same in the scenario's compile-time layout,
 //! each scenario's retune gains, and its gain schedule (through
@@ -13,23 +14,51 @@ use std::{env, fs};
 #[allow(dead_code)]
 mod format;
 
-use format::{File, HAS_BACK_CALCULATION, HAS_DEADBAND, HAS_FILTER, HAS_SLEW};
+use format::{
+    COMMAND_COUNTS, File, HAS_BACK_CALCULATION, HAS_DEADBAND, HAS_FILTER, HAS_SLEW, VERSION_SLIM16,
+};
+
+/// The backend a file's scenarios run on.
+struct Backend {
+    /// Signal type.
+    signal: &'static str,
+    /// Coefficient type.
+    coef: &'static str,
+    /// The `const fn` in `lib.rs` that rebuilds a stored gain.
+    gain: &'static str,
+}
+
+const FIXED: Backend = Backend {
+    signal: "I16F16",
+    coef: "FixedCoef",
+    gain: "gain",
+};
+const SLIM16: Backend = Backend {
+    signal: "Slim16",
+    coef: "SlimCoef",
+    gain: "slim_gain",
+};
 
 fn main() {
     let manifest = PathBuf::from(env::var_os("CARGO_MANIFEST_DIR").expect("set by cargo"));
     println!("cargo:rerun-if-changed=src/format.rs");
     let mut out = String::new();
-    for (module, file) in [("golden", "golden.ekv"), ("schedule", "schedule.ekv")] {
+    for (module, file, backend) in [
+        ("golden", "golden.ekv", FIXED),
+        ("schedule", "schedule.ekv", FIXED),
+        ("slim16", "slim16.ekv", SLIM16),
+    ] {
         let path = manifest.join("../../shared/vectors").join(file);
         println!("cargo:rerun-if-changed={}", path.display());
-        out.push_str(&tables(module, &path));
+        out.push_str(&tables(module, &path, &backend));
     }
     let dest = PathBuf::from(env::var_os("OUT_DIR").expect("set by cargo")).join("tables.rs");
     fs::write(dest, out).expect("write tables.rs");
 }
 
-/// The module `module` for the vector file at `path`.
-fn tables(module: &str, path: &Path) -> String {
+/// The module `module` for the vector file at `path`, whose scenarios run
+/// on `backend`.
+fn tables(module: &str, path: &Path, backend: &Backend) -> String {
     let bytes = fs::read(path).unwrap_or_else(|e| {
         panic!(
             "cannot read {}: {e}; regenerate it with `cargo run -p evenkeel-tests --bin make-vectors`",
@@ -39,6 +68,15 @@ fn tables(module: &str, path: &Path) -> String {
     let path = fs::canonicalize(path).expect("exists: it was just read");
     let file =
         File::open(&bytes).unwrap_or_else(|e| panic!("{}: {}", path.display(), e.describe()));
+    assert_eq!(
+        file.version == VERSION_SLIM16,
+        backend.signal == SLIM16.signal,
+        "{}: format version {} for backend {}",
+        path.display(),
+        file.version,
+        backend.signal
+    );
+    let Backend { signal, coef, gain } = backend;
 
     let mut configs = String::new();
     let mut gains = String::new();
@@ -65,11 +103,22 @@ fn tables(module: &str, path: &Path) -> String {
         } else {
             "AntiWindup::ConditionalIntegration".to_owned()
         };
+        let c = b.scaling;
+        let scaling = format!(
+            "evenkeel::Scaling {{ measurement: evenkeel::Scale::new({}, {}), \
+             measurement_bits: {}, command: evenkeel::Scale::new({}, {}), command_counts: {} }}",
+            f(c.measurement_per_unit),
+            f(c.measurement_offset),
+            c.measurement_bits,
+            f(c.command_per_unit),
+            f(c.command_offset),
+            c.flags & COMMAND_COUNTS != 0,
+        );
         let settings = format!(
             "Settings {{ period_s: {}, kp: {}, ki_per_s: {}, \
              setpoint_weight: {}, output_min: {}, output_max: {}, slew_per_s: {}, \
              filter_time_s: {}, deadband: {}, anti_windup: {anti_windup}, \
-             measurement_min: {}, measurement_max: {}, scaling: evenkeel::Scaling::NONE }}",
+             measurement_min: {}, measurement_max: {}, scaling: {scaling} }}",
             f(b.period_s),
             f(b.kp),
             f(b.ki_per_s),
@@ -82,7 +131,7 @@ fn tables(module: &str, path: &Path) -> String {
             f(b.measurement_min),
             f(b.measurement_max),
         );
-        writeln!(configs, "    evenkeel::config!(I16F16, {settings}),").expect("write to String");
+        writeln!(configs, "    evenkeel::config!({signal}, {settings}),").expect("write to String");
         let mut rows = String::new();
         for i in 0..s.row_count() {
             let [at, kp, ki] = s.row(i).expect("in range");
@@ -109,8 +158,8 @@ fn tables(module: &str, path: &Path) -> String {
             layouts,
             "    evenkeel::layout!(pub Scenario{index}: {shape});\n\
              /// Scenario {index} in its compile-time layout.\n\
-             pub const LAYOUT_CONFIG_{index}: Config<I16F16, Scenario{index}> = \
-             evenkeel::config!(I16F16, Scenario{index}, {settings});"
+             pub const LAYOUT_CONFIG_{index}: Config<{signal}, Scenario{index}> = \
+             evenkeel::config!({signal}, Scenario{index}, {settings});"
         )
         .expect("write to String");
         if s.row_count() > 0 {
@@ -144,7 +193,7 @@ fn tables(module: &str, path: &Path) -> String {
             let g = s.gain(i).expect("in range");
             write!(
                 gains,
-                "(gain({}, {}), gain({}, {})), ",
+                "({gain}({}, {}), {gain}({}, {})), ",
                 g.kp_mantissa, g.kp_shift, g.ki_ts_mantissa, g.ki_ts_shift
             )
             .expect("write to String");
@@ -163,17 +212,17 @@ fn tables(module: &str, path: &Path) -> String {
          /// Scenario names, in file order.\n\
          pub static NAMES: [&str; {n}] = [\n{names}];\n\n\
          /// Each scenario's initial configuration, evaluated at compile time.\n\
-         pub static CONFIGS: [Config<I16F16>; {n}] = [\n{configs}];\n\n\
+         pub static CONFIGS: [Config<{signal}>; {n}] = [\n{configs}];\n\n\
          /// Each scenario's retune gains (Kp, Ki·Ts).\n\
-         pub static GAINS: [&[(FixedCoef, FixedCoef)]; {n}] = [\n{gains}];\n\n\
+         pub static GAINS: [&[({coef}, {coef})]; {n}] = [\n{gains}];\n\n\
          /// Each scenario's gain schedule, if it has one, built at compile time.\n\
-         pub static SCHEDULES: [Option<&Schedule<I16F16, SCHEDULE_ROWS>>; {n}] = [\n{schedules}];\n\n\
+         pub static SCHEDULES: [Option<&Schedule<{signal}, SCHEDULE_ROWS>>; {n}] = [\n{schedules}];\n\n\
          /// Each scenario's compile-time layout, its configuration and schedule.\n\
          pub mod layouts {{\n\
          use super::*;\n{layouts}}}\n\n\
          /// Hand scenario `index`'s compile-time configuration (and schedule)\n\
          /// to `visitor`; `false` if there is no such scenario.\n\
-         pub fn visit_layout(index: usize, visitor: &mut impl ConfigVisitor) -> bool {{\n\
+         pub fn visit_layout(index: usize, visitor: &mut impl ConfigVisitor<{signal}>) -> bool {{\n\
          use layouts::*;\n\
          match index {{\n{visits}\
          _ => return false,\n\

@@ -361,6 +361,23 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// assert_eq!(I16F16::narrow(I32F32::from_bits(-0x8000)).to_bits(), 0);
     /// ```
     fn narrow(acc: Self::Accum) -> Self;
+    /// [`Backend::narrow`] of an accumulator inside the range the
+    /// controller keeps its state in (the integrator within its range, the
+    /// filter state within the signal range): 16-bit format |acc| < 2³⁰
+    /// state LSB, where the rounding half can be added before the shift
+    /// without wrapping; outside that range the result is unspecified (it
+    /// never panics). The default is [`Backend::narrow`].
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Slim16};
+    /// for acc in [4095, 4096, -4096, -4097, 805_298_176, -805_298_176] {
+    ///     assert_eq!(Slim16::narrow_state(acc), Slim16::narrow(acc));
+    /// }
+    /// ```
+    #[inline(always)]
+    fn narrow_state(acc: Self::Accum) -> Self {
+        Self::narrow(acc)
+    }
     /// The signal of a whole count `c` (an ADC reading) in raw units:
     /// exact where the format holds it, else saturated.
     ///

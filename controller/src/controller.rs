@@ -388,9 +388,11 @@ impl<B: Backend, L: Layout> Controller<B, L> {
             // together below and nowhere else (`new` sets both to zero).
             let previous = self.last_filtered;
             debug_assert!(previous == B::narrow(self.filtered));
+            // Inside the signal range (see `SlimCoef::integrate` and
+            // `FixedCoef::integrate`): the state's own narrowing.
             let alpha = coef::<B, L>(c.filter_alpha, Slot::FilterAlpha);
             self.filtered = B::integrate(self.filtered, y.sub(previous), alpha);
-            B::narrow(self.filtered)
+            B::narrow_state(self.filtered)
         } else {
             // A compile-time layout without filter never reads the state
             // again; a run-time configuration may gain a filter by re-tuning.
@@ -410,7 +412,9 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         let (p, e, in_deadband) = proportional(c, on, r, y_f);
         status.set_if(in_deadband, Status::DEADBAND);
 
-        let mut v = p.add(B::narrow(self.integral)).add(ff);
+        // The integrator is within its range (or zero before the first
+        // step), where the state's own narrowing applies.
+        let mut v = p.add(B::narrow_state(self.integral)).add(ff);
         if state & ENGAGE != 0 {
             let actuator = self.engage_at;
             // Bumpless engage: the command continues from the actuator's

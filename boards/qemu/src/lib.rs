@@ -1,4 +1,5 @@
-//! What every emulated evenkeel board does: replay the golden vectors, time
+//! What every emulated evenkeel board does: replay the golden vectors (the
+//! Q16.16 golden and schedule sets, the 16-bit set), time
 //! the controller, print the results as semihosting text and exit with the
 //! verdict (QEMU's exit status).
 //!
@@ -15,7 +16,7 @@ use cortex_m_semihosting::debug::{self, EXIT_FAILURE, EXIT_SUCCESS};
 use cortex_m_semihosting::hio::{self, HostStream};
 use evenkeel_replay::cost::{self, Clock, Cost, Rate};
 use evenkeel_replay::replay::{self, Mismatch, Report};
-use evenkeel_replay::tables::{golden, schedule};
+use evenkeel_replay::tables::{golden, schedule, slim16};
 
 /// What differs between the boards.
 #[derive(Clone, Copy, Debug)]
@@ -116,14 +117,16 @@ pub fn run(board: &Board) -> ! {
     let _ = writeln!(console, "evenkeel boards: {}", board.name);
     let _ = writeln!(
         console,
-        "vectors: golden {} bytes, schedule {} bytes",
+        "vectors: golden {} bytes, schedule {} bytes, slim16 {} bytes",
         golden::VECTORS.len(),
-        schedule::VECTORS.len()
+        schedule::VECTORS.len(),
+        slim16::VECTORS.len()
     );
     let mut passed = true;
     for (what, result) in [
         ("replay", replay::run(&mut console)),
         ("schedule replay", replay::run_schedules(&mut console)),
+        ("slim16 replay", replay::run_slim16(&mut console)),
     ] {
         passed &= match result {
             Ok(s) => {

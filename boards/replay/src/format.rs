@@ -1,9 +1,10 @@
-//! Decoder for the vector files, format versions 1 and 2
+//! Decoder for the vector files, format versions 1, 2 and 3
 //! (`shared/vectors/FORMAT.md` is the specification).
 //!
 //! Streams straight from the bytes (flash on a microcontroller): no buffer,
 //! no allocation, no panic; a malformed file gives a [`FormatError`].
-//! Signals are raw Q16.16 bits (`i32`) and settings raw `f64` bits (`u64`),
+//! Signals are raw Q16.16 bits (`i32`; in version 3 raw 16-bit values,
+//! sign-extended) and settings raw `f64` bits (`u64`),
 //! so decoding needs no floating point. The build script of this crate
 //! includes this file too, to turn each scenario's settings into a
 //! compile-time configuration.
@@ -15,6 +16,11 @@ pub const VERSION: u8 = 1;
 /// Version 2: version 1 plus breakpoint rows per scenario and the
 /// schedule operation (`schedule.ekv`).
 pub const VERSION_SCHEDULE: u8 = 2;
+/// Version 3: version 1 for the 16-bit backend (`slim16.ekv`): each
+/// scenario adds its scaling, every signal is a 16-bit raw value.
+pub const VERSION_SLIM16: u8 = 3;
+/// Scaling flag (version 3): the command is whole actuator counts.
+pub const COMMAND_COUNTS: u8 = 1 << 0;
 /// Length of one encoded breakpoint row (three `f64` bit patterns).
 pub const ROW_LEN: usize = 24;
 /// Length of the file header in bytes.
@@ -60,6 +66,8 @@ pub enum FormatError {
     StepSection,
     /// Bytes left after the last scenario.
     Trailing,
+    /// A signal outside 16 bits in a version-3 file.
+    Range,
 }
 
 impl FormatError {
@@ -75,6 +83,7 @@ impl FormatError {
             Self::Op(_) => "unknown step operation or reserved bit",
             Self::StepSection => "step section length does not match its count",
             Self::Trailing => "bytes after the last scenario",
+            Self::Range => "signal outside 16 bits in a 16-bit file",
         }
     }
 }
@@ -183,7 +192,7 @@ impl<'a> Cursor<'a> {
 pub struct File<'a> {
     /// Number of scenarios in the file.
     pub scenario_count: u8,
-    /// Format version (1 or 2).
+    /// Format version (1, 2 or 3).
     pub version: u8,
     body: &'a [u8],
 }
@@ -200,7 +209,7 @@ impl<'a> File<'a> {
             return Err(FormatError::Magic);
         }
         let version = c.u8()?;
-        if version != VERSION && version != VERSION_SCHEDULE {
+        if !matches!(version, VERSION | VERSION_SCHEDULE | VERSION_SLIM16) {
             return Err(FormatError::Version(version));
         }
         let scenario_count = c.u8()?;
@@ -259,6 +268,45 @@ pub struct SettingsBits {
     pub deadband: u64,
     /// tracking_time_s (if [`HAS_BACK_CALCULATION`]).
     pub tracking_time_s: u64,
+    /// Version 3: the scaling (`evenkeel::Scaling`); version 1 and 2:
+    /// [`ScalingBits::NONE`].
+    pub scaling: ScalingBits,
+}
+
+/// A scenario's scaling as raw `f64` bit patterns (same fields as
+/// `evenkeel::Scaling`).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct ScalingBits {
+    /// measurement.per_unit.
+    pub measurement_per_unit: u64,
+    /// measurement.offset.
+    pub measurement_offset: u64,
+    /// measurement_bits (0: not an ADC).
+    pub measurement_bits: u8,
+    /// command.per_unit.
+    pub command_per_unit: u64,
+    /// command.offset.
+    pub command_offset: u64,
+    /// `COMMAND_COUNTS` and nothing else, or 0.
+    pub flags: u8,
+}
+
+impl ScalingBits {
+    /// Raw = physical on both sides (`evenkeel::Scaling::NONE`).
+    pub const NONE: Self = Self {
+        measurement_per_unit: 0x3ff0_0000_0000_0000, // 1.0
+        measurement_offset: 0,
+        measurement_bits: 0,
+        command_per_unit: 0x3ff0_0000_0000_0000,
+        command_offset: 0,
+        flags: 0,
+    };
+}
+
+impl Default for ScalingBits {
+    fn default() -> Self {
+        Self::NONE
+    }
 }
 
 /// A gain pair of a retune: (mantissa, shift) of Kp and of Ki·Ts.
@@ -424,9 +472,22 @@ impl<'a> Scenarios<'a> {
         if flags & HAS_BACK_CALCULATION != 0 {
             s.tracking_time_s = c.u64()?;
         }
+        if version == VERSION_SLIM16 {
+            s.scaling = ScalingBits {
+                measurement_per_unit: c.u64()?,
+                measurement_offset: c.u64()?,
+                command_per_unit: c.u64()?,
+                command_offset: c.u64()?,
+                measurement_bits: c.u8()?,
+                flags: c.u8()?,
+            };
+            if s.scaling.flags & !COMMAND_COUNTS != 0 {
+                return Err(FormatError::Op(s.scaling.flags));
+            }
+        }
         let gain_count = c.u8()?;
         let gains = c.take(usize::from(gain_count) * GAIN_LEN)?;
-        let rows = if version >= VERSION_SCHEDULE {
+        let rows = if version == VERSION_SCHEDULE {
             let row_count = c.u8()?;
             c.take(usize::from(row_count) * ROW_LEN)?
         } else {
@@ -535,7 +596,7 @@ impl Steps<'_> {
             },
             3 => Op::Reset,
             4 => Op::Retune { index: c.varint()? },
-            5 if version >= VERSION_SCHEDULE => Op::Schedule {
+            5 if version == VERSION_SCHEDULE => Op::Schedule {
                 at: c.delta(prev.schedule_at)?,
             },
             other => return Err(FormatError::Op(other)),
@@ -566,6 +627,22 @@ impl Steps<'_> {
             Op::Schedule { at } => at,
             _ => prev.schedule_at,
         };
+        if version == VERSION_SLIM16 {
+            let actuator = match op {
+                Op::Engage { actuator } | Op::Track { actuator } => actuator,
+                _ => 0,
+            };
+            let fits = |x: i32| i16::try_from(x).is_ok();
+            if !(fits(actuator)
+                && fits(setpoint)
+                && fits(feed_forward)
+                && fits(measurement)
+                && fits(applied.unwrap_or(0))
+                && fits(command))
+            {
+                return Err(FormatError::Range);
+            }
+        }
         Ok(Step {
             op,
             schedule_at,

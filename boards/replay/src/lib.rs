@@ -1,10 +1,12 @@
 //! Golden-vector replay for evenkeel, shared by every board firmware and by
 //! the host test `tests/tests/golden.rs`.
 //!
-//! The vector file (`shared/vectors/golden.ekv`) is embedded and read in
-//! place ([`format`]); each scenario's configuration is evaluated at compile
-//! time ([`tables`]); [`replay::run`] drives the controller through
-//! [`probe`] and reports every bit difference to a [`replay::Report`];
+//! The vector files (`shared/vectors/golden.ekv`, `schedule.ekv` and the
+//! 16-bit set `slim16.ekv`) are embedded and read in place ([`format`]);
+//! each scenario's configuration is evaluated at compile time
+//! ([`tables`]); [`replay::run`], [`replay::run_schedules`] and
+//! [`replay::run_slim16`] drive the controller through [`probe`] and
+//! report every bit difference to a [`replay::Report`];
 //! [`cost`] times single steps against a [`cost::Clock`].
 #![no_std]
 #![forbid(unsafe_code)]
@@ -21,22 +23,27 @@ pub type Fixed = evenkeel::fixed::types::I16F16;
 pub type Slim16 = evenkeel::Slim16;
 
 /// Compile-time tables generated from the vector files by `build.rs`: one
-/// module per file ([`tables::golden`], [`tables::schedule`]).
+/// module per file ([`tables::golden`], [`tables::schedule`],
+/// [`tables::slim16`]).
 pub mod tables {
     use evenkeel::fixed::types::I16F16;
-    use evenkeel::{AntiWindup, Breakpoint, Config, FixedCoef, Layout, Schedule, Settings, Shape};
+    use evenkeel::{
+        AntiWindup, Backend, Breakpoint, Config, FixedCoef, Layout, Schedule, Settings, Shape,
+        Slim16, SlimCoef,
+    };
 
     /// Breakpoint rows a schedule scenario may have.
     pub const SCHEDULE_ROWS: usize = 4;
 
-    /// Something that takes a configuration of any compile-time layout (each
-    /// scenario's layout is its own type), with its schedule if it has one.
-    pub trait ConfigVisitor {
+    /// Something that takes a configuration of backend `B` in any
+    /// compile-time layout (each scenario's layout is its own type), with
+    /// its schedule if it has one.
+    pub trait ConfigVisitor<B: Backend> {
         /// Take one configuration.
         fn visit<L: Layout>(
             &mut self,
-            config: Config<I16F16, L>,
-            schedule: Option<&'static Schedule<I16F16, SCHEDULE_ROWS, L>>,
+            config: Config<B, L>,
+            schedule: Option<&'static Schedule<B, SCHEDULE_ROWS, L>>,
         );
     }
 
@@ -47,6 +54,16 @@ pub mod tables {
         match FixedCoef::with_shift(value, shift) {
             Some(c) if c.mantissa() == mantissa => c,
             _ => panic!("vector file: gain does not round-trip"),
+        }
+    }
+
+    /// A 16-bit gain from its stored form (mantissa · 2^-shift, the
+    /// mantissa sign-extended); for constant evaluation only.
+    const fn slim_gain(mantissa: i32, shift: u32) -> SlimCoef {
+        let value = mantissa as f64 / (1u64 << shift) as f64;
+        match SlimCoef::with_shift(value, shift) {
+            Some(c) if c.mantissa() as i32 == mantissa => c,
+            _ => panic!("vector file: 16-bit gain does not round-trip"),
         }
     }
 

@@ -1,12 +1,45 @@
-//! Replay every scenario of the embedded vector file and compare each
+//! Replay every scenario of the embedded vector files and compare each
 //! output bit for bit.
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Config, Controller, FixedCoef, Input, Layout, Output, Schedule};
+use evenkeel::{Backend, Config, Controller, Input, Layout, Output, Schedule, Slim16};
 
 use crate::format::{File, FormatError, Op, Scenario, Step};
 use crate::probe;
-use crate::tables::{ConfigVisitor, SCHEDULE_ROWS, golden, schedule};
+use crate::tables::{ConfigVisitor, SCHEDULE_ROWS, golden, schedule, slim16};
+
+/// A signal as the vector files store it: Q16.16 bits, or a 16-bit raw
+/// value sign-extended (format version 3).
+pub trait Word: Backend {
+    /// Whether the backend's vector files may schedule (`false` keeps the
+    /// schedule code out of a firmware that replays only 16-bit files).
+    const SCHEDULES: bool;
+    /// The signal stored as `word`; `None` if it does not fit the backend.
+    fn from_word(word: i32) -> Option<Self>;
+    /// The stored form of the signal.
+    fn word(self) -> i32;
+}
+
+impl Word for I16F16 {
+    const SCHEDULES: bool = true;
+    fn from_word(word: i32) -> Option<Self> {
+        Some(I16F16::from_bits(word))
+    }
+    fn word(self) -> i32 {
+        self.to_bits()
+    }
+}
+
+impl Word for Slim16 {
+    // FORMATS.md §8: no gain schedules for this format yet.
+    const SCHEDULES: bool = false;
+    fn from_word(word: i32) -> Option<Self> {
+        i16::try_from(word).ok().map(Slim16::from_raw)
+    }
+    fn word(self) -> i32 {
+        i32::from(self.raw())
+    }
+}
 
 /// One output that differs from the vector.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -17,9 +50,9 @@ pub struct Mismatch<'a> {
     pub layout: &'static str,
     /// Step index within the scenario, from 0.
     pub step: u16,
-    /// Expected command, Q16.16 bits.
+    /// Expected command, as stored ([`Word::word`]).
     pub want_command: i32,
-    /// Command produced here, Q16.16 bits.
+    /// Command produced here, as stored.
     pub got_command: i32,
     /// Expected status bits.
     pub want_status: u16,
@@ -27,9 +60,9 @@ pub struct Mismatch<'a> {
     pub got_status: u16,
 }
 
-/// Name of the pass with the run-time configuration (`Config<I16F16>`).
+/// Name of the pass with the run-time configuration (`Config<B>`).
 pub const RUN_TIME: &str = "run-time config";
-/// Name of the pass with the compile-time layout (`Config<I16F16, L>`).
+/// Name of the pass with the compile-time layout (`Config<B, L>`).
 pub const COMPILE_TIME: &str = "compile-time layout";
 
 /// Where the replay sends what it finds (semihosting text on a board, a
@@ -59,7 +92,8 @@ pub enum ReplayError {
     /// The vector file is malformed.
     Format(FormatError),
     /// The file and the compile-time tables disagree (scenario count or
-    /// name).
+    /// name, or a schedule step without a schedule or in a backend without
+    /// schedules).
     Tables,
     /// A retune refers to a gain the scenario does not have, or the
     /// controller refused it.
@@ -143,21 +177,31 @@ pub fn run_schedules(report: &mut impl Report) -> Result<Summary, ReplayError> {
     replay_file!(schedule, report)
 }
 
+/// Replay the embedded 16-bit set (`slim16.ekv`, format version 3) through
+/// the `Slim16` backend, each scenario with its run-time configuration and
+/// with its compile-time layout.
+///
+/// # Errors
+/// As [`run`].
+pub fn run_slim16(report: &mut impl Report) -> Result<Summary, ReplayError> {
+    replay_file!(slim16, report)
+}
+
 /// One scenario, replayed with whatever configuration it is handed.
-struct Pass<'a, 'r, R: Report> {
+struct Pass<'a, 'r, B: Backend, R: Report> {
     scenario: Scenario<'a>,
     name: &'a str,
-    gains: &'a [(FixedCoef, FixedCoef)],
+    gains: &'a [(B::Coef, B::Coef)],
     report: &'r mut R,
     summary: &'r mut Summary,
     result: Result<(), ReplayError>,
 }
 
-impl<R: Report> Pass<'_, '_, R> {
+impl<B: Word, R: Report> Pass<'_, '_, B, R> {
     fn replay_with<L: Layout>(
         &mut self,
-        config: Config<I16F16, L>,
-        table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
+        config: Config<B, L>,
+        table: Option<&Schedule<B, SCHEDULE_ROWS, L>>,
         layout: &'static str,
     ) {
         if self.result.is_err() {
@@ -168,8 +212,8 @@ impl<R: Report> Pass<'_, '_, R> {
 
     fn replay<L: Layout>(
         &mut self,
-        config: Config<I16F16, L>,
-        table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
+        config: Config<B, L>,
+        table: Option<&Schedule<B, SCHEDULE_ROWS, L>>,
         layout: &'static str,
     ) -> Result<(), ReplayError> {
         let mut pi = probe::new(config);
@@ -178,7 +222,7 @@ impl<R: Report> Pass<'_, '_, R> {
         for (index, step) in (0..=u16::MAX).zip(self.scenario.steps()) {
             let step = step?;
             let out = apply(&mut pi, self.gains, table, &step)?;
-            let got_command = out.command.to_bits();
+            let got_command = out.command.word();
             let got_status = out.status.bits();
             if got_command != step.command || got_status != step.status {
                 mismatches = mismatches.saturating_add(1);
@@ -203,11 +247,11 @@ impl<R: Report> Pass<'_, '_, R> {
     }
 }
 
-impl<R: Report> ConfigVisitor for Pass<'_, '_, R> {
+impl<B: Word, R: Report> ConfigVisitor<B> for Pass<'_, '_, B, R> {
     fn visit<L: Layout>(
         &mut self,
-        config: Config<I16F16, L>,
-        table: Option<&'static Schedule<I16F16, SCHEDULE_ROWS, L>>,
+        config: Config<B, L>,
+        table: Option<&'static Schedule<B, SCHEDULE_ROWS, L>>,
     ) {
         self.replay_with(config, table, COMPILE_TIME);
     }
@@ -219,21 +263,22 @@ impl<R: Report> ConfigVisitor for Pass<'_, '_, R> {
 /// [`Controller::step`], any other through [`Controller::step_with`].
 ///
 /// # Errors
-/// [`ReplayError::GainIndex`] for a retune to a gain not in `gains`.
-pub fn apply<L: Layout>(
-    pi: &mut Controller<I16F16, L>,
-    gains: &[(FixedCoef, FixedCoef)],
-    table: Option<&Schedule<I16F16, SCHEDULE_ROWS, L>>,
+/// [`ReplayError::GainIndex`] for a retune to a gain not in `gains`;
+/// [`FormatError::Range`] for a stored signal the backend cannot hold.
+pub fn apply<B: Word, L: Layout>(
+    pi: &mut Controller<B, L>,
+    gains: &[(B::Coef, B::Coef)],
+    table: Option<&Schedule<B, SCHEDULE_ROWS, L>>,
     step: &Step,
-) -> Result<Output<I16F16>, ReplayError> {
-    let q = I16F16::from_bits;
-    let (r, y) = (q(step.setpoint), q(step.measurement));
-    let mut input = Input::new(r, y).with_feed_forward(q(step.feed_forward));
+) -> Result<Output<B>, ReplayError> {
+    let q = |word| B::from_word(word).ok_or(ReplayError::Format(FormatError::Range));
+    let (r, y) = (q(step.setpoint)?, q(step.measurement)?);
+    let mut input = Input::new(r, y).with_feed_forward(q(step.feed_forward)?);
     if let Some(applied) = step.applied {
-        input = input.with_applied(q(applied));
+        input = input.with_applied(q(applied)?);
     }
     let plain = step.feed_forward == 0 && step.applied.is_none();
-    let run = |pi: &mut Controller<I16F16, L>| {
+    let run = |pi: &mut Controller<B, L>| {
         if plain {
             probe::step(pi, r, y)
         } else {
@@ -243,10 +288,10 @@ pub fn apply<L: Layout>(
     Ok(match step.op {
         Op::Step => run(pi),
         Op::Engage { actuator } => {
-            probe::engage(pi, q(actuator));
+            probe::engage(pi, q(actuator)?);
             run(pi)
         }
-        Op::Track { actuator } => probe::track(pi, &input, q(actuator)),
+        Op::Track { actuator } => probe::track(pi, &input, q(actuator)?),
         Op::Reset => {
             probe::reset(pi);
             run(pi)
@@ -260,8 +305,11 @@ pub fn apply<L: Layout>(
             run(pi)
         }
         Op::Schedule { at } => {
+            if !B::SCHEDULES {
+                return Err(ReplayError::Tables);
+            }
             let table = table.ok_or(ReplayError::Tables)?;
-            probe::schedule(pi, table, q(at));
+            probe::schedule(pi, table, q(at)?);
             run(pi)
         }
     })

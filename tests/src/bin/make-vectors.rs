@@ -1,6 +1,7 @@
-//! Write the golden vectors to `shared/vectors/golden.ekv` and the schedule
-//! set to `shared/vectors/schedule.ekv` (or to the two paths given as
-//! arguments).
+//! Write the golden vectors to `shared/vectors/golden.ekv`, the schedule
+//! set to `shared/vectors/schedule.ekv` and the 16-bit set to
+//! `shared/vectors/slim16.ekv` (or to the paths given as arguments, in
+//! that order).
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -16,9 +17,13 @@ fn main() -> ExitCode {
     let schedule = args
         .next()
         .map_or_else(|| root.join(vectors::SCHEDULE_FILE), PathBuf::from);
+    let slim16 = args
+        .next()
+        .map_or_else(|| root.join(vectors::SLIM16_FILE), PathBuf::from);
     for (path, bytes) in [
         (golden, vectors::generate()),
         (schedule, vectors::generate_schedules()),
+        (slim16, vectors::generate_slim16()),
     ] {
         let bytes = match bytes {
             Ok(b) => b,

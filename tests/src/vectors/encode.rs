@@ -1,5 +1,6 @@
-//! Writer for the vector files, format versions 1 (golden) and 2 (with
-//! schedule rows and the schedule operation)
+//! Writer for the vector files, format versions 1 (golden), 2 (with
+//! schedule rows and the schedule operation) and 3 (the 16-bit backend:
+//! scaling, raw 16-bit signals)
 //! (`shared/vectors/FORMAT.md`; the reader is `boards/replay/src/format.rs`).
 
 use evenkeel::{AntiWindup, Settings};
@@ -12,6 +13,12 @@ pub const MAGIC: [u8; 4] = *b"EKVF";
 pub const VERSION: u8 = 1;
 /// Format version of files with schedule rows and schedule steps.
 pub const VERSION_SCHEDULE: u8 = 2;
+/// Format version of the 16-bit set (`Slim16`): version 1 plus each
+/// scenario's scaling; signals are raw 16-bit values.
+pub const VERSION_SLIM16: u8 = 3;
+
+/// Scaling flag (version 3): the command is whole actuator counts.
+const COMMAND_COUNTS: u8 = 1 << 0;
 
 const HAS_SLEW: u8 = 1 << 0;
 const HAS_FILTER: u8 = 1 << 1;
@@ -32,8 +39,10 @@ pub enum EncodeError {
     Name(String),
     /// A scenario with more than 255 retune gains or rows, or 65 535 steps.
     TooLarge(String),
-    /// Schedule rows or steps in a version-1 file.
+    /// Schedule rows or steps in a version-1 or version-3 file.
     NeedsVersion2(String),
+    /// A signal outside 16 bits in a version-3 file.
+    NotSixteenBit(String),
 }
 
 impl std::fmt::Display for EncodeError {
@@ -43,6 +52,7 @@ impl std::fmt::Display for EncodeError {
             Self::Name(n) => write!(f, "scenario name {n:?} is not short ASCII"),
             Self::TooLarge(n) => write!(f, "scenario {n} has too many gains, rows or steps"),
             Self::NeedsVersion2(n) => write!(f, "scenario {n} has a schedule: format version 2"),
+            Self::NotSixteenBit(n) => write!(f, "scenario {n} has a signal outside 16 bits"),
         }
     }
 }
@@ -57,7 +67,7 @@ pub fn encode(recordings: &[Recording]) -> Result<Vec<u8>, EncodeError> {
     encode_version(recordings, VERSION)
 }
 
-/// The whole file for `recordings` in format `version` (1 or 2).
+/// The whole file for `recordings` in format `version` (1, 2 or 3).
 ///
 /// # Errors
 /// [`EncodeError`] if a count or name does not fit the format.
@@ -65,8 +75,11 @@ pub fn encode_version(recordings: &[Recording], version: u8) -> Result<Vec<u8>, 
     let mut body = Vec::new();
     for r in recordings {
         let scheduled = r.steps.iter().any(|s| matches!(s.op, Op::Schedule(_)));
-        if version < VERSION_SCHEDULE && (scheduled || !r.rows.is_empty()) {
+        if version != VERSION_SCHEDULE && (scheduled || !r.rows.is_empty()) {
             return Err(EncodeError::NeedsVersion2(r.name.clone()));
+        }
+        if version == VERSION_SLIM16 && !r.steps.iter().all(sixteen_bit) {
+            return Err(EncodeError::NotSixteenBit(r.name.clone()));
         }
         scenario(&mut body, r, version)?;
     }
@@ -78,6 +91,24 @@ pub fn encode_version(recordings: &[Recording], version: u8) -> Result<Vec<u8>, 
     file.extend_from_slice(&fnv1a(&body).to_le_bytes());
     file.extend_from_slice(&body);
     Ok(file)
+}
+
+/// Every signal of `s` is a 16-bit raw value.
+fn sixteen_bit(s: &Recorded) -> bool {
+    let actuator = match s.op {
+        Op::Engage(a) | Op::Track(a) => a,
+        _ => 0,
+    };
+    [
+        actuator,
+        s.setpoint,
+        s.measurement,
+        s.feed_forward,
+        s.applied.unwrap_or(0),
+        s.command,
+    ]
+    .into_iter()
+    .all(|x| i16::try_from(x).is_ok())
 }
 
 /// FNV-1a, 32 bit.
@@ -96,16 +127,16 @@ fn scenario(out: &mut Vec<u8>, r: &Recording, version: u8) -> Result<(), EncodeE
     }
     out.push(name_len);
     out.extend_from_slice(name);
-    settings(out, &r.settings);
+    settings(out, &r.settings, version);
     let too_large = || EncodeError::TooLarge(r.name.clone());
     out.push(u8::try_from(r.gains.len()).map_err(|_| too_large())?);
     for (kp, ki_ts) in &r.gains {
         for c in [kp, ki_ts] {
-            out.extend_from_slice(&c.mantissa().to_le_bytes());
-            out.push(u8::try_from(c.shift()).map_err(|_| too_large())?);
+            out.extend_from_slice(&c.mantissa.to_le_bytes());
+            out.push(u8::try_from(c.shift).map_err(|_| too_large())?);
         }
     }
-    if version >= VERSION_SCHEDULE {
+    if version == VERSION_SCHEDULE {
         out.push(u8::try_from(r.rows.len()).map_err(|_| too_large())?);
         for row in &r.rows {
             for x in [row.at, row.kp, row.ki_per_s] {
@@ -128,7 +159,7 @@ fn scenario(out: &mut Vec<u8>, r: &Recording, version: u8) -> Result<(), EncodeE
     Ok(())
 }
 
-fn settings(out: &mut Vec<u8>, s: &Settings) {
+fn settings(out: &mut Vec<u8>, s: &Settings, version: u8) {
     let tracking = match s.anti_windup {
         AntiWindup::BackCalculation { tracking_time_s } => Some(tracking_time_s),
         AntiWindup::ConditionalIntegration => None,
@@ -158,6 +189,19 @@ fn settings(out: &mut Vec<u8>, s: &Settings) {
     }
     for x in optional.iter().filter_map(|(_, v)| *v) {
         out.extend_from_slice(&x.to_bits().to_le_bytes());
+    }
+    if version == VERSION_SLIM16 {
+        let c = &s.scaling;
+        for x in [
+            c.measurement.per_unit,
+            c.measurement.offset,
+            c.command.per_unit,
+            c.command.offset,
+        ] {
+            out.extend_from_slice(&x.to_bits().to_le_bytes());
+        }
+        out.push(c.measurement_bits);
+        out.push(if c.command_counts { COMMAND_COUNTS } else { 0 });
     }
 }
 

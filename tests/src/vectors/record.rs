@@ -3,6 +3,7 @@
 use evenkeel::fixed::types::I16F16;
 use evenkeel::{
     Breakpoint, Config, ConfigError, Controller, FixedCoef, Input, Output, Schedule, Settings,
+    SlimCoef,
 };
 
 /// Breakpoints a scenario's gain schedule may have.
@@ -28,7 +29,36 @@ pub enum Op {
     Schedule(i32),
 }
 
-/// One recorded step; signals are Q16.16 bits.
+/// A stored coefficient, `mantissa · 2^-shift`, of either fixed backend
+/// (a 16-bit mantissa sign-extended).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Gain {
+    /// Mantissa.
+    pub mantissa: i32,
+    /// Shift.
+    pub shift: u32,
+}
+
+impl From<FixedCoef> for Gain {
+    fn from(c: FixedCoef) -> Self {
+        Self {
+            mantissa: c.mantissa(),
+            shift: c.shift(),
+        }
+    }
+}
+
+impl From<SlimCoef> for Gain {
+    fn from(c: SlimCoef) -> Self {
+        Self {
+            mantissa: i32::from(c.mantissa()),
+            shift: c.shift(),
+        }
+    }
+}
+
+/// One recorded step; signals are Q16.16 bits (16-bit raw values,
+/// sign-extended, in the 16-bit set).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 pub struct Recorded {
     /// Operation.
@@ -55,12 +85,27 @@ pub struct Recording {
     /// Settings of the initial configuration.
     pub settings: Settings,
     /// Retune gains (Kp, Ki·Ts), in order of first use.
-    pub gains: Vec<(FixedCoef, FixedCoef)>,
+    pub gains: Vec<(Gain, Gain)>,
     /// Breakpoint rows of the schedule applied by [`Op::Schedule`] steps
     /// (empty in the golden set).
     pub rows: Vec<Breakpoint>,
     /// Steps.
     pub steps: Vec<Recorded>,
+}
+
+impl Recording {
+    /// The index of gain pair (`kp`, `ki_ts`) in the retune table, added
+    /// at the end if it is new.
+    pub fn gain_index(&mut self, kp: Gain, ki_ts: Gain) -> u32 {
+        let index = match self.gains.iter().position(|g| *g == (kp, ki_ts)) {
+            Some(i) => i,
+            None => {
+                self.gains.push((kp, ki_ts));
+                self.gains.len() - 1
+            }
+        };
+        u32::try_from(index).expect("small table")
+    }
 }
 
 /// Inputs of one step beyond setpoint and measurement.
@@ -158,14 +203,7 @@ impl Recorder {
                 let table = self.schedule.as_ref().expect("scenario has a schedule");
                 let gains = table.gains(at).expect("schedule has segments");
                 self.pi.schedule(table, at);
-                let index = match self.recording.gains.iter().position(|g| *g == gains) {
-                    Some(i) => i,
-                    None => {
-                        self.recording.gains.push(gains);
-                        self.recording.gains.len() - 1
-                    }
-                };
-                let index = u32::try_from(index).expect("small table");
+                let index = self.recording.gain_index(gains.0.into(), gains.1.into());
                 (Op::Retune(index), run(&mut self.pi))
             }
             Event::ScheduleOp(at) => {

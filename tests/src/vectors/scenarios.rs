@@ -241,10 +241,10 @@ fn schedule_extremes() -> Result<Recording, ConfigError> {
 }
 
 /// Deterministic xorshift32: integers only, the same on every machine.
-struct Noise(u32);
+pub(super) struct Noise(pub(super) u32);
 
 impl Noise {
-    fn next(&mut self) -> u32 {
+    pub(super) fn next(&mut self) -> u32 {
         let mut x = self.0;
         x ^= x << 13;
         x ^= x >> 17;
@@ -253,11 +253,11 @@ impl Noise {
         x
     }
     /// Uniform in [−0.5, 0.5), exact in f64.
-    fn centred(&mut self) -> f64 {
+    pub(super) fn centred(&mut self) -> f64 {
         f64::from(self.next()) / 4_294_967_296.0 - 0.5
     }
     /// `true` with probability `percent` %.
-    fn chance(&mut self, percent: u32) -> bool {
+    pub(super) fn chance(&mut self, percent: u32) -> bool {
         self.next() % 100 < percent
     }
     /// Any Q16.16 value.
