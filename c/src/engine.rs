@@ -214,7 +214,7 @@ pub(crate) fn retune_gains<E: Engine>(storage: *mut E, kp: EkcCoef, ki_ts: EkcCo
 #[inline(never)]
 fn checked_step<E: Engine>(
     storage: Located<E>,
-    input: Readable<E::In>,
+    input: Readable<'_, E::In>,
     out: Out<E::Out>,
 ) -> EkcCode {
     done(storage::with_step(storage, input, out, |pi, input, out| {

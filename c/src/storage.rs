@@ -10,6 +10,7 @@
 //! (a C `static`) is never taken for a controller.
 
 use core::ffi::c_char;
+use core::marker::PhantomData;
 use core::mem::{align_of, size_of};
 
 use evenkeel::fixed::types::I16F16;
@@ -178,20 +179,23 @@ pub(crate) fn locate<S: Storage>(storage: *mut S) -> Result<Located<S>, EkcCode>
 }
 
 /// A pointer to a `T` that may be read for the whole call: a C pointer
-/// checked non-null and aligned, or a reference to a local.
-pub(crate) struct Readable<T: Plain>(*const T);
+/// checked non-null and aligned (valid for the call: header contract), or
+/// a borrowed local (valid for `'a`).
+pub(crate) struct Readable<'a, T: Plain>(*const T, PhantomData<&'a T>);
 
-impl<T: Plain> Readable<T> {
+impl<T: Plain> Readable<'_, T> {
     /// `p`, if non-null and aligned.
     #[inline(always)]
     pub(crate) fn new(p: *const T) -> Result<Self, EkcCode> {
-        checked(p).map(|()| Self(p))
+        checked(p).map(|()| Self(p, PhantomData))
     }
+}
 
-    /// A local the caller keeps alive for the call it passes this to.
+impl<'a, T: Plain> Readable<'a, T> {
+    /// A local, borrowed for as long as this lives.
     #[inline(always)]
-    pub(crate) fn local(value: &T) -> Self {
-        Self(value)
+    pub(crate) fn local(value: &'a T) -> Self {
+        Self(value, PhantomData)
     }
 }
 
@@ -205,7 +209,7 @@ impl<T: Plain> Readable<T> {
 #[inline(always)]
 pub(crate) fn with_step<S: Storage, I: Plain, O: Plain, T>(
     storage: Located<S>,
-    input: Readable<I>,
+    input: Readable<'_, I>,
     out: Out<O>,
     f: impl FnOnce(&mut Controller<S::Backend>, &I, Out<O>) -> T,
 ) -> Result<T, EkcCode> {
