@@ -666,8 +666,9 @@ size_t ekc_code_text(EkcCode code, char *buffer, size_t capacity);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_compute(const struct EkcSettings *settings, struct EkcCoefficients *out);
 
@@ -677,8 +678,9 @@ EkcCode ekc_compute(const struct EkcSettings *settings, struct EkcCoefficients *
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_configure(struct EkcLoop *pi, const struct EkcSettings *settings);
 
@@ -689,8 +691,9 @@ EkcCode ekc_configure(struct EkcLoop *pi, const struct EkcSettings *settings);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_load(struct EkcLoop *pi, const struct EkcCoefficients *coefficients);
 
@@ -700,8 +703,9 @@ EkcCode ekc_load(struct EkcLoop *pi, const struct EkcCoefficients *coefficients)
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_step(struct EkcLoop *pi, int32_t setpoint, int32_t measurement, struct EkcOutput *out);
 
@@ -711,8 +715,9 @@ EkcCode ekc_step(struct EkcLoop *pi, int32_t setpoint, int32_t measurement, stru
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_step_with(struct EkcLoop *pi, const struct EkcInput *input, struct EkcOutput *out);
 
@@ -722,8 +727,9 @@ EkcCode ekc_step_with(struct EkcLoop *pi, const struct EkcInput *input, struct E
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_engage(struct EkcLoop *pi, int32_t actuator);
 
@@ -734,8 +740,9 @@ EkcCode ekc_engage(struct EkcLoop *pi, int32_t actuator);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_track(struct EkcLoop *pi, const struct EkcInput *input, int32_t actuator, struct EkcOutput *out);
 
@@ -745,8 +752,9 @@ EkcCode ekc_track(struct EkcLoop *pi, const struct EkcInput *input, int32_t actu
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_retune(struct EkcLoop *pi, const struct EkcCoefficients *coefficients);
 
@@ -756,8 +764,9 @@ EkcCode ekc_retune(struct EkcLoop *pi, const struct EkcCoefficients *coefficient
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_retune_gains(struct EkcLoop *pi, struct EkcCoef kp, struct EkcCoef ki_ts);
 
@@ -767,8 +776,9 @@ EkcCode ekc_retune_gains(struct EkcLoop *pi, struct EkcCoef kp, struct EkcCoef k
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_reset(struct EkcLoop *pi);
 
@@ -777,8 +787,9 @@ EkcCode ekc_reset(struct EkcLoop *pi);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_integral(const struct EkcLoop *pi, int32_t *out);
 
@@ -787,8 +798,9 @@ EkcCode ekc_integral(const struct EkcLoop *pi, int32_t *out);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_last_command(const struct EkcLoop *pi, int32_t *out);
 
@@ -799,8 +811,9 @@ EkcCode ekc_last_command(const struct EkcLoop *pi, int32_t *out);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_compute(const struct EkcSettings *settings, struct EkcCoefficients *out);
 
@@ -810,8 +823,9 @@ EkcCode ekc_slim_compute(const struct EkcSettings *settings, struct EkcCoefficie
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_configure(struct EkcSlimLoop *pi, const struct EkcSettings *settings);
 
@@ -822,8 +836,9 @@ EkcCode ekc_slim_configure(struct EkcSlimLoop *pi, const struct EkcSettings *set
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_load(struct EkcSlimLoop *pi, const struct EkcCoefficients *coefficients);
 
@@ -833,8 +848,9 @@ EkcCode ekc_slim_load(struct EkcSlimLoop *pi, const struct EkcCoefficients *coef
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_step(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurement, struct EkcSlimOutput *out);
 
@@ -844,8 +860,9 @@ EkcCode ekc_slim_step(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurem
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_step_with(struct EkcSlimLoop *pi, const struct EkcSlimInput *input, struct EkcSlimOutput *out);
 
@@ -855,8 +872,9 @@ EkcCode ekc_slim_step_with(struct EkcSlimLoop *pi, const struct EkcSlimInput *in
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_engage(struct EkcSlimLoop *pi, int16_t actuator);
 
@@ -867,8 +885,9 @@ EkcCode ekc_slim_engage(struct EkcSlimLoop *pi, int16_t actuator);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_track(struct EkcSlimLoop *pi, const struct EkcSlimInput *input, int16_t actuator, struct EkcSlimOutput *out);
 
@@ -878,8 +897,9 @@ EkcCode ekc_slim_track(struct EkcSlimLoop *pi, const struct EkcSlimInput *input,
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_retune(struct EkcSlimLoop *pi, const struct EkcCoefficients *coefficients);
 
@@ -889,8 +909,9 @@ EkcCode ekc_slim_retune(struct EkcSlimLoop *pi, const struct EkcCoefficients *co
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_retune_gains(struct EkcSlimLoop *pi, struct EkcCoef kp, struct EkcCoef ki_ts);
 
@@ -900,8 +921,9 @@ EkcCode ekc_slim_retune_gains(struct EkcSlimLoop *pi, struct EkcCoef kp, struct 
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_reset(struct EkcSlimLoop *pi);
 
@@ -910,8 +932,9 @@ EkcCode ekc_slim_reset(struct EkcSlimLoop *pi);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_integral(const struct EkcSlimLoop *pi, int16_t *out);
 
@@ -920,8 +943,9 @@ EkcCode ekc_slim_integral(const struct EkcSlimLoop *pi, int16_t *out);
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
- * object of its type that no other call uses at the same time; loop
- * storage was zeroed or configured before (never left uninitialised).
+ * object of its type that no other call uses at the same time, the objects
+ * of one call do not overlap, and loop storage was zeroed or configured
+ * before (never left uninitialised).
  */
 EkcCode ekc_slim_last_command(const struct EkcSlimLoop *pi, int16_t *out);
 

@@ -6,7 +6,7 @@ use evenkeel::fixed::types::I16F16;
 use evenkeel::{Backend, Config, ConfigError, Controller, FixedCoef, Input, Slim16, SlimCoef};
 
 use crate::codes::{self, EKC_OK, EkcCode};
-use crate::storage::{self, EkcLoop, EkcSlimLoop, Out, Plain, Storage};
+use crate::storage::{self, EkcLoop, EkcSlimLoop, Located, Out, Plain, Readable, Storage};
 use crate::types::{
     self, EKC_FORMAT_Q16_16, EKC_FORMAT_SLIM16, EkcCoef, EkcCoefficients, EkcInput, EkcOutput,
     EkcSettings, EkcSlimInput, EkcSlimOutput,
@@ -21,8 +21,12 @@ pub(crate) trait Engine: Storage {
     /// The C input struct.
     type In: Plain;
     /// The C output struct.
-    type Out: Plain;
+    type Out: Plain + Default;
     fn signal(raw: Self::Raw) -> Self::Backend;
+    /// The C input of setpoint and measurement alone (what `Input::new` is).
+    fn plain_input(setpoint: Self::Raw, measurement: Self::Raw) -> Self::In;
+    /// `o` with the `TRACKING` status bit set.
+    fn tracking(o: Self::Out) -> Self::Out;
     fn raw(x: Self::Backend) -> Self::Raw;
     fn input(i: &Self::In) -> Input<Self::Backend>;
     fn output(o: evenkeel::Output<Self::Backend>) -> Self::Out;
@@ -44,6 +48,22 @@ impl Engine for EkcLoop {
     #[inline(always)]
     fn raw(x: I16F16) -> i32 {
         x.to_bits()
+    }
+    #[inline(always)]
+    fn plain_input(setpoint: i32, measurement: i32) -> EkcInput {
+        EkcInput {
+            setpoint,
+            measurement,
+            feed_forward: 0,
+            applied: 0,
+            has_applied: 0,
+        }
+    }
+    fn tracking(o: EkcOutput) -> EkcOutput {
+        EkcOutput {
+            status: o.status | types::EKC_STATUS_TRACKING,
+            ..o
+        }
     }
     #[inline(always)]
     fn input(i: &EkcInput) -> Input<I16F16> {
@@ -82,6 +102,22 @@ impl Engine for EkcSlimLoop {
     #[inline(always)]
     fn raw(x: Slim16) -> i16 {
         x.raw()
+    }
+    #[inline(always)]
+    fn plain_input(setpoint: i16, measurement: i16) -> EkcSlimInput {
+        EkcSlimInput {
+            setpoint,
+            measurement,
+            feed_forward: 0,
+            applied: 0,
+            has_applied: 0,
+        }
+    }
+    fn tracking(o: EkcSlimOutput) -> EkcSlimOutput {
+        EkcSlimOutput {
+            status: o.status | types::EKC_STATUS_TRACKING,
+            ..o
+        }
     }
     #[inline(always)]
     fn input(i: &EkcSlimInput) -> Input<Slim16> {
@@ -167,6 +203,25 @@ pub(crate) fn retune_gains<E: Engine>(storage: *mut E, kp: EkcCoef, ki_ts: EkcCo
     done(result.and_then(|r| r))
 }
 
+/// The one control step of the C interface, behind `ekc_step`,
+/// `ekc_step_with` and `ekc_track` (and their 16-bit twins), once the
+/// pointers are checked: the tag test, then the only call of
+/// [`Controller::step_with`] in the crate, so the compiler inlines the step
+/// here and reads the C input's fields where the step needs them (no copy
+/// into an [`Input`] first). Out of line, so the step's code is in the
+/// firmware once; `ekc_step_with` reaches it with its arguments in place
+/// (a jump, not a call).
+#[inline(never)]
+fn checked_step<E: Engine>(
+    storage: Located<E>,
+    input: Readable<'_, E::In>,
+    out: Out<E::Out>,
+) -> EkcCode {
+    done(storage::with_step(storage, input, out, |pi, input, out| {
+        out.put(E::output(pi.step_with(&E::input(input))));
+    }))
+}
+
 #[inline(always)]
 pub(crate) fn step<E: Engine>(
     storage: *mut E,
@@ -174,14 +229,11 @@ pub(crate) fn step<E: Engine>(
     measurement: E::Raw,
     out: *mut E::Out,
 ) -> EkcCode {
-    done((|| {
-        let out = Out::new(out)?;
-        let o = storage::with_mut(storage, |pi| {
-            pi.step(E::signal(setpoint), E::signal(measurement))
-        })?;
-        out.put(E::output(o));
-        Ok(())
-    })())
+    let input = E::plain_input(setpoint, measurement);
+    match Out::new(out).and_then(|out| Ok((out, storage::locate(storage)?))) {
+        Ok((out, storage)) => checked_step(storage, Readable::local(&input), out),
+        Err(code) => code,
+    }
 }
 
 #[inline(always)]
@@ -190,15 +242,16 @@ pub(crate) fn step_with<E: Engine>(
     input: *const E::In,
     out: *mut E::Out,
 ) -> EkcCode {
-    done((|| {
-        let out = Out::new(out)?;
-        let input = E::input(&storage::read(input)?);
-        let o = storage::with_mut(storage, |pi| pi.step_with(&input))?;
-        out.put(E::output(o));
-        Ok(())
-    })())
+    let checked =
+        Out::new(out).and_then(|out| Ok((out, Readable::new(input)?, storage::locate(storage)?)));
+    match checked {
+        Ok((out, input, storage)) => checked_step(storage, input, out),
+        Err(code) => code,
+    }
 }
 
+/// `Controller::track` (engage, then the step, flagged `TRACKING`),
+/// written out so that [`checked_step`] stays the only caller of the step.
 pub(crate) fn track<E: Engine>(
     storage: *mut E,
     input: *const E::In,
@@ -207,10 +260,17 @@ pub(crate) fn track<E: Engine>(
 ) -> EkcCode {
     done((|| {
         let out = Out::new(out)?;
-        let input = E::input(&storage::read(input)?);
-        let o = storage::with_mut(storage, |pi| pi.track(&input, E::signal(actuator)))?;
-        out.put(E::output(o));
-        Ok(())
+        let input = storage::read(input)?;
+        storage::with_mut(storage, |pi| pi.engage(E::signal(actuator)))?;
+        let mut o = E::Out::default();
+        let checked = storage::locate(storage)?;
+        match checked_step(checked, Readable::local(&input), Out::new(&mut o)?) {
+            EKC_OK => {
+                out.put(E::tracking(o));
+                Ok(())
+            }
+            code => Err(code),
+        }
     })())
 }
 

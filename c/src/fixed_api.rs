@@ -12,8 +12,9 @@ use crate::types::{EkcCoef, EkcCoefficients, EkcInput, EkcOutput, EkcSettings};
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_compute(
     settings: *const EkcSettings,
@@ -27,8 +28,9 @@ pub unsafe extern "C" fn ekc_compute(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_configure(pi: *mut EkcLoop, settings: *const EkcSettings) -> EkcCode {
     engine::configure::<EkcLoop>(pi, settings)
@@ -40,8 +42,9 @@ pub unsafe extern "C" fn ekc_configure(pi: *mut EkcLoop, settings: *const EkcSet
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_load(
     pi: *mut EkcLoop,
@@ -55,8 +58,9 @@ pub unsafe extern "C" fn ekc_load(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_step(
     pi: *mut EkcLoop,
@@ -72,8 +76,9 @@ pub unsafe extern "C" fn ekc_step(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_step_with(
     pi: *mut EkcLoop,
@@ -88,8 +93,9 @@ pub unsafe extern "C" fn ekc_step_with(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_engage(pi: *mut EkcLoop, actuator: i32) -> EkcCode {
     engine::engage::<EkcLoop>(pi, actuator)
@@ -101,8 +107,9 @@ pub unsafe extern "C" fn ekc_engage(pi: *mut EkcLoop, actuator: i32) -> EkcCode 
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_track(
     pi: *mut EkcLoop,
@@ -118,8 +125,9 @@ pub unsafe extern "C" fn ekc_track(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_retune(
     pi: *mut EkcLoop,
@@ -133,8 +141,9 @@ pub unsafe extern "C" fn ekc_retune(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_retune_gains(
     pi: *mut EkcLoop,
@@ -149,8 +158,9 @@ pub unsafe extern "C" fn ekc_retune_gains(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_reset(pi: *mut EkcLoop) -> EkcCode {
     engine::reset::<EkcLoop>(pi)
@@ -160,8 +170,9 @@ pub unsafe extern "C" fn ekc_reset(pi: *mut EkcLoop) -> EkcCode {
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_integral(pi: *const EkcLoop, out: *mut i32) -> EkcCode {
     engine::integral::<EkcLoop>(pi, out)
@@ -171,8 +182,9 @@ pub unsafe extern "C" fn ekc_integral(pi: *const EkcLoop, out: *mut i32) -> EkcC
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_last_command(pi: *const EkcLoop, out: *mut i32) -> EkcCode {
     engine::last_command::<EkcLoop>(pi, out)

@@ -12,8 +12,9 @@ use crate::types::{EkcCoef, EkcCoefficients, EkcSettings, EkcSlimInput, EkcSlimO
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_compute(
     settings: *const EkcSettings,
@@ -27,8 +28,9 @@ pub unsafe extern "C" fn ekc_slim_compute(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_configure(
     pi: *mut EkcSlimLoop,
@@ -43,8 +45,9 @@ pub unsafe extern "C" fn ekc_slim_configure(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_load(
     pi: *mut EkcSlimLoop,
@@ -58,8 +61,9 @@ pub unsafe extern "C" fn ekc_slim_load(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_step(
     pi: *mut EkcSlimLoop,
@@ -75,8 +79,9 @@ pub unsafe extern "C" fn ekc_slim_step(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_step_with(
     pi: *mut EkcSlimLoop,
@@ -91,8 +96,9 @@ pub unsafe extern "C" fn ekc_slim_step_with(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_engage(pi: *mut EkcSlimLoop, actuator: i16) -> EkcCode {
     engine::engage::<EkcSlimLoop>(pi, actuator)
@@ -104,8 +110,9 @@ pub unsafe extern "C" fn ekc_slim_engage(pi: *mut EkcSlimLoop, actuator: i16) ->
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_track(
     pi: *mut EkcSlimLoop,
@@ -121,8 +128,9 @@ pub unsafe extern "C" fn ekc_slim_track(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_retune(
     pi: *mut EkcSlimLoop,
@@ -136,8 +144,9 @@ pub unsafe extern "C" fn ekc_slim_retune(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_retune_gains(
     pi: *mut EkcSlimLoop,
@@ -152,8 +161,9 @@ pub unsafe extern "C" fn ekc_slim_retune_gains(
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_reset(pi: *mut EkcSlimLoop) -> EkcCode {
     engine::reset::<EkcSlimLoop>(pi)
@@ -163,8 +173,9 @@ pub unsafe extern "C" fn ekc_slim_reset(pi: *mut EkcSlimLoop) -> EkcCode {
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_integral(pi: *const EkcSlimLoop, out: *mut i16) -> EkcCode {
     engine::integral::<EkcSlimLoop>(pi, out)
@@ -174,8 +185,9 @@ pub unsafe extern "C" fn ekc_slim_integral(pi: *const EkcSlimLoop, out: *mut i16
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
-/// object of its type that no other call uses at the same time; loop
-/// storage was zeroed or configured before (never left uninitialised).
+/// object of its type that no other call uses at the same time, the objects
+/// of one call do not overlap, and loop storage was zeroed or configured
+/// before (never left uninitialised).
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_last_command(pi: *const EkcSlimLoop, out: *mut i16) -> EkcCode {
     engine::last_command::<EkcSlimLoop>(pi, out)

@@ -10,6 +10,7 @@
 //! (a C `static`) is never taken for a controller.
 
 use core::ffi::c_char;
+use core::marker::PhantomData;
 use core::mem::{align_of, size_of};
 
 use evenkeel::fixed::types::I16F16;
@@ -60,17 +61,19 @@ pub(crate) trait Storage {
     /// The controller's backend.
     type Backend: Backend;
     /// The tag of a configured storage of this type (differs per type).
+    /// Four equal bytes: Armv7-M compares with such a constant in one
+    /// instruction (no constant to load first).
     const TAG: u32;
 }
 
 impl Storage for EkcLoop {
     type Backend = I16F16;
-    const TAG: u32 = u32::from_le_bytes(*b"EKCq");
+    const TAG: u32 = u32::from_le_bytes(*b"qqqq");
 }
 
 impl Storage for EkcSlimLoop {
     type Backend = Slim16;
-    const TAG: u32 = u32::from_le_bytes(*b"EKCs");
+    const TAG: u32 = u32::from_le_bytes(*b"ssss");
 }
 
 // The slot fits the published storage, and the storage's alignment is
@@ -88,6 +91,7 @@ const _: () = {
 };
 
 /// The slot in `storage`, if the pointer is non-null and aligned.
+#[inline(always)]
 fn slot<S: Storage>(storage: *const S) -> Result<*mut Slot<S::Backend>, EkcCode> {
     if storage.is_null() {
         Err(EKC_ERR_NULL)
@@ -99,6 +103,7 @@ fn slot<S: Storage>(storage: *const S) -> Result<*mut Slot<S::Backend>, EkcCode>
 }
 
 /// The tag word of the storage behind a checked slot pointer.
+#[inline(always)]
 fn tag<B: Backend>(slot: *mut Slot<B>) -> u32 {
     let tag = slot
         .wrapping_byte_add(core::mem::offset_of!(Slot<B>, tag))
@@ -164,6 +169,79 @@ pub(crate) fn with_ref<S: Storage, T>(
     Ok(f(controller))
 }
 
+/// A storage pointer checked non-null and aligned (not yet for its tag).
+pub(crate) struct Located<S: Storage>(*mut Slot<S::Backend>);
+
+/// `storage`, if non-null and aligned.
+#[inline(always)]
+pub(crate) fn locate<S: Storage>(storage: *mut S) -> Result<Located<S>, EkcCode> {
+    slot(storage).map(Located)
+}
+
+/// A pointer to a `T` that may be read for the whole call: a C pointer
+/// checked non-null and aligned (valid for the call: header contract), or
+/// a borrowed local (valid for `'a`).
+pub(crate) struct Readable<'a, T: Plain>(*const T, PhantomData<&'a T>);
+
+impl<T: Plain> Readable<'_, T> {
+    /// `p`, if non-null and aligned.
+    #[inline(always)]
+    pub(crate) fn new(p: *const T) -> Result<Self, EkcCode> {
+        checked(p).map(|()| Self(p, PhantomData))
+    }
+}
+
+impl<'a, T: Plain> Readable<'a, T> {
+    /// A local, borrowed for as long as this lives.
+    #[inline(always)]
+    pub(crate) fn local(value: &'a T) -> Self {
+        Self(value, PhantomData)
+    }
+}
+
+/// Run `f` on the controller in `storage`, if it was configured, with the
+/// input and the out-pointer of one step (all three checked by the
+/// caller: the types say so).
+///
+/// `input` is borrowed, not copied: the step reads each field where it
+/// needs it. C passes pointers of one call that do not overlap (header
+/// contract).
+#[inline(always)]
+pub(crate) fn with_step<S: Storage, I: Plain, O: Plain, T>(
+    storage: Located<S>,
+    input: Readable<'_, I>,
+    out: Out<O>,
+    f: impl FnOnce(&mut Controller<S::Backend>, &I, Out<O>) -> T,
+) -> Result<T, EkcCode> {
+    let slot = storage.0;
+    if tag(slot) != S::TAG {
+        return Err(EKC_ERR_UNCONFIGURED);
+    }
+    // SAFETY: as in `with_mut` (non-null and aligned: `Located`; the tag
+    // says a whole valid controller is there). The reference does not
+    // outlive this function.
+    let controller = unsafe { &mut (*slot).controller };
+    // SAFETY: non-null and aligned (`Readable`): a C pointer to a whole
+    // `I` that nothing writes during the call and that overlaps neither the
+    // storage nor `out` (header contract), or a local that outlives the
+    // call; so no write of `f` reaches it while the reference lives (only
+    // during `f`). Any bit pattern is a valid `I` (`Plain`).
+    let input = unsafe { &*input.0 };
+    Ok(f(controller, input, out))
+}
+
+/// `Ok` if `p` is non-null and aligned.
+#[inline(always)]
+fn checked<T>(p: *const T) -> Result<(), EkcCode> {
+    if p.is_null() {
+        Err(EKC_ERR_NULL)
+    } else if !p.is_aligned() {
+        Err(EKC_ERR_MISALIGNED)
+    } else {
+        Ok(())
+    }
+}
+
 /// Types C passes by pointer that are valid for every bit pattern
 /// (integers and `f64`s only, no `bool`, enum or reference).
 pub(crate) trait Plain: Copy {}
@@ -179,12 +257,7 @@ impl Plain for EkcSlimOutput {}
 
 /// A copy of the value C points to.
 pub(crate) fn read<T: Plain>(p: *const T) -> Result<T, EkcCode> {
-    if p.is_null() {
-        return Err(EKC_ERR_NULL);
-    }
-    if !p.is_aligned() {
-        return Err(EKC_ERR_MISALIGNED);
-    }
+    checked(p)?;
     // SAFETY: non-null and aligned (checked above); C passes a pointer to a
     // whole `T` (header contract) that nothing writes during the call; any
     // bit pattern is a valid `T` (`Plain`).
@@ -197,6 +270,7 @@ pub(crate) struct Out<T: Plain>(*mut T);
 
 impl<T: Plain> Out<T> {
     /// `p`, if non-null and aligned.
+    #[inline(always)]
     pub(crate) fn new(p: *mut T) -> Result<Self, EkcCode> {
         if p.is_null() {
             Err(EKC_ERR_NULL)
@@ -208,6 +282,7 @@ impl<T: Plain> Out<T> {
     }
 
     /// Store the result.
+    #[inline(always)]
     pub(crate) fn put(self, value: T) {
         // SAFETY: non-null and aligned (checked in `new`); C passes a
         // pointer to writable room for a whole `T` that nothing else uses
@@ -309,5 +384,108 @@ mod tests {
             assert_eq!(slim_out.command, 1);
             assert_ne!(slim_out.status & crate::types::EKC_STATUS_CLAMP_HIGH, 0);
         }
+    }
+
+    /// A step's arguments are checked in the order of every other function
+    /// (out, then input, then storage; null before misaligned; then the
+    /// tag), whatever else is wrong, and a refused step changes nothing.
+    #[test]
+    #[allow(clippy::multiple_unsafe_ops_per_block)] // one contract for the whole sequence of calls
+    fn step_checks_give_the_ordered_codes() {
+        use crate::codes::*;
+        use crate::common_api::ekc_settings_init;
+        use crate::fixed_api::{
+            ekc_configure, ekc_last_command, ekc_step, ekc_step_with, ekc_track,
+        };
+        use crate::types::{EkcInput, EkcOutput, EkcSettings};
+        use core::mem::MaybeUninit;
+
+        #[derive(Clone, Copy, Debug, PartialEq)]
+        enum Arg {
+            Null,
+            Misaligned,
+            Unconfigured,
+            Fine,
+        }
+        use Arg::*;
+        fn ptr<T>(p: *mut T, arg: Arg) -> *mut T {
+            match arg {
+                Null => core::ptr::null_mut(),
+                Misaligned => p.cast::<u8>().wrapping_add(1).cast(),
+                Unconfigured | Fine => p,
+            }
+        }
+        fn code(arg: Arg) -> Option<EkcCode> {
+            match arg {
+                Null => Some(EKC_ERR_NULL),
+                Misaligned => Some(EKC_ERR_MISALIGNED),
+                Unconfigured => Some(EKC_ERR_UNCONFIGURED),
+                Fine => None,
+            }
+        }
+        let io = [Null, Misaligned, Fine];
+        let mut checked = 0;
+        for storage_arg in [Null, Misaligned, Unconfigured, Fine] {
+            for input_arg in io {
+                for out_arg in io {
+                    // SAFETY: (test) zeroed bytes are what a C static holds.
+                    let mut pi: EkcLoop = unsafe { MaybeUninit::zeroed().assume_init() };
+                    // SAFETY: (test) as above.
+                    let mut settings: EkcSettings = unsafe { MaybeUninit::zeroed().assume_init() };
+                    let mut input = EkcInput {
+                        setpoint: 3 << 16,
+                        ..EkcInput::default()
+                    };
+                    let mut out = EkcOutput {
+                        command: 77,
+                        status: 77,
+                    };
+                    let want = code(out_arg)
+                        .or(code(input_arg))
+                        .or(code(storage_arg))
+                        .unwrap_or(EKC_OK);
+                    let want_plain = code(out_arg).or(code(storage_arg)).unwrap_or(EKC_OK);
+                    // SAFETY: (test) every pointer is null, a live local, or
+                    // the deliberately misaligned one (refused, never
+                    // dereferenced).
+                    unsafe {
+                        ekc_settings_init(&mut settings, 0.01, 1.0, 0.0, -10.0, 10.0);
+                        if storage_arg != Unconfigured {
+                            assert_eq!(ekc_configure(&mut pi, &settings), EKC_OK);
+                        }
+                        let p = ptr(&mut pi, storage_arg);
+                        let i = ptr(&mut input, input_arg);
+                        let o = ptr(&mut out, out_arg);
+                        assert_eq!(
+                            ekc_step_with(p, i, o),
+                            want,
+                            "{storage_arg:?} {input_arg:?} {out_arg:?}"
+                        );
+                        assert_eq!(
+                            ekc_track(p, i, 1 << 16, o),
+                            want,
+                            "track {storage_arg:?} {input_arg:?} {out_arg:?}"
+                        );
+                        assert_eq!(
+                            ekc_step(p, 3 << 16, 0, o),
+                            want_plain,
+                            "step {storage_arg:?} {out_arg:?}"
+                        );
+                        if storage_arg != Unconfigured {
+                            let mut last = -1;
+                            assert_eq!(ekc_last_command(&pi, &mut last), EKC_OK);
+                            // Kp · 3 = 3 once a step ran; 0 (at rest) if every call was refused.
+                            let ran = want == EKC_OK || want_plain == EKC_OK;
+                            assert_eq!(last != 0, ran, "{storage_arg:?} {input_arg:?} {out_arg:?}");
+                        }
+                    }
+                    if want != EKC_OK && want_plain != EKC_OK {
+                        assert_eq!((out.command, out.status), (77, 77));
+                    }
+                    checked += 1;
+                }
+            }
+        }
+        assert_eq!(checked, 36);
     }
 }

@@ -10,9 +10,9 @@ use std::path::Path;
 use std::process::Command;
 
 use common::{assert_exit, demo, evenkeel, text};
-use evenkeel::Config;
 use evenkeel::fixed::types::I16F16;
-use evenkeel_harness::Scenario;
+use evenkeel::{Config, Slim16};
+use evenkeel_harness::{BackendKind, Scenario};
 
 /// Every field of `name` as `gcc` sees it, one `field value` per line.
 const PRINTER: &str = r#"
@@ -35,11 +35,15 @@ int main(void) {
 "#;
 
 /// What `PRINTER` should print for `settings`: the parts of the Rust
-/// configuration, fields that are off as zero.
+/// Q16.16 configuration, fields that are off as zero.
 fn expected(settings: &evenkeel::Settings) -> String {
-    let p = Config::<I16F16>::try_new(settings).unwrap().to_parts();
+    printed(1, &Config::<I16F16>::try_new(settings).unwrap().to_parts())
+}
+
+/// What `PRINTER` prints for `parts` in C format `format`.
+fn printed(format: u32, p: &evenkeel::ConfigParts) -> String {
     format!(
-        "format 1\nfeatures {}\nkp {} {}\nsetpoint_weight {} {}\nki_ts {} {}\ntracking_ratio {} {}\nfilter_alpha {} {}\nslew_step {}\ndeadband {}\noutput {} {}\nmeasurement {} {}\nrest {}\n",
+        "format {format}\nfeatures {}\nkp {} {}\nsetpoint_weight {} {}\nki_ts {} {}\ntracking_ratio {} {}\nfilter_alpha {} {}\nslew_step {}\ndeadband {}\noutput {} {}\nmeasurement {} {}\nrest {}\n",
         p.features,
         p.kp.mantissa,
         p.kp.shift,
@@ -121,6 +125,66 @@ fn c_config_writes_the_scenarios_configuration_as_c() {
             assert_eq!(printed, expected(&scenario.controller), "{name}");
         }
     }
+}
+
+/// `--backend slim16`: the 16-bit coefficients of the settings the
+/// harness runs the 16-bit backend with (the scenario's `[scaling]`, or the
+/// power-of-two scales it picks), every field as gcc sees it; and `design
+/// --backend slim16 --c-out` writes the same format.
+#[test]
+fn c_config_writes_the_16_bit_configuration_as_c() {
+    let dir = tempfile::tempdir().unwrap();
+    for name in ["baggage_tug", "greenhouse_fan", "irrigation_pump"] {
+        let path = demo(name);
+        let scenario = Scenario::from_path(&path).unwrap();
+        let out_file = dir.path().join(format!("{name}_16.h"));
+        let out = evenkeel(
+            dir.path(),
+            &[
+                "c-config",
+                &path.display().to_string(),
+                "--backend",
+                "slim16",
+                "--out",
+                &out_file.display().to_string(),
+            ],
+        );
+        assert_exit(&out, 0);
+        let header = std::fs::read_to_string(&out_file).unwrap();
+        let constant = format!("{}_coefficients", scenario.name.replace(['-', ' '], "_"));
+        assert!(header.contains(".format = EKC_FORMAT_SLIM16"), "{header}");
+        assert!(header.contains("ekc_slim_load(&pi, &"), "{header}");
+        assert!(header.contains("16-bit raw signals (int16_t)"), "{header}");
+        assert!(
+            header.contains("not a certified safety function"),
+            "{header}"
+        );
+        let settings = scenario.settings_on(BackendKind::Slim16);
+        let parts = Config::<Slim16>::try_new(&settings).unwrap().to_parts();
+        // The 16-bit configuration differs from the Q16.16 one (else this
+        // test could not tell the formats apart).
+        assert_ne!(printed(2, &parts), expected(&scenario.controller), "{name}");
+        if let Some(printed_c) = printed_by_gcc(dir.path(), &out_file, &constant) {
+            assert_eq!(printed_c, printed(2, &parts), "{name}");
+        }
+    }
+    let path = demo("baggage_tug").display().to_string();
+    let target = dir.path().join("tug16.h");
+    let out = evenkeel(
+        dir.path(),
+        &[
+            "design",
+            &path,
+            "--backend",
+            "slim16",
+            "--c-out",
+            &target.display().to_string(),
+        ],
+    );
+    assert_exit(&out, 0);
+    let header = std::fs::read_to_string(&target).unwrap();
+    assert!(header.contains(".format = EKC_FORMAT_SLIM16"), "{header}");
+    assert!(header.contains("Proposed by `evenkeel design`"), "{header}");
 }
 
 #[test]

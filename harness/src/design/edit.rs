@@ -5,11 +5,12 @@
 use std::fmt::Write;
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{AntiWindup, Config, ConfigError, Settings};
+use evenkeel::{AntiWindup, Config, ConfigError, Settings, Slim16};
 use evenkeel_c::initializer::{self, Item as CItem};
-use evenkeel_c::types::{EKC_FORMAT_Q16_16, EkcCoefficients};
+use evenkeel_c::types::{EKC_FORMAT_Q16_16, EKC_FORMAT_SLIM16, EkcCoefficients};
 use toml_edit::{DocumentMut, Item, Value};
 
+use crate::BackendKind;
 use crate::report::CAUTION;
 use crate::scenario::Scenario;
 
@@ -247,19 +248,25 @@ pub fn c_name(name: &str) -> String {
     format!("{base}_coefficients")
 }
 
-/// A C header for firmware: the Q16.16 configuration of `c` as a
-/// `static const EkcCoefficients` initialiser (the precomputed per-sample
-/// coefficients and limits, exactly those of `evenkeel::config!`), loaded
-/// with `ekc_load` from `evenkeel.h` (crate `evenkeel-c`) with no floating
-/// point on the target. `file_name` makes the include guard; `name` is the
-/// C identifier (see [`c_name`]).
+/// A C header for firmware: the configuration of `c` in the C format of
+/// backend `kind` as a `static const EkcCoefficients` initialiser (the
+/// precomputed per-sample coefficients and limits, exactly those of
+/// `evenkeel::config!`), loaded with `ekc_load` (Q16.16, `EkcLoop`) or
+/// `ekc_slim_load` (16-bit, `EkcSlimLoop`) from `evenkeel.h` (crate
+/// `evenkeel-c`) with no floating point on the target.
+/// [`BackendKind::Slim16`] uses the 16-bit settings of `c` in scenario
+/// `s` ([`Scenario::settings_on`]: its `[scaling]`, or the power-of-two
+/// scales the harness picks), and the header states that scaling; every
+/// other kind gives Q16.16. `file_name` makes the include guard; `name` is
+/// the C identifier (see [`c_name`]).
 ///
 /// # Errors
-/// A message naming the first setting the Q16.16 format refuses, or a
-/// `name` that is not a C identifier.
+/// A message naming the first setting the format refuses, or a `name`
+/// that is not a C identifier.
 pub fn c_header(
     s: &Scenario,
     c: &Settings,
+    kind: BackendKind,
     what: &str,
     file_name: &str,
     name: &str,
@@ -269,9 +276,27 @@ pub fn c_header(
             "`{name}` is not a C identifier (letters, digits, _; not starting with a digit or ekc_/EKC_/Ekc)"
         ));
     }
-    let config = Config::<I16F16>::try_new(c)
-        .map_err(|e: ConfigError| format!("the Q16.16 format refuses the settings: {e}"))?;
-    let coefficients = EkcCoefficients::from_parts(EKC_FORMAT_Q16_16, &config.to_parts());
+    let slim = kind == BackendKind::Slim16;
+    let (c, coefficients) = if slim {
+        let scenario = Scenario {
+            controller: *c,
+            ..s.clone()
+        };
+        let c = scenario.settings_on(BackendKind::Slim16);
+        let config = Config::<Slim16>::try_new(&c)
+            .map_err(|e: ConfigError| format!("the 16-bit format refuses the settings: {e}"))?;
+        (
+            c,
+            EkcCoefficients::from_parts(EKC_FORMAT_SLIM16, &config.to_parts()),
+        )
+    } else {
+        let config = Config::<I16F16>::try_new(c)
+            .map_err(|e: ConfigError| format!("the Q16.16 format refuses the settings: {e}"))?;
+        (
+            *c,
+            EkcCoefficients::from_parts(EKC_FORMAT_Q16_16, &config.to_parts()),
+        )
+    };
     let anti_windup = match c.anti_windup {
         AntiWindup::BackCalculation { tracking_time_s } => {
             format!("back-calculation, tracking_time_s = {tracking_time_s:?}")
@@ -280,7 +305,7 @@ pub fn c_header(
     };
     let optional =
         |key: &str, v: Option<f64>| v.map_or(String::new(), |v| format!(", {key} = {v:?}"));
-    let lines = [
+    let mut lines = vec![
         format!("{what} for scenario `{}`.", s.name),
         format!(
             "Settings: period_s = {:?}, kp = {:?}, ki_per_s = {:?}, setpoint_weight = {:?}, output {:?} to {:?}, measurement {:?} to {:?}{}{}{}, {anti_windup}.",
@@ -296,9 +321,24 @@ pub fn c_header(
             optional("filter_time_s", c.filter_time_s),
             optional("deadband", c.deadband),
         ),
-        "Q16.16 signals (value · 65536). On the target: `static EkcLoop pi;`".to_owned(),
-        format!("then `ekc_load(&pi, &{name})`: no floating point (evenkeel.h, crate evenkeel-c)."),
     ];
+    if slim {
+        let (m, u) = (c.scaling.measurement, c.scaling.command);
+        lines.push(format!(
+            "16-bit raw signals (int16_t): measurement and setpoint raw = {:?} * value + {:?}, command raw = {:?} * value + {:?}.",
+            m.per_unit, m.offset, u.per_unit, u.offset
+        ));
+        lines.push("On the target: `static EkcSlimLoop pi;`".to_owned());
+        lines.push(format!(
+            "then `ekc_slim_load(&pi, &{name})`: no floating point (evenkeel.h, crate evenkeel-c)."
+        ));
+    } else {
+        lines
+            .push("Q16.16 signals (value · 65536). On the target: `static EkcLoop pi;`".to_owned());
+        lines.push(format!(
+            "then `ekc_load(&pi, &{name})`: no floating point (evenkeel.h, crate evenkeel-c)."
+        ));
+    }
     let lines: Vec<&str> = lines.iter().map(String::as_str).collect();
     let mut out = String::new();
     initializer::write_header(&mut out, file_name, &lines, &[CItem { name, coefficients }])

@@ -1,12 +1,13 @@
 //! `evenkeel c-config`: a scenario's `[controller]`, as written, as a C
 //! header for firmware (the precomputed Q16.16 coefficients, loaded with
-//! `ekc_load`: no floating point on the target).
+//! `ekc_load`, or with `--backend slim16` the 16-bit ones, loaded with
+//! `ekc_slim_load`: no floating point on the target).
 
 use std::path::PathBuf;
 
-use clap::Args;
-use evenkeel_harness::Scenario;
+use clap::{Args, ValueEnum};
 use evenkeel_harness::design;
+use evenkeel_harness::{BackendKind, Scenario};
 
 use super::output::{self, Outputs};
 
@@ -21,6 +22,18 @@ pub struct CConfigArgs {
     /// C identifier of the constant (default: `<scenario name>_coefficients`).
     #[arg(long, value_name = "IDENT")]
     name: Option<String>,
+    /// C format: `fixed` (Q16.16, `EkcLoop`) or `slim16` (16-bit,
+    /// `EkcSlimLoop`, on the scenario's `[scaling]` or the power-of-two
+    /// scales the harness picks for it).
+    #[arg(long, value_enum, default_value = "fixed")]
+    backend: CBackend,
+}
+
+/// The backends the C interface has.
+#[derive(Clone, Copy, ValueEnum)]
+enum CBackend {
+    Fixed,
+    Slim16,
 }
 
 /// `evenkeel c-config`: `Ok(true)` once the header is written.
@@ -35,6 +48,10 @@ pub fn run(args: &CConfigArgs) -> anyhow::Result<bool> {
     let header = design::c_header(
         &scenario,
         &scenario.controller,
+        match args.backend {
+            CBackend::Fixed => BackendKind::Fixed,
+            CBackend::Slim16 => BackendKind::Slim16,
+        },
         "Written by `evenkeel c-config` from the [controller] as written (not designed or verified by this command)",
         &output::header_file_name(&args.out),
         &name,

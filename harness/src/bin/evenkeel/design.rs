@@ -78,7 +78,8 @@ pub struct DesignArgs {
     /// Write the configuration for C firmware to PATH (`-`: standard
     /// output): a header with the precomputed Q16.16 coefficients as a
     /// `static const EkcCoefficients`, loaded with `ekc_load` (no floating
-    /// point on the target).
+    /// point on the target); with `--backend slim16` the 16-bit ones (the
+    /// scaling verified), loaded with `ekc_slim_load`.
     #[arg(long, value_name = "PATH.h")]
     c_out: Option<PathBuf>,
 }
@@ -167,6 +168,7 @@ pub fn run(args: &DesignArgs) -> anyhow::Result<bool> {
         let header = design::c_header(
             &scenario,
             &tuned.settings,
+            options.backend,
             &format!(
                 "Proposed by `evenkeel design` ({})",
                 design::provenance(&tuned)
