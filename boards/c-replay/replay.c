@@ -1,6 +1,7 @@
 /*
- * The C firmware: replays the golden vectors (shared/vectors/golden.ekv,
- * format in shared/vectors/FORMAT.md) through the C interface of the
+ * The C firmware: replays the golden vectors (shared/vectors/golden.ekv
+ * through the Q16.16 loop, shared/vectors/slim16.ekv through the 16-bit
+ * loop; format in shared/vectors/FORMAT.md) through the C interface of the
  * evenkeel static library, compares every command and status bit, times
  * ekc_step_with / ekc_step on the workloads of boards/replay/src/cost.rs,
  * prints the results over semihosting and exits with the verdict.
@@ -147,8 +148,6 @@ static Step read_step(Cursor *c, const Step *prev) {
 static EkcLoop pi;
 static EkcSlimLoop slim;
 
-static unsigned long replay_steps, replay_mismatches;
-
 /* One step through the C interface, exactly as boards/replay/src/replay.rs
  * does it through the Rust one. Returns EKC_OK or the call's error. */
 static EkcCode apply(unsigned scenario, const Step *s, EkcOutput *out) {
@@ -182,22 +181,70 @@ static EkcCode apply(unsigned scenario, const Step *s, EkcOutput *out) {
                  : ekc_step_with(&pi, &in, out);
 }
 
-/* Replay every scenario; 0 if the file read to the end and every call
- * succeeded (mismatches are counted, not errors). */
-static int replay(void) {
-    Cursor c = { golden_vectors, golden_vectors + GOLDEN_LEN, 0 };
+/* One step of the 16-bit set through the 16-bit C interface; the signals
+ * were checked to fit 16 bits. */
+static EkcCode apply_slim(unsigned scenario, const Step *s, EkcSlimOutput *out) {
+    EkcSlimInput in = { (int16_t)s->setpoint, (int16_t)s->measurement, (int16_t)s->feed_forward,
+                        (int16_t)s->applied, (uint8_t)(s->has_applied ? 1 : 0) };
+    int plain = s->feed_forward == 0 && !s->has_applied;
+    EkcCode code = EKC_OK;
+    switch (s->op) {
+    case OP_ENGAGE:
+        code = ekc_slim_engage(&slim, (int16_t)s->actuator);
+        break;
+    case OP_TRACK:
+        return ekc_slim_track(&slim, &in, (int16_t)s->actuator, out);
+    case OP_RESET:
+        code = ekc_slim_reset(&slim);
+        break;
+    case OP_RETUNE:
+        if (s->gain_index >= slim_gain_counts[scenario]) {
+            return EKC_ERR_CONFIG_OTHER;
+        }
+        code = ekc_slim_retune_gains(&slim, slim_gains[scenario][s->gain_index].kp,
+                                     slim_gains[scenario][s->gain_index].ki_ts);
+        break;
+    default:
+        break;
+    }
+    if (code != EKC_OK) {
+        return code;
+    }
+    return plain ? ekc_slim_step(&slim, in.setpoint, in.measurement, out)
+                 : ekc_slim_step_with(&slim, &in, out);
+}
+
+static int fits_16(int32_t v) { return v >= -32768 && v <= 32767; }
+
+/* A vector set as the firmware holds it. */
+typedef struct Set {
+    const char *what;            /* for the messages */
+    const unsigned char *bytes;
+    size_t len;
+    unsigned version;            /* 1: Q16.16 (golden.ekv); 3: 16-bit (slim16.ekv) */
+    unsigned count;
+    const char *const *names;
+    const EkcCoefficients *const *configs;
+} Set;
+
+/* Replay every scenario of `set`; 0 if the file read to the end and every
+ * call succeeded (mismatches are counted, not errors). */
+static int replay_set(const Set *set, unsigned long *steps_out, unsigned long *mismatches_out) {
+    Cursor c = { set->bytes, set->bytes + set->len, 0 };
     unsigned scenarios, version, i;
     uint32_t checksum;
+    int slim16 = set->version == 3;
+    unsigned long total_steps = 0, total_mismatches = 0;
     if (take_le(&c, 4) != 0x46564b45u) { /* "EKVF" */
-        puts("replay: ERROR not a vector file");
+        printf("replay %s: ERROR not a vector file\n", set->what);
         return 1;
     }
     version = take_le(&c, 1);
     scenarios = take_le(&c, 1);
     checksum = take_le(&c, 4);
-    if (version != 1 || scenarios != GOLDEN_SCENARIOS ||
+    if (version != set->version || scenarios != set->count ||
         fnv1a(c.at, (size_t)(c.end - c.at)) != checksum) {
-        puts("replay: ERROR version, scenario count or checksum");
+        printf("replay %s: ERROR version, scenario count or checksum\n", set->what);
         return 1;
     }
     for (i = 0; i < scenarios; i++) {
@@ -216,60 +263,84 @@ static int replay(void) {
                 skip(&c, 8);
             }
         }
+        if (slim16) {
+            skip(&c, 4 * 8 + 2); /* the scaling: the raw values are what the loop sees */
+        }
         skip(&c, 10 * take_le(&c, 1)); /* gain pairs: in tables.h too */
         steps = take_le(&c, 2);
         steps_len = take_le(&c, 4);
-        if (c.bad || name_len != strlen(golden_names[i]) ||
-            memcmp(name, golden_names[i], name_len) != 0) {
-            puts("replay: ERROR vector file and tables disagree");
+        if (c.bad || name_len != strlen(set->names[i]) ||
+            memcmp(name, set->names[i], name_len) != 0) {
+            printf("replay %s: ERROR vector file and tables disagree\n", set->what);
             return 1;
         }
         steps_end = c.at + steps_len;
-        code = ekc_load(&pi, golden_configs[i]);
+        code = slim16 ? ekc_slim_load(&slim, set->configs[i]) : ekc_load(&pi, set->configs[i]);
         if (code != EKC_OK) {
-            printf("replay: ERROR %s: ekc_load gave %ld\n", golden_names[i], (long)code);
+            printf("replay: ERROR %s: load gave %ld\n", set->names[i], (long)code);
             return 1;
         }
         memset(&step, 0, sizeof step);
         for (k = 0; k < steps; k++) {
-            EkcOutput out = { 0, 0 };
+            int32_t command;
+            uint16_t status;
             step = read_step(&c, &step);
-            if (c.bad || c.at > steps_end) {
-                printf("replay: ERROR %s: malformed step %u\n", golden_names[i], k);
+            if (c.bad || c.at > steps_end ||
+                (slim16 && !(fits_16(step.setpoint) && fits_16(step.measurement) &&
+                             fits_16(step.feed_forward) && fits_16(step.applied) &&
+                             fits_16(step.actuator) && fits_16(step.command)))) {
+                printf("replay: ERROR %s: malformed step %u\n", set->names[i], k);
                 return 1;
             }
-            code = apply(i, &step, &out);
+            if (slim16) {
+                EkcSlimOutput out = { 0, 0 };
+                code = apply_slim(i, &step, &out);
+                command = out.command;
+                status = out.status;
+            } else {
+                EkcOutput out = { 0, 0 };
+                code = apply(i, &step, &out);
+                command = out.command;
+                status = out.status;
+            }
             if (code != EKC_OK) {
-                printf("replay: ERROR %s step %u: code %ld\n", golden_names[i], k, (long)code);
+                printf("replay: ERROR %s step %u: code %ld\n", set->names[i], k, (long)code);
                 return 1;
             }
-            if (out.command != step.command || out.status != step.status) {
+            if (command != step.command || status != step.status) {
                 if (printed++ < 8) {
                     printf("  MISMATCH %s (C interface) step %u: command want %#010lx got %#010lx, "
                            "status want %#06x got %#06x\n",
-                           golden_names[i], k, (unsigned long)(uint32_t)step.command,
-                           (unsigned long)(uint32_t)out.command, step.status, out.status);
+                           set->names[i], k, (unsigned long)(uint32_t)step.command,
+                           (unsigned long)(uint32_t)command, step.status, status);
                 }
                 mismatches++;
             }
         }
         if (c.at != steps_end) {
-            printf("replay: ERROR %s: step section length\n", golden_names[i]);
+            printf("replay: ERROR %s: step section length\n", set->names[i]);
             return 1;
         }
         printf("  %s %s, C interface (%u steps, %lu mismatches)\n", mismatches ? "FAIL" : "ok",
-               golden_names[i], steps, mismatches);
-        replay_steps += steps;
-        replay_mismatches += mismatches;
+               set->names[i], steps, mismatches);
+        total_steps += steps;
+        total_mismatches += mismatches;
     }
     if (c.at != c.end) {
-        puts("replay: ERROR bytes after the last scenario");
+        printf("replay %s: ERROR bytes after the last scenario\n", set->what);
         return 1;
     }
-    printf("replay (C interface): %u scenario runs, %lu steps, %lu mismatches\n", scenarios,
-           replay_steps, replay_mismatches);
+    printf("replay %s (C interface): %u scenario runs, %lu steps, %lu mismatches\n", set->what,
+           scenarios, total_steps, total_mismatches);
+    *steps_out = total_steps;
+    *mismatches_out = total_mismatches;
     return 0;
 }
+
+static const Set golden_set = { "golden", golden_vectors, GOLDEN_LEN, 1, GOLDEN_SCENARIOS,
+                                golden_names, golden_configs };
+static const Set slim_set = { "slim16", slim_vectors, SLIM_LEN, 3, SLIM_SCENARIOS,
+                              slim_names, slim_configs };
 
 /* ---- timing (the method of boards/replay/src/cost.rs) ---- */
 
@@ -439,8 +510,14 @@ static int time_slim_minimal(void) {
 int main(void) {
     int failed;
     printf("evenkeel C firmware: %s\n", BOARD_NAME);
-    printf("vectors: golden %d bytes\n", GOLDEN_LEN);
-    failed = replay() != 0 || replay_mismatches != 0 || replay_steps == 0;
+    printf("vectors: golden %d bytes, slim16 %d bytes\n", GOLDEN_LEN, SLIM_LEN);
+    {
+        unsigned long steps = 0, mismatches = 0;
+        failed = replay_set(&golden_set, &steps, &mismatches) != 0 || mismatches != 0 || steps == 0;
+        steps = 0;
+        mismatches = 0;
+        failed |= replay_set(&slim_set, &steps, &mismatches) != 0 || mismatches != 0 || steps == 0;
+    }
     SYST_RVR = 0x00ffffffu;
     SYST_CVR = 0;
     SYST_CSR = 5; /* enable, core clock, no interrupt */

@@ -13,11 +13,11 @@ use std::fmt::Write as _;
 use std::process::ExitCode;
 
 use evenkeel::fixed::types::I16F16;
-use evenkeel::{Config, FixedCoef};
+use evenkeel::{Config, FixedCoef, SlimCoef};
 use evenkeel_c::initializer::{self, Item};
 use evenkeel_c::types::{EKC_FORMAT_Q16_16, EKC_FORMAT_SLIM16, EkcCoefficients};
 use evenkeel_replay::cost;
-use evenkeel_replay::tables::golden;
+use evenkeel_replay::tables::{golden, slim16};
 
 fn coefficients(c: &Config<I16F16>) -> EkcCoefficients {
     EkcCoefficients::from_parts(EKC_FORMAT_Q16_16, &c.to_parts())
@@ -25,6 +25,67 @@ fn coefficients(c: &Config<I16F16>) -> EkcCoefficients {
 
 fn coef(c: FixedCoef) -> String {
     format!("{{ {}, {} }}", c.mantissa(), c.shift())
+}
+
+fn slim_coef(c: SlimCoef) -> String {
+    format!("{{ {}, {} }}", c.mantissa(), c.shift())
+}
+
+/// The 16-bit set (`shared/vectors/slim16.ekv`): the bytes, each
+/// scenario's configuration (`EKC_FORMAT_SLIM16`), retune gains and name,
+/// with the prefix `slim_`.
+fn slim_tables(out: &mut String) -> std::fmt::Result {
+    let vectors = slim16::VECTORS;
+    writeln!(out, "#define SLIM_LEN {}", vectors.len())?;
+    out.push_str("static const unsigned char slim_vectors[SLIM_LEN] = {");
+    for (i, b) in vectors.iter().enumerate() {
+        if i % 20 == 0 {
+            out.push_str("\n   ");
+        }
+        write!(out, " {b},")?;
+    }
+    out.push_str("\n};\n\n");
+    let n = slim16::CONFIGS.len();
+    writeln!(out, "#define SLIM_SCENARIOS {n}")?;
+    for (i, (config, gains)) in slim16::CONFIGS.iter().zip(slim16::GAINS).enumerate() {
+        let name = format!("slim_config_{i}");
+        initializer::write_coefficients(
+            out,
+            &Item {
+                name: &name,
+                coefficients: EkcCoefficients::from_parts(EKC_FORMAT_SLIM16, &config.to_parts()),
+            },
+        )?;
+        if !gains.is_empty() {
+            write!(out, "static const GainPair slim_gains_{i}[] = {{")?;
+            for (kp, ki_ts) in gains.iter() {
+                write!(out, " {{ {}, {} }},", slim_coef(*kp), slim_coef(*ki_ts))?;
+            }
+            out.push_str(" };\n");
+        }
+    }
+    out.push_str("static const EkcCoefficients *const slim_configs[SLIM_SCENARIOS] = {");
+    for i in 0..n {
+        write!(out, " &slim_config_{i},")?;
+    }
+    out.push_str(" };\nstatic const GainPair *const slim_gains[SLIM_SCENARIOS] = {");
+    for (i, gains) in slim16::GAINS.iter().enumerate() {
+        if gains.is_empty() {
+            out.push_str(" 0,");
+        } else {
+            write!(out, " slim_gains_{i},")?;
+        }
+    }
+    out.push_str(" };\nstatic const unsigned slim_gain_counts[SLIM_SCENARIOS] = {");
+    for gains in slim16::GAINS {
+        write!(out, " {},", gains.len())?;
+    }
+    out.push_str(" };\nstatic const char *const slim_names[SLIM_SCENARIOS] = {");
+    for name in slim16::NAMES {
+        write!(out, " {name:?},")?;
+    }
+    out.push_str(" };\n\n");
+    Ok(())
 }
 
 fn tables() -> Result<String, std::fmt::Error> {
@@ -87,7 +148,9 @@ fn tables() -> Result<String, std::fmt::Error> {
     for name in golden::NAMES {
         write!(out, " {name:?},")?;
     }
-    out.push_str(" };\n\n/* The timing workloads of boards/replay/src/cost.rs. */\n");
+    out.push_str(" };\n\n");
+    slim_tables(&mut out)?;
+    out.push_str("/* The timing workloads of boards/replay/src/cost.rs. */\n");
     writeln!(out, "#define COST_STEPS {}", cost::STEPS)?;
     for (name, c) in [
         ("cost_full", coefficients(&cost::FIXED_FULL)),
