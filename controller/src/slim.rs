@@ -535,7 +535,7 @@ impl Backend for Slim16 {
     }
     /// |acc| < 2³⁰: the integrator stays within three output spans
     /// (< 8.06e8 state LSB) and the filter state within the signal range
-    /// (< 2²⁸), see [`SlimCoef::integrate`].
+    /// (< 2²⁸), see `SlimCoef::integrate`.
     #[inline(always)]
     fn narrow_state(acc: i32) -> Self {
         Self(saturate_i16(round_half_added(acc, SLIM_STATE_FRAC_BITS)))
