@@ -50,19 +50,37 @@ fn sat(x: i32) -> i16 {
     x.clamp(-32_768, 32_767) as i16
 }
 
-/// Measurement and setpoint clamped into ±30 720, with their flags.
+/// Whether `x` lies within the measurement range ±30 720 (one unsigned
+/// comparison).
 #[inline(always)]
-fn range(r: i16, y: i16, status: &mut u16) -> (i16, i16) {
-    let (mut r, mut y) = (r, y);
-    if !(-RANGE..=RANGE).contains(&y) {
-        y = y.clamp(-RANGE, RANGE);
-        *status |= MEASUREMENT_RANGE;
+fn inside(x: i16) -> bool {
+    (i32::from(x) + i32::from(RANGE)) as u32 <= 2 * RANGE as u32
+}
+
+/// Setpoint and measurement, clamped into ±30 720, with their flags. Only
+/// when one is outside: out of line, off the common path.
+#[cold]
+#[inline(never)]
+fn clamp_inputs(r: i16, y: i16) -> (i16, i16, u16) {
+    let mut status = 0;
+    if !inside(y) {
+        status |= MEASUREMENT_RANGE;
     }
-    if !(-RANGE..=RANGE).contains(&r) {
-        r = r.clamp(-RANGE, RANGE);
-        *status |= SETPOINT_RANGE;
+    if !inside(r) {
+        status |= SETPOINT_RANGE;
     }
-    (r, y)
+    (r.clamp(-RANGE, RANGE), y.clamp(-RANGE, RANGE), status)
+}
+
+/// Setpoint and measurement within the measurement range, and the status
+/// so far.
+#[inline(always)]
+fn range(r: i16, y: i16) -> (i16, i16, u16) {
+    if inside(r) & inside(y) {
+        (r, y, 0)
+    } else {
+        clamp_inputs(r, y)
+    }
 }
 
 /// State of the minimal loop: the integrator alone.
@@ -89,8 +107,7 @@ impl Minimal {
 /// same way): the saturated values never reach the integrator.
 #[inline(never)]
 pub fn minimal_step(s: &mut Minimal, setpoint: i16, measurement: i16) -> Step {
-    let mut status = 0;
-    let (r, y) = range(setpoint, measurement, &mut status);
+    let (r, y, mut status) = range(setpoint, measurement);
     let e = i32::from(r) - i32::from(y);
     // I rounded to a signal, ties toward +∞ (|I| < 2³⁰: no wrap, and it
     // fits 16 bits).
@@ -156,8 +173,7 @@ pub fn full_step(
     feed_forward: i16,
     applied: i16,
 ) -> Step {
-    let mut status = 0;
-    let (r, y) = range(setpoint, measurement, &mut status);
+    let (r, y, mut status) = range(setpoint, measurement);
     let ff = feed_forward.clamp(-15_360, 15_360);
     let y_f = if s.primed {
         // y_f += α·(y − y_f) at 2⁻¹³: (d · 21 845 + 2²) >> 3.
