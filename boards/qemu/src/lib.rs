@@ -202,9 +202,15 @@ pub fn run(board: &Board) -> ! {
     let slim = cost::controller_bytes::<evenkeel_replay::Slim16>();
     let _ = writeln!(console, "ram slim16: {slim} bytes per controller");
     let floor_full = core::mem::size_of::<evenkeel_replay::floor::Full>();
-    let _ = writeln!(console, "ram slim16-floor full: {floor_full} bytes of state");
+    let _ = writeln!(
+        console,
+        "ram slim16-floor full: {floor_full} bytes of state"
+    );
     let floor_minimal = core::mem::size_of::<evenkeel_replay::floor::Minimal>();
-    let _ = writeln!(console, "ram slim16-floor minimal: {floor_minimal} bytes of state");
+    let _ = writeln!(
+        console,
+        "ram slim16-floor minimal: {floor_minimal} bytes of state"
+    );
     #[cfg(feature = "f32")]
     {
         let float = cost::controller_bytes::<f32>();
