@@ -44,10 +44,10 @@ const OUT: i32 = 5120;
 const RANGE: i16 = 30_720;
 const I_MAX: i32 = 15_360 << 13;
 
-/// `x` saturated to 16 bits.
+/// `x` saturated to the 16-bit range, kept in `i32`.
 #[inline(always)]
-fn sat(x: i32) -> i16 {
-    x.clamp(-32_768, 32_767) as i16
+fn s16(x: i32) -> i32 {
+    x.clamp(-32_768, 32_767)
 }
 
 /// Whether `x` lies within the measurement range ±30 720 (one unsigned
@@ -164,7 +164,7 @@ impl Full {
 /// Unobservable saturation, dropped: rounding the integrator (|I| ≤ 15 360
 /// raw) and the filter state to a signal (it stays within the
 /// measurement range, ±30 720, to within one LSB); `r · b` (b < 1);
-/// `last ± 1024` (|last| ≤ 5120).
+/// `last ± 1024` (|last| ≤ 5120); two of the three in P (see there).
 #[inline(never)]
 pub fn full_step(
     s: &mut Full,
@@ -174,43 +174,45 @@ pub fn full_step(
     applied: i16,
 ) -> Step {
     let (r, y, mut status) = range(setpoint, measurement);
-    let ff = feed_forward.clamp(-15_360, 15_360);
+    let (r, y) = (i32::from(r), i32::from(y));
+    let ff = i32::from(feed_forward).clamp(-15_360, 15_360);
     let y_f = if s.primed {
         // y_f += α·(y − y_f) at 2⁻¹³: (d · 21 845 + 2²) >> 3.
-        let d = i32::from(y.saturating_sub(s.last_filtered));
+        let d = s16(y - i32::from(s.last_filtered));
         s.filtered += (d * 21_845 + 4) >> 3;
-        ((s.filtered + 4096) >> 13) as i16
+        (s.filtered + 4096) >> 13
     } else {
-        s.filtered = i32::from(y) << 13;
+        s.filtered = y << 13;
         y
     };
     s.primed = true;
-    s.last_filtered = y_f;
+    s.last_filtered = y_f as i16;
 
-    let e = r.saturating_sub(y_f);
+    let e = s16(r - y_f);
     // Deadband ±5: exact sums (|inside| ≤ 5).
     let inside = e.clamp(-5, 5);
     let e_db = e - inside;
     if e_db == 0 {
         status |= DEADBAND;
     }
-    // b · r, nearest, ties toward +∞.
-    let rb = ((i32::from(r) * 22_938 + 16_384) >> 15) as i16;
-    let weighted = rb.saturating_sub(y_f).saturating_sub(inside);
-    // Kp = 2 exactly: the product needs no rounding.
-    let p = sat(2 * i32::from(weighted));
-    let i = ((s.integral + 4096) >> 13) as i16;
-    let v = p.saturating_add(i).saturating_add(ff);
+    // P = Kp·(b·r − y_f − inside), Kp = 2 exactly (no rounding), b·r
+    // nearest, ties toward +∞. One saturation where the library has three
+    // (b·r − y_f, − inside, 2·): whenever an inner one acts, |2·(…)| is
+    // beyond 32 767 on the same side either way (|inside| ≤ 5).
+    let rb = (r * 22_938 + 16_384) >> 15;
+    let p = s16(2 * (rb - y_f - inside));
+    let i = (s.integral + 4096) >> 13;
+    let v = s16(s16(p + i) + ff);
 
     let mut u = v;
-    if u > OUT as i16 {
-        u = OUT as i16;
+    if u > OUT {
+        u = OUT;
         status |= CLAMP_HIGH;
-    } else if u < -OUT as i16 {
-        u = -OUT as i16;
+    } else if u < -OUT {
+        u = -OUT;
         status |= CLAMP_LOW;
     }
-    let last = s.last_command;
+    let last = i32::from(s.last_command);
     if u > last + 1024 {
         u = last + 1024;
         status |= SLEW;
@@ -218,17 +220,20 @@ pub fn full_step(
         u = last - 1024;
         status |= SLEW;
     }
-    let downstream = applied.saturating_sub(last);
+    let downstream = s16(i32::from(applied) - last);
     if downstream != 0 {
         status |= DOWNSTREAM;
     }
     // Back-calculation: Ki·Ts·e_db at 2⁻¹³, (e · 26 214 + 2⁵) >> 6, then
     // (Ts/Tt)·(u − v + d), (x · 26 214 + 2⁴) >> 5; within 2³¹ before the
     // clamp (the bound of `SlimCoef::integrate`).
-    let mut integral = s.integral + ((i32::from(e_db) * 26_214 + 32) >> 6);
-    let back = i32::from(u.saturating_sub(v).saturating_add(downstream));
+    let mut integral = s.integral + ((e_db * 26_214 + 32) >> 6);
+    let back = s16(s16(u - v) + downstream);
     integral += (back * 26_214 + 16) >> 5;
     s.integral = integral.clamp(-I_MAX, I_MAX);
-    s.last_command = u;
-    Step { command: u, status }
+    s.last_command = u as i16;
+    Step {
+        command: u as i16,
+        status,
+    }
 }
