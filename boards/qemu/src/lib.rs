@@ -144,6 +144,29 @@ pub fn run(board: &Board) -> ! {
         };
     }
 
+    // The hand-written 16-bit steps (`evenkeel_replay::floor`) must give
+    // the library's bits on every step of their workload before they are
+    // timed; a difference fails the run.
+    let floors = [
+        ("minimal", cost::check_minimal_floor()),
+        ("full", cost::check_full_floor()),
+    ];
+    for (what, check) in floors {
+        let _ = writeln!(
+            console,
+            "slim16 floor {what} check: {} steps, {} mismatches",
+            check.steps, check.mismatches
+        );
+        if let Some((k, library, hand)) = check.first {
+            let _ = writeln!(
+                console,
+                "  MISMATCH floor {what} step {k}: command library {} hand {}, status library {:#06x} hand {:#06x}",
+                library.command, hand.command, library.status, hand.status
+            );
+        }
+        passed &= check.mismatches == 0 && check.steps == cost::STEPS;
+    }
+
     let timing = cortex_m::Peripherals::take().map(|p| SysTickClock::start(p.SYST));
     if let Some(mut clock) = timing {
         let full = cost::full(cost::FIXED_FULL, &mut clock, board.rate);
@@ -162,6 +185,10 @@ pub fn run(board: &Board) -> ! {
         print_cost(&mut console, "slim16-layout full", full);
         let minimal = cost::minimal(cost::SLIM_MINIMAL_LAYOUT, &mut clock, board.rate);
         print_cost(&mut console, "slim16-layout minimal", minimal);
+        let full = cost::full_floor(&mut clock, board.rate);
+        print_cost(&mut console, "slim16-floor full", full);
+        let minimal = cost::minimal_floor(&mut clock, board.rate);
+        print_cost(&mut console, "slim16-floor minimal", minimal);
         #[cfg(feature = "f32")]
         {
             let full = cost::full(cost::F32_FULL, &mut clock, board.rate);
@@ -174,6 +201,16 @@ pub fn run(board: &Board) -> ! {
     let _ = writeln!(console, "ram fixed: {fixed} bytes per controller");
     let slim = cost::controller_bytes::<evenkeel_replay::Slim16>();
     let _ = writeln!(console, "ram slim16: {slim} bytes per controller");
+    let floor_full = core::mem::size_of::<evenkeel_replay::floor::Full>();
+    let _ = writeln!(
+        console,
+        "ram slim16-floor full: {floor_full} bytes of state"
+    );
+    let floor_minimal = core::mem::size_of::<evenkeel_replay::floor::Minimal>();
+    let _ = writeln!(
+        console,
+        "ram slim16-floor minimal: {floor_minimal} bytes of state"
+    );
     #[cfg(feature = "f32")]
     {
         let float = cost::controller_bytes::<f32>();

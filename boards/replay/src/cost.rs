@@ -21,6 +21,9 @@ use evenkeel::{
     Slim16, SlimCoef,
 };
 
+use core::hint::black_box;
+
+use crate::floor;
 use crate::probe;
 
 /// Steps timed per workload.
@@ -231,6 +234,134 @@ pub fn minimal<B: Workload, L: Layout>(
         let out = timer.time(|| probe::step(&mut pi, r, y));
         core::hint::black_box(out.status);
         y = y.add(out.command.sub(y).scale(B::EIGHTH));
+    }
+    timer.cost
+}
+
+/// A hand-written step compared with the library's over one workload.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct FloorCheck {
+    /// Steps compared.
+    pub steps: u32,
+    /// Steps whose command or status differ.
+    pub mismatches: u32,
+    /// The first differing step: its index, the library's output and the
+    /// hand-written one.
+    pub first: Option<(u32, floor::Step, floor::Step)>,
+}
+
+impl FloorCheck {
+    fn new() -> Self {
+        Self {
+            steps: 0,
+            mismatches: 0,
+            first: None,
+        }
+    }
+
+    fn compare(&mut self, k: u32, library: evenkeel::Output<Slim16>, hand: floor::Step) {
+        let library = floor::Step {
+            command: library.command.raw(),
+            status: library.status.bits(),
+        };
+        self.steps = self.steps.saturating_add(1);
+        if library != hand {
+            self.mismatches = self.mismatches.saturating_add(1);
+            if self.first.is_none() {
+                self.first = Some((k, library, hand));
+            }
+        }
+    }
+}
+
+/// Run the 16-bit `minimal` workload through `Controller<Slim16,
+/// SlimMinimalLayout>` and [`floor::minimal_step`] side by side (the loop
+/// driven by the library's command) and compare every step.
+#[must_use]
+pub fn check_minimal_floor() -> FloorCheck {
+    let mut check = FloorCheck::new();
+    let mut pi = probe::new(SLIM_MINIMAL_LAYOUT);
+    let mut hand = floor::Minimal::new();
+    let mut y = Slim16::ZERO;
+    for k in 0..STEPS {
+        let r = setpoint::<Slim16>(k);
+        let out = probe::step(&mut pi, black_box(r), black_box(y));
+        // Opaque arguments here (untimed): otherwise the optimiser may
+        // specialise the step on the few values the workloads pass.
+        let got = floor::minimal_step(&mut hand, black_box(r.raw()), black_box(y.raw()));
+        check.compare(k, out, got);
+        y = y.add(out.command.sub(y).scale(Slim16::EIGHTH));
+    }
+    check
+}
+
+/// [`check_minimal_floor`] for the `full` workload and
+/// [`floor::full_step`].
+#[must_use]
+pub fn check_full_floor() -> FloorCheck {
+    let mut check = FloorCheck::new();
+    let mut pi = probe::new(SLIM_FULL_LAYOUT);
+    let mut hand = floor::Full::new();
+    let mut y = Slim16::ZERO;
+    let mut applied = Slim16::ZERO;
+    let ff = Slim16::int(1);
+    for k in 0..STEPS {
+        let r = setpoint::<Slim16>(k);
+        let input = Input::new(r, y).with_feed_forward(ff).with_applied(applied);
+        let out = probe::step_with(&mut pi, &input);
+        let got = floor::full_step(
+            &mut hand,
+            black_box(r.raw()),
+            black_box(y.raw()),
+            black_box(ff.raw()),
+            black_box(applied.raw()),
+        );
+        check.compare(k, out, got);
+        applied = if out.command > Slim16::int(8) {
+            Slim16::int(8)
+        } else {
+            out.command
+        };
+        y = y.add(applied.sub(y).scale(Slim16::EIGHTH));
+    }
+    check
+}
+
+/// Time [`floor::minimal_step`] on the `minimal` workload, as
+/// [`minimal`] times the library.
+pub fn minimal_floor(clock: &mut impl Clock, rate: Rate) -> Cost {
+    let mut timer = Timer::new(clock, rate);
+    let mut hand = floor::Minimal::new();
+    let mut y = Slim16::ZERO;
+    for k in 0..STEPS {
+        let r = setpoint::<Slim16>(k);
+        let out = timer.time(|| floor::minimal_step(&mut hand, r.raw(), y.raw()));
+        core::hint::black_box(out.status);
+        y = y.add(Slim16::from_raw(out.command).sub(y).scale(Slim16::EIGHTH));
+    }
+    timer.cost
+}
+
+/// Time [`floor::full_step`] on the `full` workload, as [`full`] times
+/// the library.
+pub fn full_floor(clock: &mut impl Clock, rate: Rate) -> Cost {
+    let mut timer = Timer::new(clock, rate);
+    let mut hand = floor::Full::new();
+    let mut y = Slim16::ZERO;
+    let mut applied = Slim16::ZERO;
+    let ff = Slim16::int(1);
+    for k in 0..STEPS {
+        let r = setpoint::<Slim16>(k);
+        let out =
+            timer.time(|| floor::full_step(&mut hand, r.raw(), y.raw(), ff.raw(), applied.raw()));
+        core::hint::black_box(out.status);
+        let command = Slim16::from_raw(out.command);
+        applied = if command > Slim16::int(8) {
+            Slim16::int(8)
+        } else {
+            command
+        };
+        y = y.add(applied.sub(y).scale(Slim16::EIGHTH));
     }
     timer.cost
 }

@@ -7,12 +7,14 @@
 //! ([`tables`]); [`replay::run`], [`replay::run_schedules`] and
 //! [`replay::run_slim16`] drive the controller through [`probe`] and
 //! report every bit difference to a [`replay::Report`];
-//! [`cost`] times single steps against a [`cost::Clock`].
+//! [`cost`] times single steps against a [`cost::Clock`]; [`floor`] is
+//! the 16-bit step written by hand for the two cost workloads.
 #![no_std]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
 pub mod cost;
+pub mod floor;
 pub mod format;
 pub mod probe;
 pub mod replay;
