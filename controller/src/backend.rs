@@ -378,6 +378,32 @@ pub trait Backend: Copy + PartialOrd + Debug {
     fn narrow_state(acc: Self::Accum) -> Self {
         Self::narrow(acc)
     }
+    /// `acc` clamped into `[lo, hi]` (`lo ≤ hi`): the integrator's clamp.
+    /// The default compares the accumulators; Q16.16 first compares only
+    /// their upper 32 bits, which decides every value whose integer part
+    /// lies strictly between those of the limits (the common case: one
+    /// 32-bit comparison per side instead of a 64-bit one), and falls back
+    /// to the full comparison otherwise. Same result either way.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::{I16F16, I32F32};
+    /// let (lo, hi) = (I32F32::from_num(-3.25), I32F32::from_num(3.25));
+    /// for x in [-4.0, -3.25, -3.2, 0.0, 3.0, 3.2, 3.25, 3.3, 1e6] {
+    ///     let x = I32F32::from_num(x);
+    ///     assert_eq!(I16F16::clamp_state(x, lo, hi), x.clamp(lo, hi));
+    /// }
+    /// ```
+    #[inline]
+    fn clamp_state(acc: Self::Accum, lo: Self::Accum, hi: Self::Accum) -> Self::Accum {
+        if acc > hi {
+            hi
+        } else if acc < lo {
+            lo
+        } else {
+            acc
+        }
+    }
     /// The signal of a whole count `c` (an ADC reading) in raw units:
     /// exact where the format holds it, else saturated.
     ///
@@ -511,6 +537,23 @@ impl Backend for I16F16 {
     #[inline]
     fn narrow(acc: I32F32) -> Self {
         q::accum_to_signal(acc)
+    }
+    #[inline(always)]
+    fn clamp_state(acc: I32F32, lo: I32F32, hi: I32F32) -> I32F32 {
+        // Upper halves (arithmetic shift: the integer part, rounded down).
+        // If lo's < acc's < hi's, then lo < acc < hi: lo < (lo_h + 1)·2³²
+        // ≤ acc_h·2³² ≤ acc < (acc_h + 1)·2³² ≤ hi_h·2³² ≤ hi.
+        let upper = |x: I32F32| (x.to_bits() >> 32) as i32;
+        let a = upper(acc);
+        if a > upper(lo) && a < upper(hi) {
+            acc
+        } else if acc > hi {
+            hi
+        } else if acc < lo {
+            lo
+        } else {
+            acc
+        }
     }
     fn from_counts(c: i32) -> Self {
         I16F16::from_bits(q::saturate_i32(i64::from(c) << 16))

@@ -367,10 +367,7 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         let (mut y, mut r) = (input.measurement, input.setpoint);
         // Both inside the range (the usual case): nothing to clamp or flag.
         if !(y >= lo && y <= hi && r >= lo && r <= hi) {
-            y = clamp(y, lo, hi);
-            status.set_if(y != input.measurement, Status::MEASUREMENT_RANGE);
-            r = clamp(r, lo, hi);
-            status.set_if(r != input.setpoint, Status::SETPOINT_RANGE);
+            (y, r, status) = clamp_range(y, r, lo, hi);
         }
         // `step` passes a constant zero: its clamp is stored in the
         // configuration (one load instead of two loads and a clamp; and, as
@@ -500,11 +497,26 @@ impl<B: Backend, L: Layout> Controller<B, L> {
             }
         };
         if let Some(integral) = integral {
-            self.integral = clamp(integral, c.integral_min, c.integral_max);
+            self.integral = B::clamp_state(integral, c.integral_min, c.integral_max);
         }
         self.last_command = u;
         Output { command: u, status }
     }
+}
+
+/// Measurement `y` and setpoint `r` clamped into the measurement range
+/// `[lo, hi]`, with their flags: out of line and off the common path (the
+/// step calls it only when one of them is outside), so its registers are
+/// not held across the step.
+#[cold]
+#[inline(never)]
+fn clamp_range<B: Backend>(y: B, r: B, lo: B, hi: B) -> (B, B, Status) {
+    let mut status = Status::NONE;
+    let y_in = clamp(y, lo, hi);
+    status.set_if(y_in != y, Status::MEASUREMENT_RANGE);
+    let r_in = clamp(r, lo, hi);
+    status.set_if(r_in != r, Status::SETPOINT_RANGE);
+    (y_in, r_in, status)
 }
 
 /// The coefficient the step multiplies with: under a compile-time layout

@@ -435,3 +435,42 @@ impl SlimBound {
         (k as f64 + 1.0) * self.growth + 1.0
     }
 }
+
+/// A Q32.32 value near `base` (within a few units of it, any fraction), or
+/// anywhere, so the upper halves of value and limits often coincide or
+/// differ by one.
+fn accum_near(base: i64) -> impl Strategy<Value = fixed::types::I32F32> {
+    prop_oneof![
+        (-3i64..=3, any::<u32>()).prop_map(move |(d, f)| fixed::types::I32F32::from_bits(
+            ((base + d) << 32) | i64::from(f)
+        )),
+        any::<i64>().prop_map(fixed::types::I32F32::from_bits),
+    ]
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(4096))]
+
+    /// Q16.16's integrator clamp decides on the upper halves first; it must
+    /// equal the plain clamp for every value and every pair of limits
+    /// (`lo ≤ hi`), including values whose upper half equals a limit's.
+    #[test]
+    fn the_fast_integrator_clamp_is_the_plain_clamp(
+        base in -40i64..40,
+        x in accum_near(0),
+        lo_d in accum_near(0),
+        hi_d in accum_near(0),
+        pick in 0u8..3,
+    ) {
+        let shift = |v: fixed::types::I32F32| fixed::types::I32F32::from_bits(v.to_bits().wrapping_add(base << 32));
+        let (a, b) = (shift(lo_d), shift(hi_d));
+        let (lo, hi) = if a <= b { (a, b) } else { (b, a) };
+        // The value: random, or exactly at a limit, or one LSB beyond.
+        let x = match pick {
+            0 => shift(x),
+            1 => fixed::types::I32F32::from_bits(lo.to_bits().saturating_sub(1)),
+            _ => fixed::types::I32F32::from_bits(hi.to_bits().saturating_add(1)),
+        };
+        prop_assert_eq!(I16F16::clamp_state(x, lo, hi), x.clamp(lo, hi));
+    }
+}
