@@ -166,7 +166,68 @@ fn bench_slim16(c: &mut Criterion) {
     }
 }
 
+evenkeel::frozen!(FrozenFull: I16F16 = FULL);
+evenkeel::frozen!(FrozenMinimal: I16F16 = MINIMAL);
+/// The 16-bit loops of `bench_slim16`, as constants.
+const SLIM_SCALING: Scaling = Scaling::covering(0.0, 8.0, -800.0, 1200.0);
+evenkeel::frozen!(SlimFrozenFull: Slim16 = FULL.with_scaling(SLIM_SCALING).with_measurement_range(-16.0, 15.99));
+evenkeel::frozen!(SlimFrozenMinimal: Slim16 = MINIMAL.with_scaling(SLIM_SCALING).with_measurement_range(-16.0, 15.99));
+
+/// A step bench over `inputs`, cycling through them.
+fn bench_steps<B: Backend, L: evenkeel::Layout>(
+    c: &mut Criterion,
+    name: &str,
+    config: Config<B, L>,
+    inputs: &[Input<B>],
+) {
+    let mut pi = Controller::new(config);
+    let mut k = 0usize;
+    c.bench_function(name, |b| {
+        b.iter(|| {
+            k = (k + 1) & 255;
+            let input = inputs
+                .get(k)
+                .copied()
+                .unwrap_or(Input::new(B::ZERO, B::ZERO));
+            black_box(pi.step_with(black_box(&input)))
+        })
+    });
+}
+
+/// The whole configuration fixed at compile time (`evenkeel::frozen!`):
+/// the same settings and inputs as `step/fixed/…` and `step/slim16/…`, the
+/// same bits.
+fn bench_frozen(c: &mut Criterion) {
+    let full = inputs::<I16F16>();
+    let minimal: Vec<Input<I16F16>> = full
+        .iter()
+        .map(|i| Input::new(i.setpoint, i.measurement))
+        .collect();
+    bench_steps(c, "step/fixed-frozen/minimal", FrozenMinimal::CONFIG, &minimal);
+    bench_steps(c, "step/fixed-frozen/full", FrozenFull::CONFIG, &full);
+    let m = SLIM_SCALING.measurement;
+    let u = SLIM_SCALING.command;
+    let full: Vec<Input<Slim16>> = inputs::<f64>()
+        .iter()
+        .map(|i| {
+            Input::new(
+                Slim16::from_f64(m.raw(i.setpoint)),
+                Slim16::from_f64(m.raw(i.measurement)),
+            )
+            .with_feed_forward(Slim16::from_f64(u.raw_span(i.feed_forward)))
+            .with_applied(Slim16::ZERO)
+        })
+        .collect();
+    let minimal: Vec<Input<Slim16>> = full
+        .iter()
+        .map(|i| Input::new(i.setpoint, i.measurement))
+        .collect();
+    bench_steps(c, "step/slim16-frozen/minimal", SlimFrozenMinimal::CONFIG, &minimal);
+    bench_steps(c, "step/slim16-frozen/full", SlimFrozenFull::CONFIG, &full);
+}
+
 fn benches(c: &mut Criterion) {
+    bench_frozen(c);
     bench_layout(c);
     bench_slim16(c);
     bench_backend::<I16F16>(c);

@@ -378,6 +378,20 @@ pub trait Backend: Copy + PartialOrd + Debug {
     fn narrow_state(acc: Self::Accum) -> Self {
         Self::narrow(acc)
     }
+    /// The configuration a [`crate::frozen!`] layout `L` fixes for this
+    /// backend, or `None` (every other layout, and the float backends).
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Runtime, Settings, Slim16};
+    /// evenkeel::frozen!(Fan: Slim16 = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0));
+    /// assert_eq!(Slim16::frozen::<Fan>(), Some(Fan::CONFIG));
+    /// assert_eq!(Slim16::frozen::<Runtime>(), None);
+    /// assert_eq!(f32::frozen::<Fan>(), None);
+    /// ```
+    #[inline(always)]
+    fn frozen<L: Layout>() -> Option<Config<Self, L>> {
+        None
+    }
     /// `acc` clamped into `[lo, hi]` (`lo ≤ hi`): the integrator's clamp.
     /// The default compares the accumulators; Q16.16 first compares only
     /// their upper 32 bits, which decides every value whose integer part
@@ -537,6 +551,10 @@ impl Backend for I16F16 {
     #[inline]
     fn narrow(acc: I32F32) -> Self {
         q::accum_to_signal(acc)
+    }
+    #[inline(always)]
+    fn frozen<L: Layout>() -> Option<Config<Self, L>> {
+        L::FROZEN_Q16
     }
     #[inline(always)]
     fn clamp_state(acc: I32F32, lo: I32F32, hi: I32F32) -> I32F32 {

@@ -288,6 +288,10 @@ impl<B: Backend, L: Layout> Config<B, L> {
     /// # Errors
     /// The first gain that is not valid, or [`ConfigError::NoAction`].
     pub fn with_gains(self, kp: B::Coef, ki_ts: B::Coef) -> Result<Self, ConfigError> {
+        // A frozen layout has one configuration, its own.
+        if crate::layout::is_frozen::<L>() {
+            return Err(ConfigError::Layout(Setting::Kp));
+        }
         let shape = L::SHAPE;
         B::check_gain(kp, 0, shape.and_then(|s| s.shift(Slot::Kp)), Setting::Kp)?;
         B::check_gain(
@@ -348,8 +352,22 @@ impl<L: Layout> Config<I16F16, L> {
     /// # Errors
     /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`],
     /// [`ConfigError::TooFine`] and, under a compile-time layout,
-    /// [`ConfigError::Layout`].
+    /// [`ConfigError::Layout`] (also for any layout made by
+    /// [`crate::frozen!`], whose one configuration is its `CONFIG`).
     pub const fn new(settings: &Settings) -> Result<Self, ConfigError> {
+        if crate::layout::is_frozen::<L>() {
+            return Err(ConfigError::Layout(Setting::Features));
+        }
+        Self::freeze(settings)
+    }
+
+    /// [`Config::new`] without the refusal of frozen layouts: what
+    /// [`crate::frozen!`] builds its configuration with. Not for direct use.
+    ///
+    /// # Errors
+    /// As [`Config::new`].
+    #[doc(hidden)]
+    pub const fn freeze(settings: &Settings) -> Result<Self, ConfigError> {
         let p: PerSample = attempt!(settings.per_sample());
         let features = Features::of(&p);
         let shape = L::SHAPE;
@@ -613,6 +631,9 @@ macro_rules! float_config {
             /// layout's.
             pub const fn new(settings: &Settings) -> Result<Self, ConfigError> {
                 const LIMIT: f64 = $limit;
+                if crate::layout::is_frozen::<L>() {
+                    return Err(ConfigError::Layout(Setting::Features));
+                }
                 let p: PerSample = attempt!(settings.per_sample());
                 let features = Features::of(&p);
                 if let Some(s) = L::SHAPE

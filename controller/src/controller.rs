@@ -295,6 +295,12 @@ impl<B: Backend, L: Layout> Controller<B, L> {
     /// # Ok::<(), evenkeel::ConfigError>(())
     /// ```
     pub fn retune(&mut self, config: Config<B, L>) {
+        const {
+            assert!(
+                !layout::is_frozen::<L>(),
+                "a frozen configuration (evenkeel::frozen!) cannot be re-tuned"
+            );
+        }
         if self.state & PRIMED != 0 {
             let old = proportional_part(&self.config, self.last_setpoint, self.last_filtered);
             let new = proportional_part(&config, self.last_setpoint, self.last_filtered);
@@ -339,7 +345,14 @@ impl<B: Backend, L: Layout> Controller<B, L> {
     /// ```
     #[inline]
     pub fn step_with(&mut self, input: &Input<B>) -> Output<B> {
-        let c = &self.config;
+        // A frozen layout's configuration is a constant: every setting the
+        // step reads folds into the code. (`self.config` holds the same
+        // one: it is the only configuration such a layout has.)
+        let frozen = B::frozen::<L>();
+        let c = match &frozen {
+            Some(f) => f,
+            None => &self.config,
+        };
         let on = layout::features::<L>(c.features);
         let state = self.state;
         // Only before the first step (after `new` or `reset`) can the
@@ -403,7 +416,10 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         // and the registers that held them are free for the rest of the
         // step (measured: fewer spills on Armv7-M).
         self.state = PRIMED;
-        self.last_setpoint = r;
+        // Read only by `retune`, which a frozen layout does not have.
+        if frozen.is_none() {
+            self.last_setpoint = r;
+        }
         self.last_filtered = y_f;
 
         let (p, e, in_deadband) = proportional(c, on, r, y_f);

@@ -525,6 +525,20 @@ const fn optional_shift(
 pub trait Layout: Copy + Debug + PartialEq + 'static {
     /// The compile-time shape, or `None` when the configuration decides.
     const SHAPE: Option<Shape>;
+    /// The whole Q16.16 configuration, when a [`crate::frozen!`] layout
+    /// fixes it at compile time; `None` (the default) otherwise. Set it
+    /// only through that macro.
+    const FROZEN_Q16: Option<crate::Config<fixed::types::I16F16, Self>> = None;
+    /// The whole 16-bit configuration, when a [`crate::frozen!`] layout
+    /// fixes it at compile time; `None` (the default) otherwise. Set it
+    /// only through that macro.
+    const FROZEN_SLIM16: Option<crate::Config<crate::Slim16, Self>> = None;
+}
+
+/// Whether `L` fixes the whole configuration ([`crate::frozen!`]).
+#[inline(always)]
+pub(crate) const fn is_frozen<L: Layout>() -> bool {
+    L::FROZEN_Q16.is_some() || L::FROZEN_SLIM16.is_some()
 }
 
 /// Everything decided by the run-time [`Config`](crate::Config): the
@@ -587,6 +601,76 @@ macro_rules! layout {
                 // Evaluated by the compiler only: invalid settings stop the build.
                 Err(error) => panic!("{}", $crate::ConfigError::summary(error)),
             };
+        }
+    };
+}
+
+/// Declare a *frozen* layout: a zero-sized type that fixes the whole
+/// configuration at compile time (features, shifts, gains, limits, ranges
+/// and scaling), for `I16F16` or `Slim16`.
+///
+/// The step then reads every setting as a constant: each gain is a
+/// multiplication by an immediate, each limit a comparison with one, and
+/// no configuration is loaded from memory. The bits are those of the
+/// run-time configuration made from the same settings (checked by
+/// `controller/tests/layout.rs` and on every core by `boards/run`). The
+/// macro also defines `NAME::CONFIG`, the one configuration of this
+/// layout, for [`crate::Controller::new`]; every other way to make one
+/// ([`crate::Config::try_new`], [`crate::Config::from_parts`],
+/// [`crate::Config::with_gains`]) is refused with
+/// [`crate::ConfigError::Layout`], and `retune` and `schedule` do not
+/// compile for it: a frozen controller cannot run with other settings.
+/// Engage, track and reset work as usual. Invalid settings stop the build.
+///
+/// ```
+/// use evenkeel::{Controller, Settings, Slim16};
+/// const PUMP: Settings = Settings::new(0.001, 0.8, 12.0, 0.0, 24.0);
+/// evenkeel::frozen!(pub PumpLoop: Slim16 = PUMP);
+/// let mut pi = Controller::new(PumpLoop::CONFIG);
+/// let mut same = Controller::new(evenkeel::config!(Slim16, PUMP)); // run-time configuration
+/// let out = pi.step(Slim16::from_raw(3), Slim16::from_raw(1));
+/// assert_eq!(out.command, Slim16::from_raw(2)); // P = 0.8 · 2 = 1.6 rounds to 2; I starts at 0
+/// assert_eq!(out, same.step(Slim16::from_raw(3), Slim16::from_raw(1)));
+/// // The only configuration of a frozen layout is its own.
+/// assert!(evenkeel::Config::<Slim16, PumpLoop>::try_new(&PUMP).is_err());
+/// ```
+///
+/// ```compile_fail,E0080
+/// use evenkeel::{Controller, Settings, Slim16};
+/// evenkeel::frozen!(Fan: Slim16 = Settings::new(0.001, 0.8, 12.0, 0.0, 24.0));
+/// let mut pi = Controller::new(Fan::CONFIG);
+/// pi.retune(Fan::CONFIG); // a frozen configuration cannot be re-tuned
+/// ```
+#[macro_export]
+macro_rules! frozen {
+    ($vis:vis $name:ident : I16F16 = $settings:expr) => {
+        $crate::frozen!(@make $vis $name, $crate::fixed::types::I16F16, FROZEN_Q16, $settings);
+    };
+    ($vis:vis $name:ident : Slim16 = $settings:expr) => {
+        $crate::frozen!(@make $vis $name, $crate::Slim16, FROZEN_SLIM16, $settings);
+    };
+    (@make $vis:vis $name:ident, $backend:ty, $slot:ident, $settings:expr) => {
+        /// A frozen controller layout: the whole configuration fixed at
+        /// compile time (see `evenkeel::frozen!`).
+        #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+        $vis struct $name;
+        impl $name {
+            /// The one configuration of this layout.
+            $vis const CONFIG: $crate::Config<$backend, $name> =
+                match $crate::Config::<$backend, $name>::freeze(&$settings) {
+                    Ok(config) => config,
+                    // Evaluated by the compiler only: invalid settings stop the build.
+                    Err(error) => panic!("{}", error.summary()),
+                };
+        }
+        impl $crate::Layout for $name {
+            const SHAPE: ::core::option::Option<$crate::Shape> = match $crate::Shape::of(&$settings) {
+                Ok(shape) => ::core::option::Option::Some(shape),
+                // Evaluated by the compiler only: invalid settings stop the build.
+                Err(error) => panic!("{}", $crate::ConfigError::summary(error)),
+            };
+            const $slot: ::core::option::Option<$crate::Config<$backend, $name>> =
+                ::core::option::Option::Some($name::CONFIG);
         }
     };
 }

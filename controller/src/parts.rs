@@ -314,6 +314,10 @@ impl<L: Layout> Config<I16F16, L> {
     /// [`ConfigError::TrackingRatioOutOfRange`], and under a compile-time
     /// layout [`ConfigError::Layout`] for other features or shifts.
     pub fn from_parts(parts: &ConfigParts) -> Result<Self, ConfigError> {
+        // A frozen layout has one configuration, its own.
+        if crate::layout::is_frozen::<L>() {
+            return Err(ConfigError::Layout(Setting::Features));
+        }
         let c = check::<L>(parts, &FIXED)?;
         let mut coefs = [FixedCoef::ZERO; 5];
         for ((slot, &(mantissa, shift)), which) in coefs.iter_mut().zip(&c.coefs).zip(COEF_SETTINGS)
@@ -382,6 +386,10 @@ impl<L: Layout> Config<Slim16, L> {
     /// As [`Config::<I16F16>::from_parts`](Config::from_parts), with the
     /// 16-bit format's ranges.
     pub fn from_parts(parts: &ConfigParts) -> Result<Self, ConfigError> {
+        // A frozen layout has one configuration, its own.
+        if crate::layout::is_frozen::<L>() {
+            return Err(ConfigError::Layout(Setting::Features));
+        }
         let c = check::<L>(parts, &SLIM)?;
         let mut coefs = [SlimCoef::ZERO; 5];
         for ((slot, &(mantissa, shift)), which) in coefs.iter_mut().zip(&c.coefs).zip(COEF_SETTINGS)

@@ -577,6 +577,12 @@ impl<B: Backend, L: Layout> Controller<B, L> {
     /// # Ok::<(), Box<dyn std::error::Error>>(())
     /// ```
     pub fn schedule<const N: usize>(&mut self, table: &Schedule<B, N, L>, at: B) {
+        const {
+            assert!(
+                !crate::layout::is_frozen::<L>(),
+                "a frozen configuration (evenkeel::frozen!) cannot be scheduled"
+            );
+        }
         if !at.is_finite() {
             return;
         }

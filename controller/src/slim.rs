@@ -537,6 +537,10 @@ impl Backend for Slim16 {
     /// (< 8.06e8 state LSB) and the filter state within the signal range
     /// (< 2²⁸), see `SlimCoef::integrate`.
     #[inline(always)]
+    fn frozen<L: Layout>() -> Option<Config<Self, L>> {
+        L::FROZEN_SLIM16
+    }
+    #[inline(always)]
     fn narrow_state(acc: i32) -> Self {
         Self(saturate_i16(round_half_added(acc, SLIM_STATE_FRAC_BITS)))
     }
@@ -583,8 +587,23 @@ impl<L: Layout> Config<Slim16, L> {
     ///
     /// # Errors
     /// As [`Settings::per_sample`], plus [`ConfigError::OutOfFormat`],
-    /// [`ConfigError::TooFine`] and [`ConfigError::Layout`].
+    /// [`ConfigError::TooFine`] and [`ConfigError::Layout`] (also for any
+    /// layout made by [`crate::frozen!`], whose one configuration is its
+    /// `CONFIG`).
     pub const fn new(settings: &Settings) -> Result<Self, ConfigError> {
+        if crate::layout::is_frozen::<L>() {
+            return Err(ConfigError::Layout(Setting::Features));
+        }
+        Self::freeze(settings)
+    }
+
+    /// [`Config::new`] without the refusal of frozen layouts: what
+    /// [`crate::frozen!`] builds its configuration with. Not for direct use.
+    ///
+    /// # Errors
+    /// As [`Config::new`].
+    #[doc(hidden)]
+    pub const fn freeze(settings: &Settings) -> Result<Self, ConfigError> {
         let p = attempt!(settings.per_sample());
         let features = crate::layout::Features::of(&p);
         let shape = L::SHAPE;

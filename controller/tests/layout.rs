@@ -179,3 +179,126 @@ fn configurations_outside_the_layout_are_refused() {
     });
     assert!(Config::<I16F16, Roomy>::try_new(&strong).is_ok());
 }
+
+// Frozen configurations (`evenkeel::frozen!`): the same settings as the
+// run-time configuration, every setting a constant in the step.
+evenkeel::frozen!(FrozenFull: I16F16 = FULL);
+evenkeel::frozen!(FrozenMinimal: I16F16 = MINIMAL);
+const SLIM_FULL: Settings = FULL
+    .with_measurement_range(-60.0, 60.0)
+    .with_scaling(evenkeel::Scaling::covering(-60.0, 60.0, -10.0, 10.0));
+const SLIM_MINIMAL: Settings = MINIMAL
+    .with_measurement_range(-60.0, 60.0)
+    .with_scaling(evenkeel::Scaling::covering(-60.0, 60.0, -10.0, 10.0));
+evenkeel::frozen!(SlimFrozenFull: Slim16 = SLIM_FULL);
+evenkeel::frozen!(SlimFrozenMinimal: Slim16 = SLIM_MINIMAL);
+use evenkeel::Slim16;
+
+/// Drive a run-time and a frozen controller with the same events (no
+/// re-tune: a frozen configuration has none) and compare every output and
+/// the integrator.
+fn frozen_same_bits<B: evenkeel::Backend, F: Layout>(
+    run_time: Config<B>,
+    frozen: Config<B, F>,
+    events: &[Event],
+    q: impl Fn(f64) -> B,
+) -> Result<(), TestCaseError> {
+    let mut a = Controller::new(run_time);
+    let mut b = Controller::new(frozen);
+    for (k, event) in events.iter().enumerate() {
+        let (x, y) = match *event {
+            Event::Step { r, y, ff, applied } => {
+                let mut input = Input::new(q(r), q(y)).with_feed_forward(q(ff));
+                if let Some(v) = applied {
+                    input = input.with_applied(q(v));
+                }
+                (a.step_with(&input), b.step_with(&input))
+            }
+            Event::Engage(v) => {
+                a.engage(q(v));
+                b.engage(q(v));
+                continue;
+            }
+            Event::Track { r, y, a: v } => {
+                let input = Input::new(q(r), q(y));
+                (a.track(&input, q(v)), b.track(&input, q(v)))
+            }
+            Event::Reset => {
+                a.reset();
+                b.reset();
+                continue;
+            }
+            Event::Retune(_) => continue,
+        };
+        prop_assert_eq!(x, y, "event {}: {:?}", k, event);
+        prop_assert_eq!(a.integral(), b.integral());
+        prop_assert_eq!(a.last_command(), b.last_command());
+    }
+    Ok(())
+}
+
+/// A raw 16-bit input from an event's value: `16·v`, saturated (any raw
+/// value is a valid input).
+fn slim(v: f64) -> Slim16 {
+    Slim16::from_raw((v * 16.0).clamp(-32_768.0, 32_767.0) as i16)
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 300, ..ProptestConfig::default() })]
+
+    #[test]
+    fn frozen_full_gives_the_run_time_bits(e in events(true)) {
+        frozen_same_bits(Config::<I16F16>::try_new(&FULL).expect("valid"), FrozenFull::CONFIG, &e, I16F16::saturating_from_num)?;
+        frozen_same_bits(Config::<Slim16>::try_new(&SLIM_FULL).expect("valid"), SlimFrozenFull::CONFIG, &e, slim)?;
+    }
+
+    #[test]
+    fn frozen_minimal_gives_the_run_time_bits(e in events(false)) {
+        frozen_same_bits(Config::<I16F16>::try_new(&MINIMAL).expect("valid"), FrozenMinimal::CONFIG, &e, I16F16::saturating_from_num)?;
+        frozen_same_bits(Config::<Slim16>::try_new(&SLIM_MINIMAL).expect("valid"), SlimFrozenMinimal::CONFIG, &e, slim)?;
+    }
+}
+
+/// A frozen layout has one configuration: every other way to make one is
+/// refused, so a frozen controller never runs with settings it does not
+/// hold as constants.
+#[test]
+fn a_frozen_layout_has_no_other_configuration() {
+    use evenkeel::{Backend, ConfigError, Setting};
+    assert_eq!(
+        Config::<I16F16, FrozenMinimal>::try_new(&MINIMAL),
+        Err(ConfigError::Layout(Setting::Features))
+    );
+    assert_eq!(
+        Config::<Slim16, SlimFrozenMinimal>::try_new(&SLIM_MINIMAL),
+        Err(ConfigError::Layout(Setting::Features))
+    );
+    let parts = FrozenFull::CONFIG.to_parts();
+    assert_eq!(
+        Config::<I16F16, FrozenFull>::from_parts(&parts),
+        Err(ConfigError::Layout(Setting::Features))
+    );
+    let parts = SlimFrozenFull::CONFIG.to_parts();
+    assert_eq!(
+        Config::<Slim16, SlimFrozenFull>::from_parts(&parts),
+        Err(ConfigError::Layout(Setting::Features))
+    );
+    let c = FrozenMinimal::CONFIG;
+    assert_eq!(
+        c.with_gains(c.kp(), c.ki_ts()),
+        Err(ConfigError::Layout(Setting::Kp))
+    );
+    // The frozen one is the run-time one, field for field.
+    assert_eq!(
+        FrozenFull::CONFIG.to_parts(),
+        Config::<I16F16>::try_new(&FULL).expect("valid").to_parts()
+    );
+    assert_eq!(
+        SlimFrozenFull::CONFIG.to_parts(),
+        Config::<Slim16>::try_new(&SLIM_FULL)
+            .expect("valid")
+            .to_parts()
+    );
+    assert_eq!(I16F16::frozen::<FrozenFull>(), Some(FrozenFull::CONFIG));
+    assert_eq!(I16F16::frozen::<Full>(), None);
+}

@@ -167,6 +167,39 @@ pub fn run(board: &Board) -> ! {
         passed &= check.mismatches == 0 && check.steps == cost::STEPS;
     }
 
+    // The frozen configurations (`evenkeel::frozen!`) must give the bits of
+    // the same settings under a compile-time layout on every step of each
+    // workload before they are timed.
+    let frozen = [
+        (
+            "fixed minimal",
+            cost::check_frozen_minimal(cost::FIXED_MINIMAL_LAYOUT, cost::FrozenMinimal::CONFIG),
+        ),
+        (
+            "fixed full",
+            cost::check_frozen_full(cost::FIXED_FULL_LAYOUT, cost::FrozenFull::CONFIG),
+        ),
+        (
+            "slim16 minimal",
+            cost::check_frozen_minimal(cost::SLIM_MINIMAL_LAYOUT, cost::SlimFrozenMinimal::CONFIG),
+        ),
+        (
+            "slim16 full",
+            cost::check_frozen_full(cost::SLIM_FULL_LAYOUT, cost::SlimFrozenFull::CONFIG),
+        ),
+    ];
+    for (what, check) in frozen {
+        let _ = writeln!(
+            console,
+            "frozen {what} check: {} steps, {} mismatches",
+            check.steps, check.mismatches
+        );
+        if let Some(k) = check.first {
+            let _ = writeln!(console, "  MISMATCH frozen {what}: first at step {k}");
+        }
+        passed &= check.mismatches == 0 && check.steps == cost::STEPS;
+    }
+
     let timing = cortex_m::Peripherals::take().map(|p| SysTickClock::start(p.SYST));
     if let Some(mut clock) = timing {
         let full = cost::full(cost::FIXED_FULL, &mut clock, board.rate);
@@ -185,6 +218,14 @@ pub fn run(board: &Board) -> ! {
         print_cost(&mut console, "slim16-layout full", full);
         let minimal = cost::minimal(cost::SLIM_MINIMAL_LAYOUT, &mut clock, board.rate);
         print_cost(&mut console, "slim16-layout minimal", minimal);
+        let full = cost::full(cost::FrozenFull::CONFIG, &mut clock, board.rate);
+        print_cost(&mut console, "fixed-frozen full", full);
+        let minimal = cost::minimal(cost::FrozenMinimal::CONFIG, &mut clock, board.rate);
+        print_cost(&mut console, "fixed-frozen minimal", minimal);
+        let full = cost::full(cost::SlimFrozenFull::CONFIG, &mut clock, board.rate);
+        print_cost(&mut console, "slim16-frozen full", full);
+        let minimal = cost::minimal(cost::SlimFrozenMinimal::CONFIG, &mut clock, board.rate);
+        print_cost(&mut console, "slim16-frozen minimal", minimal);
         let full = cost::full_floor(&mut clock, board.rate);
         print_cost(&mut console, "slim16-floor full", full);
         let minimal = cost::minimal_floor(&mut clock, board.rate);

@@ -327,6 +327,84 @@ pub fn check_full_floor() -> FloorCheck {
     check
 }
 
+/// A frozen configuration compared with the same settings under a
+/// compile-time layout, over one workload.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct FrozenCheck {
+    /// Steps compared.
+    pub steps: u32,
+    /// Steps whose command or status differ.
+    pub mismatches: u32,
+    /// The first differing step.
+    pub first: Option<u32>,
+}
+
+impl FrozenCheck {
+    fn compare<B: Backend>(&mut self, k: u32, a: evenkeel::Output<B>, b: evenkeel::Output<B>) {
+        self.steps = self.steps.saturating_add(1);
+        if a.command != b.command || a.status != b.status {
+            self.mismatches = self.mismatches.saturating_add(1);
+            self.first = self.first.or(Some(k));
+        }
+    }
+}
+
+/// Run the `minimal` workload through `layout` and `frozen` side by side
+/// (the loop driven by the layout's command, the arguments opaque so the
+/// optimiser cannot specialise on them) and compare every step.
+#[must_use]
+pub fn check_frozen_minimal<B: Workload, L: Layout, F: Layout>(
+    layout: Config<B, L>,
+    frozen: Config<B, F>,
+) -> FrozenCheck {
+    let mut check = FrozenCheck {
+        steps: 0,
+        mismatches: 0,
+        first: None,
+    };
+    let (mut a, mut b) = (probe::new(layout), probe::new(frozen));
+    let mut y = B::ZERO;
+    for k in 0..STEPS {
+        let r = setpoint::<B>(k);
+        let out = probe::step(&mut a, black_box(r), black_box(y));
+        let other = probe::step(&mut b, black_box(r), black_box(y));
+        check.compare(k, out, other);
+        y = y.add(out.command.sub(y).scale(B::EIGHTH));
+    }
+    check
+}
+
+/// [`check_frozen_minimal`] for the `full` workload.
+#[must_use]
+pub fn check_frozen_full<B: Workload, L: Layout, F: Layout>(
+    layout: Config<B, L>,
+    frozen: Config<B, F>,
+) -> FrozenCheck {
+    let mut check = FrozenCheck {
+        steps: 0,
+        mismatches: 0,
+        first: None,
+    };
+    let (mut a, mut b) = (probe::new(layout), probe::new(frozen));
+    let mut y = B::ZERO;
+    let mut applied = B::ZERO;
+    for k in 0..STEPS {
+        let input = Input::new(setpoint::<B>(k), y)
+            .with_feed_forward(B::int(1))
+            .with_applied(applied);
+        let out = probe::step_with(&mut a, black_box(&input));
+        let other = probe::step_with(&mut b, black_box(&input));
+        check.compare(k, out, other);
+        applied = if out.command > B::int(8) {
+            B::int(8)
+        } else {
+            out.command
+        };
+        y = y.add(applied.sub(y).scale(B::EIGHTH));
+    }
+    check
+}
+
 /// Time [`floor::minimal_step`] on the `minimal` workload, as
 /// [`minimal`] times the library.
 pub fn minimal_floor(clock: &mut impl Clock, rate: Rate) -> Cost {
@@ -392,6 +470,14 @@ pub const SLIM_FULL_LAYOUT: Config<Slim16, SlimFullLayout> =
 /// The 16-bit `minimal` workload under its compile-time layout.
 pub const SLIM_MINIMAL_LAYOUT: Config<Slim16, SlimMinimalLayout> =
     evenkeel::config!(Slim16, SlimMinimalLayout, SLIM_MINIMAL);
+// The four workloads with the whole configuration fixed at compile time
+// (`evenkeel::frozen!`): same settings, same bits (checked on every step
+// by `check_frozen_*`), every setting a constant in the step.
+evenkeel::frozen!(pub FrozenFull: I16F16 = FULL);
+evenkeel::frozen!(pub FrozenMinimal: I16F16 = MINIMAL);
+evenkeel::frozen!(pub SlimFrozenFull: Slim16 = SLIM_FULL);
+evenkeel::frozen!(pub SlimFrozenMinimal: Slim16 = SLIM_MINIMAL);
+
 /// `f32` configurations of the two workloads.
 #[cfg(feature = "f32")]
 pub const F32_FULL: Config<f32> = evenkeel::config!(f32, FULL);
