@@ -420,7 +420,11 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         if frozen.is_none() {
             self.last_setpoint = r;
         }
-        self.last_filtered = y_f;
+        // Read by the filter and by `retune`: a frozen layout without
+        // filter needs neither.
+        if frozen.is_none() || on.contains(Features::FILTER) {
+            self.last_filtered = y_f;
+        }
 
         let (p, e, in_deadband) = proportional(c, on, r, y_f);
         status.set_if(in_deadband, Status::DEADBAND);
