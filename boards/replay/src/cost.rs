@@ -189,6 +189,32 @@ fn setpoint<B: Workload>(k: u32) -> B {
     }
 }
 
+/// The `minimal` workload's loop: the setpoint profile and a plant
+/// `y += (u − y)/8`. `step(k, r, y)` runs step `k` and returns its command.
+fn drive_minimal<B: Workload>(mut step: impl FnMut(u32, B, B) -> B) {
+    let mut y = B::ZERO;
+    for k in 0..STEPS {
+        let u = step(k, setpoint::<B>(k), y);
+        y = y.add(u.sub(y).scale(B::EIGHTH));
+    }
+}
+
+/// The `full` workload's loop: the setpoint profile, feed-forward 1, and
+/// a downstream limit at 8 that the controller hears about next step.
+/// `step(k, input)` runs step `k` and returns its command.
+fn drive_full<B: Workload>(mut step: impl FnMut(u32, &Input<B>) -> B) {
+    let mut y = B::ZERO;
+    let mut applied = B::ZERO;
+    for k in 0..STEPS {
+        let input = Input::new(setpoint::<B>(k), y)
+            .with_feed_forward(B::int(1))
+            .with_applied(applied);
+        let u = step(k, &input);
+        applied = if u > B::int(8) { B::int(8) } else { u };
+        y = y.add(applied.sub(y).scale(B::EIGHTH));
+    }
+}
+
 /// Time the `full` workload with configuration `config` (built from
 /// [`FULL`]).
 pub fn full<B: Workload, L: Layout>(
@@ -198,24 +224,13 @@ pub fn full<B: Workload, L: Layout>(
 ) -> Cost {
     let mut timer = Timer::new(clock, rate);
     let mut pi = probe::new(config);
-    let mut y = B::ZERO;
-    let mut applied = B::ZERO;
-    for k in 0..STEPS {
-        let input = Input::new(setpoint::<B>(k), y)
-            .with_feed_forward(B::int(1))
-            .with_applied(applied);
-        let out = timer.time(|| probe::step_with(&mut pi, &input));
+    drive_full(|_, input: &Input<B>| {
+        let out = timer.time(|| probe::step_with(&mut pi, input));
         // The status is part of the result: keep the optimiser from
         // dropping its computation from the probe (outside the timing).
-        core::hint::black_box(out.status);
-        // A downstream limit at 8 that the controller hears about next step.
-        applied = if out.command > B::int(8) {
-            B::int(8)
-        } else {
-            out.command
-        };
-        y = y.add(applied.sub(y).scale(B::EIGHTH));
-    }
+        black_box(out.status);
+        out.command
+    });
     timer.cost
 }
 
@@ -228,13 +243,11 @@ pub fn minimal<B: Workload, L: Layout>(
 ) -> Cost {
     let mut timer = Timer::new(clock, rate);
     let mut pi = probe::new(config);
-    let mut y = B::ZERO;
-    for k in 0..STEPS {
-        let r = setpoint::<B>(k);
+    drive_minimal(|_, r: B, y: B| {
         let out = timer.time(|| probe::step(&mut pi, r, y));
-        core::hint::black_box(out.status);
-        y = y.add(out.command.sub(y).scale(B::EIGHTH));
-    }
+        black_box(out.status);
+        out.command
+    });
     timer.cost
 }
 
@@ -282,16 +295,14 @@ pub fn check_minimal_floor() -> FloorCheck {
     let mut check = FloorCheck::new();
     let mut pi = probe::new(SLIM_MINIMAL_LAYOUT);
     let mut hand = floor::Minimal::new();
-    let mut y = Slim16::ZERO;
-    for k in 0..STEPS {
-        let r = setpoint::<Slim16>(k);
+    drive_minimal(|k, r: Slim16, y: Slim16| {
         let out = probe::step(&mut pi, black_box(r), black_box(y));
         // Opaque arguments here (untimed): otherwise the optimiser may
         // specialise the step on the few values the workloads pass.
         let got = floor::minimal_step(&mut hand, black_box(r.raw()), black_box(y.raw()));
         check.compare(k, out, got);
-        y = y.add(out.command.sub(y).scale(Slim16::EIGHTH));
-    }
+        out.command
+    });
     check
 }
 
@@ -302,28 +313,18 @@ pub fn check_full_floor() -> FloorCheck {
     let mut check = FloorCheck::new();
     let mut pi = probe::new(SLIM_FULL_LAYOUT);
     let mut hand = floor::Full::new();
-    let mut y = Slim16::ZERO;
-    let mut applied = Slim16::ZERO;
-    let ff = Slim16::int(1);
-    for k in 0..STEPS {
-        let r = setpoint::<Slim16>(k);
-        let input = Input::new(r, y).with_feed_forward(ff).with_applied(applied);
-        let out = probe::step_with(&mut pi, &input);
+    drive_full(|k, input: &Input<Slim16>| {
+        let out = probe::step_with(&mut pi, input);
         let got = floor::full_step(
             &mut hand,
-            black_box(r.raw()),
-            black_box(y.raw()),
-            black_box(ff.raw()),
-            black_box(applied.raw()),
+            black_box(input.setpoint.raw()),
+            black_box(input.measurement.raw()),
+            black_box(input.feed_forward.raw()),
+            black_box(input.applied.unwrap_or(Slim16::ZERO).raw()),
         );
         check.compare(k, out, got);
-        applied = if out.command > Slim16::int(8) {
-            Slim16::int(8)
-        } else {
-            out.command
-        };
-        y = y.add(applied.sub(y).scale(Slim16::EIGHTH));
-    }
+        out.command
+    });
     check
 }
 
@@ -340,6 +341,14 @@ pub struct FrozenCheck {
 }
 
 impl FrozenCheck {
+    fn new() -> Self {
+        Self {
+            steps: 0,
+            mismatches: 0,
+            first: None,
+        }
+    }
+
     fn compare<B: Backend>(&mut self, k: u32, a: evenkeel::Output<B>, b: evenkeel::Output<B>) {
         self.steps = self.steps.saturating_add(1);
         if a.command != b.command || a.status != b.status {
@@ -357,20 +366,14 @@ pub fn check_frozen_minimal<B: Workload, L: Layout, F: Layout>(
     layout: Config<B, L>,
     frozen: Config<B, F>,
 ) -> FrozenCheck {
-    let mut check = FrozenCheck {
-        steps: 0,
-        mismatches: 0,
-        first: None,
-    };
+    let mut check = FrozenCheck::new();
     let (mut a, mut b) = (probe::new(layout), probe::new(frozen));
-    let mut y = B::ZERO;
-    for k in 0..STEPS {
-        let r = setpoint::<B>(k);
+    drive_minimal(|k, r: B, y: B| {
         let out = probe::step(&mut a, black_box(r), black_box(y));
         let other = probe::step(&mut b, black_box(r), black_box(y));
         check.compare(k, out, other);
-        y = y.add(out.command.sub(y).scale(B::EIGHTH));
-    }
+        out.command
+    });
     check
 }
 
@@ -380,28 +383,14 @@ pub fn check_frozen_full<B: Workload, L: Layout, F: Layout>(
     layout: Config<B, L>,
     frozen: Config<B, F>,
 ) -> FrozenCheck {
-    let mut check = FrozenCheck {
-        steps: 0,
-        mismatches: 0,
-        first: None,
-    };
+    let mut check = FrozenCheck::new();
     let (mut a, mut b) = (probe::new(layout), probe::new(frozen));
-    let mut y = B::ZERO;
-    let mut applied = B::ZERO;
-    for k in 0..STEPS {
-        let input = Input::new(setpoint::<B>(k), y)
-            .with_feed_forward(B::int(1))
-            .with_applied(applied);
-        let out = probe::step_with(&mut a, black_box(&input));
-        let other = probe::step_with(&mut b, black_box(&input));
+    drive_full(|k, input: &Input<B>| {
+        let out = probe::step_with(&mut a, black_box(input));
+        let other = probe::step_with(&mut b, black_box(input));
         check.compare(k, out, other);
-        applied = if out.command > B::int(8) {
-            B::int(8)
-        } else {
-            out.command
-        };
-        y = y.add(applied.sub(y).scale(B::EIGHTH));
-    }
+        out.command
+    });
     check
 }
 
@@ -410,13 +399,11 @@ pub fn check_frozen_full<B: Workload, L: Layout, F: Layout>(
 pub fn minimal_floor(clock: &mut impl Clock, rate: Rate) -> Cost {
     let mut timer = Timer::new(clock, rate);
     let mut hand = floor::Minimal::new();
-    let mut y = Slim16::ZERO;
-    for k in 0..STEPS {
-        let r = setpoint::<Slim16>(k);
+    drive_minimal(|_, r: Slim16, y: Slim16| {
         let out = timer.time(|| floor::minimal_step(&mut hand, r.raw(), y.raw()));
-        core::hint::black_box(out.status);
-        y = y.add(Slim16::from_raw(out.command).sub(y).scale(Slim16::EIGHTH));
-    }
+        black_box(out.status);
+        Slim16::from_raw(out.command)
+    });
     timer.cost
 }
 
@@ -425,22 +412,14 @@ pub fn minimal_floor(clock: &mut impl Clock, rate: Rate) -> Cost {
 pub fn full_floor(clock: &mut impl Clock, rate: Rate) -> Cost {
     let mut timer = Timer::new(clock, rate);
     let mut hand = floor::Full::new();
-    let mut y = Slim16::ZERO;
-    let mut applied = Slim16::ZERO;
-    let ff = Slim16::int(1);
-    for k in 0..STEPS {
-        let r = setpoint::<Slim16>(k);
+    drive_full(|_, input: &Input<Slim16>| {
+        let (r, y, ff) = (input.setpoint, input.measurement, input.feed_forward);
+        let applied = input.applied.unwrap_or(Slim16::ZERO);
         let out =
             timer.time(|| floor::full_step(&mut hand, r.raw(), y.raw(), ff.raw(), applied.raw()));
-        core::hint::black_box(out.status);
-        let command = Slim16::from_raw(out.command);
-        applied = if command > Slim16::int(8) {
-            Slim16::int(8)
-        } else {
-            command
-        };
-        y = y.add(applied.sub(y).scale(Slim16::EIGHTH));
-    }
+        black_box(out.status);
+        Slim16::from_raw(out.command)
+    });
     timer.cost
 }
 
