@@ -88,47 +88,31 @@ fn bench_backend<B: Backend>(c: &mut Criterion) {
 evenkeel::layout!(FullLayout = FULL);
 evenkeel::layout!(MinimalLayout = MINIMAL);
 
-/// The fixed-point step with its structure fixed at compile time (the same
-/// settings and inputs as `step/fixed/…`, the same bits).
-fn bench_layout(c: &mut Criterion) {
-    let full_inputs = inputs::<I16F16>();
-    let minimal_inputs: Vec<Input<I16F16>> = full_inputs
-        .iter()
+/// The inputs of `full` without feed-forward and applied value (what the
+/// minimal loops take).
+fn plain<B: Backend>(full: &[Input<B>]) -> Vec<Input<B>> {
+    full.iter()
         .map(|i| Input::new(i.setpoint, i.measurement))
-        .collect();
-    let mut full = Controller::new(evenkeel::config!(I16F16, FullLayout, FULL));
-    let mut minimal = Controller::new(evenkeel::config!(I16F16, MinimalLayout, MINIMAL));
-    let mut k = 0usize;
-    c.bench_function("step/fixed-layout/minimal", |b| {
-        b.iter(|| {
-            k = (k + 1) & 255;
-            let input = minimal_inputs
-                .get(k)
-                .copied()
-                .unwrap_or(Input::new(I16F16::ZERO, I16F16::ZERO));
-            black_box(minimal.step_with(black_box(&input)))
-        })
-    });
-    c.bench_function("step/fixed-layout/full", |b| {
-        b.iter(|| {
-            k = (k + 1) & 255;
-            let input = full_inputs
-                .get(k)
-                .copied()
-                .unwrap_or(Input::new(I16F16::ZERO, I16F16::ZERO));
-            black_box(full.step_with(black_box(&input)))
-        })
-    });
+        .collect()
 }
 
-/// The 16-bit backend on the same loops, on power-of-two scales that
-/// cover them (`Scaling::covering`: 2048 raw per measurement unit, 8 per
-/// command unit), inputs converted to raw units as a firmware's would be.
-fn bench_slim16(c: &mut Criterion) {
-    let scaling = Scaling::covering(0.0, 8.0, -800.0, 1200.0);
-    let m = scaling.measurement;
-    let u = scaling.command;
-    let full_inputs: Vec<Input<Slim16>> = inputs::<f64>()
+/// The 16-bit loops: the same loops on power-of-two scales that cover them
+/// (`Scaling::covering`: 2048 raw per measurement unit, 8 per command
+/// unit).
+const SLIM_SCALING: Scaling = Scaling::covering(0.0, 8.0, -800.0, 1200.0);
+const SLIM_FULL: Settings = FULL
+    .with_scaling(SLIM_SCALING)
+    .with_measurement_range(-16.0, 15.99);
+const SLIM_MINIMAL: Settings = MINIMAL
+    .with_scaling(SLIM_SCALING)
+    .with_measurement_range(-16.0, 15.99);
+
+/// The bench inputs converted to the 16-bit loops' raw units, as a
+/// firmware's would be.
+fn slim_inputs() -> Vec<Input<Slim16>> {
+    let m = SLIM_SCALING.measurement;
+    let u = SLIM_SCALING.command;
+    inputs::<f64>()
         .iter()
         .map(|i| {
             Input::new(
@@ -138,40 +122,8 @@ fn bench_slim16(c: &mut Criterion) {
             .with_feed_forward(Slim16::from_f64(u.raw_span(i.feed_forward)))
             .with_applied(Slim16::ZERO)
         })
-        .collect();
-    let minimal_inputs: Vec<Input<Slim16>> = full_inputs
-        .iter()
-        .map(|i| Input::new(i.setpoint, i.measurement))
-        .collect();
-    for (label, settings, inputs) in [
-        ("minimal", MINIMAL, &minimal_inputs),
-        ("full", FULL, &full_inputs),
-    ] {
-        let settings = settings
-            .with_scaling(scaling)
-            .with_measurement_range(-16.0, 15.99);
-        let config = Config::<Slim16>::try_new(&settings).expect("valid bench settings");
-        let mut pi = Controller::new(config);
-        let mut k = 0usize;
-        c.bench_function(&format!("step/slim16/{label}"), |b| {
-            b.iter(|| {
-                k = (k + 1) & 255;
-                let input = inputs
-                    .get(k)
-                    .copied()
-                    .unwrap_or(Input::new(Slim16::ZERO, Slim16::ZERO));
-                black_box(pi.step_with(black_box(&input)))
-            })
-        });
-    }
+        .collect()
 }
-
-evenkeel::frozen!(FrozenFull: I16F16 = FULL);
-evenkeel::frozen!(FrozenMinimal: I16F16 = MINIMAL);
-/// The 16-bit loops of `bench_slim16`, as constants.
-const SLIM_SCALING: Scaling = Scaling::covering(0.0, 8.0, -800.0, 1200.0);
-evenkeel::frozen!(SlimFrozenFull: Slim16 = FULL.with_scaling(SLIM_SCALING).with_measurement_range(-16.0, 15.99));
-evenkeel::frozen!(SlimFrozenMinimal: Slim16 = MINIMAL.with_scaling(SLIM_SCALING).with_measurement_range(-16.0, 15.99));
 
 /// A step bench over `inputs`, cycling through them.
 fn bench_steps<B: Backend, L: evenkeel::Layout>(
@@ -194,35 +146,41 @@ fn bench_steps<B: Backend, L: evenkeel::Layout>(
     });
 }
 
+/// The fixed-point step with its structure fixed at compile time (the same
+/// settings and inputs as `step/fixed/…`, the same bits).
+fn bench_layout(c: &mut Criterion) {
+    let full = inputs::<I16F16>();
+    let minimal = plain(&full);
+    let config = evenkeel::config!(I16F16, MinimalLayout, MINIMAL);
+    bench_steps(c, "step/fixed-layout/minimal", config, &minimal);
+    let config = evenkeel::config!(I16F16, FullLayout, FULL);
+    bench_steps(c, "step/fixed-layout/full", config, &full);
+}
+
+/// The 16-bit backend on the same loops, run-time configuration.
+fn bench_slim16(c: &mut Criterion) {
+    let full = slim_inputs();
+    let minimal = plain(&full);
+    let config = Config::<Slim16>::try_new(&SLIM_MINIMAL).expect("valid bench settings");
+    bench_steps(c, "step/slim16/minimal", config, &minimal);
+    let config = Config::<Slim16>::try_new(&SLIM_FULL).expect("valid bench settings");
+    bench_steps(c, "step/slim16/full", config, &full);
+}
+
+evenkeel::frozen!(FrozenFull: I16F16 = FULL);
+evenkeel::frozen!(FrozenMinimal: I16F16 = MINIMAL);
+evenkeel::frozen!(SlimFrozenFull: Slim16 = SLIM_FULL);
+evenkeel::frozen!(SlimFrozenMinimal: Slim16 = SLIM_MINIMAL);
+
 /// The whole configuration fixed at compile time (`evenkeel::frozen!`):
 /// the same settings and inputs as `step/fixed/…` and `step/slim16/…`, the
 /// same bits.
 fn bench_frozen(c: &mut Criterion) {
     let full = inputs::<I16F16>();
-    let minimal: Vec<Input<I16F16>> = full
-        .iter()
-        .map(|i| Input::new(i.setpoint, i.measurement))
-        .collect();
-    bench_steps(c, "step/fixed-frozen/minimal", FrozenMinimal::CONFIG, &minimal);
+    bench_steps(c, "step/fixed-frozen/minimal", FrozenMinimal::CONFIG, &plain(&full));
     bench_steps(c, "step/fixed-frozen/full", FrozenFull::CONFIG, &full);
-    let m = SLIM_SCALING.measurement;
-    let u = SLIM_SCALING.command;
-    let full: Vec<Input<Slim16>> = inputs::<f64>()
-        .iter()
-        .map(|i| {
-            Input::new(
-                Slim16::from_f64(m.raw(i.setpoint)),
-                Slim16::from_f64(m.raw(i.measurement)),
-            )
-            .with_feed_forward(Slim16::from_f64(u.raw_span(i.feed_forward)))
-            .with_applied(Slim16::ZERO)
-        })
-        .collect();
-    let minimal: Vec<Input<Slim16>> = full
-        .iter()
-        .map(|i| Input::new(i.setpoint, i.measurement))
-        .collect();
-    bench_steps(c, "step/slim16-frozen/minimal", SlimFrozenMinimal::CONFIG, &minimal);
+    let full = slim_inputs();
+    bench_steps(c, "step/slim16-frozen/minimal", SlimFrozenMinimal::CONFIG, &plain(&full));
     bench_steps(c, "step/slim16-frozen/full", SlimFrozenFull::CONFIG, &full);
 }
 
