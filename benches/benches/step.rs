@@ -40,27 +40,13 @@ fn inputs<B: Backend>() -> Vec<Input<B>> {
 fn bench_backend<B: Backend>(c: &mut Criterion) {
     let full_inputs = inputs::<B>();
     // The minimal set also drops feed-forward and the applied value.
-    let minimal_inputs: Vec<Input<B>> = full_inputs
-        .iter()
-        .map(|i| Input::new(i.setpoint, i.measurement))
-        .collect();
+    let minimal_inputs = plain(&full_inputs);
     for (label, settings, inputs) in [
         ("minimal", MINIMAL, &minimal_inputs),
         ("full", FULL, &full_inputs),
     ] {
         let config = Config::<B>::try_new(&settings).expect("valid bench settings");
-        let mut pi = Controller::new(config);
-        let mut k = 0usize;
-        c.bench_function(&format!("step/{}/{label}", B::NAME), |b| {
-            b.iter(|| {
-                k = (k + 1) & 255;
-                let input = inputs
-                    .get(k)
-                    .copied()
-                    .unwrap_or(Input::new(B::ZERO, B::ZERO));
-                black_box(pi.step_with(black_box(&input)))
-            })
-        });
+        bench_steps(c, &format!("step/{}/{label}", B::NAME), config, inputs);
     }
     let config = Config::<B>::try_new(&FULL).expect("valid bench settings");
     c.bench_function(&format!("engage+step/{}", B::NAME), |b| {

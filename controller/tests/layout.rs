@@ -90,14 +90,15 @@ fn events(full: bool) -> impl Strategy<Value = Vec<Event>> {
     prop::collection::vec(event, 1..150)
 }
 
-fn same_bits<L: Layout>(s: &Settings, events: &[Event]) -> Result<(), TestCaseError> {
-    // Only settings whose natural shifts are the layout's.
-    prop_assume!(Shape::of(s).ok() == L::SHAPE);
-    let run_time = Config::<I16F16>::try_new(s).expect("valid: it has a shape");
-    let laid_out = Config::<I16F16, L>::try_new(s).expect("fits its own shape");
-    let mut a = Controller::new(run_time);
-    let mut b = Controller::new(laid_out);
-    let q = I16F16::saturating_from_num;
+/// Drive two controllers with the same events (`retune` handles a
+/// re-tune) and compare every output, the integrator and the last command.
+fn same_outputs<B: evenkeel::Backend, L: Layout, M: Layout>(
+    mut a: Controller<B, L>,
+    mut b: Controller<B, M>,
+    events: &[Event],
+    q: impl Fn(f64) -> B,
+    mut retune: impl FnMut(&mut Controller<B, L>, &mut Controller<B, M>, &Settings),
+) -> Result<(), TestCaseError> {
     for (k, event) in events.iter().enumerate() {
         let (x, y) = match *event {
             Event::Step { r, y, ff, applied } => {
@@ -122,17 +123,34 @@ fn same_bits<L: Layout>(s: &Settings, events: &[Event]) -> Result<(), TestCaseEr
                 continue;
             }
             Event::Retune(ref t) => {
-                if Shape::of(t).ok() == L::SHAPE {
-                    a.retune(Config::try_new(t).expect("valid"));
-                    b.retune(Config::try_new(t).expect("fits"));
-                }
+                retune(&mut a, &mut b, t);
                 continue;
             }
         };
         prop_assert_eq!(x, y, "event {}: {:?}", k, event);
         prop_assert_eq!(a.integral(), b.integral());
+        prop_assert_eq!(a.last_command(), b.last_command());
     }
     Ok(())
+}
+
+fn same_bits<L: Layout>(s: &Settings, events: &[Event]) -> Result<(), TestCaseError> {
+    // Only settings whose natural shifts are the layout's.
+    prop_assume!(Shape::of(s).ok() == L::SHAPE);
+    let run_time = Config::<I16F16>::try_new(s).expect("valid: it has a shape");
+    let laid_out = Config::<I16F16, L>::try_new(s).expect("fits its own shape");
+    same_outputs(
+        Controller::new(run_time),
+        Controller::new(laid_out),
+        events,
+        I16F16::saturating_from_num,
+        |a, b, t| {
+            if Shape::of(t).ok() == L::SHAPE {
+                a.retune(Config::try_new(t).expect("valid"));
+                b.retune(Config::try_new(t).expect("fits"));
+            }
+        },
+    )
 }
 
 proptest! {
@@ -194,47 +212,21 @@ evenkeel::frozen!(SlimFrozenFull: Slim16 = SLIM_FULL);
 evenkeel::frozen!(SlimFrozenMinimal: Slim16 = SLIM_MINIMAL);
 use evenkeel::Slim16;
 
-/// Drive a run-time and a frozen controller with the same events (no
-/// re-tune: a frozen configuration has none) and compare every output and
-/// the integrator.
+/// A run-time and a frozen controller on the same events (no re-tune: a
+/// frozen configuration has none).
 fn frozen_same_bits<B: evenkeel::Backend, F: Layout>(
     run_time: Config<B>,
     frozen: Config<B, F>,
     events: &[Event],
     q: impl Fn(f64) -> B,
 ) -> Result<(), TestCaseError> {
-    let mut a = Controller::new(run_time);
-    let mut b = Controller::new(frozen);
-    for (k, event) in events.iter().enumerate() {
-        let (x, y) = match *event {
-            Event::Step { r, y, ff, applied } => {
-                let mut input = Input::new(q(r), q(y)).with_feed_forward(q(ff));
-                if let Some(v) = applied {
-                    input = input.with_applied(q(v));
-                }
-                (a.step_with(&input), b.step_with(&input))
-            }
-            Event::Engage(v) => {
-                a.engage(q(v));
-                b.engage(q(v));
-                continue;
-            }
-            Event::Track { r, y, a: v } => {
-                let input = Input::new(q(r), q(y));
-                (a.track(&input, q(v)), b.track(&input, q(v)))
-            }
-            Event::Reset => {
-                a.reset();
-                b.reset();
-                continue;
-            }
-            Event::Retune(_) => continue,
-        };
-        prop_assert_eq!(x, y, "event {}: {:?}", k, event);
-        prop_assert_eq!(a.integral(), b.integral());
-        prop_assert_eq!(a.last_command(), b.last_command());
-    }
-    Ok(())
+    same_outputs(
+        Controller::new(run_time),
+        Controller::new(frozen),
+        events,
+        q,
+        |_, _, _| {},
+    )
 }
 
 /// A raw 16-bit input from an event's value: `16·v`, saturated (any raw
