@@ -157,8 +157,7 @@ static EkcStepResult refused(EkcCode code) {
  * does it through the Rust one. Returns the step's result, or an error
  * code alone (ekc_result_code) if an operation before it failed. */
 static EkcStepResult apply(unsigned scenario, const Step *s) {
-    EkcInput in = { s->setpoint, s->measurement, s->feed_forward, s->applied,
-                    (uint8_t)(s->has_applied ? 1 : 0) };
+    EkcExtra extra = { s->feed_forward, s->applied, (uint8_t)(s->has_applied ? 1 : 0) };
     int plain = s->feed_forward == 0 && !s->has_applied;
     EkcCode code = EKC_OK;
     switch (s->op) {
@@ -166,7 +165,7 @@ static EkcStepResult apply(unsigned scenario, const Step *s) {
         code = ekc_engage(&pi, s->actuator);
         break;
     case OP_TRACK:
-        return ekc_track(&pi, &in, s->actuator);
+        return ekc_track(&pi, s->setpoint, s->measurement, &extra, s->actuator);
     case OP_RESET:
         code = ekc_reset(&pi);
         break;
@@ -183,14 +182,16 @@ static EkcStepResult apply(unsigned scenario, const Step *s) {
     if (code != EKC_OK) {
         return refused(code);
     }
-    return plain ? ekc_step(&pi, s->setpoint, s->measurement) : ekc_step_with(&pi, &in);
+    return plain ? ekc_step(&pi, s->setpoint, s->measurement)
+                 : ekc_step_with(&pi, s->setpoint, s->measurement, &extra);
 }
 
 /* One step of the 16-bit set through the 16-bit C interface; the signals
  * were checked to fit 16 bits. */
 static EkcStepResult apply_slim(unsigned scenario, const Step *s) {
-    EkcSlimInput in = { (int16_t)s->setpoint, (int16_t)s->measurement, (int16_t)s->feed_forward,
-                        (int16_t)s->applied, (uint8_t)(s->has_applied ? 1 : 0) };
+    int16_t setpoint = (int16_t)s->setpoint, measurement = (int16_t)s->measurement;
+    EkcSlimExtra extra = { (int16_t)s->feed_forward, (int16_t)s->applied,
+                           (uint8_t)(s->has_applied ? 1 : 0) };
     int plain = s->feed_forward == 0 && !s->has_applied;
     EkcCode code = EKC_OK;
     switch (s->op) {
@@ -198,7 +199,7 @@ static EkcStepResult apply_slim(unsigned scenario, const Step *s) {
         code = ekc_slim_engage(&slim, (int16_t)s->actuator);
         break;
     case OP_TRACK:
-        return ekc_slim_track(&slim, &in, (int16_t)s->actuator);
+        return ekc_slim_track(&slim, setpoint, measurement, &extra, (int16_t)s->actuator);
     case OP_RESET:
         code = ekc_slim_reset(&slim);
         break;
@@ -215,8 +216,8 @@ static EkcStepResult apply_slim(unsigned scenario, const Step *s) {
     if (code != EKC_OK) {
         return refused(code);
     }
-    return plain ? ekc_slim_step(&slim, in.setpoint, in.measurement)
-                 : ekc_slim_step_with(&slim, &in);
+    return plain ? ekc_slim_step(&slim, setpoint, measurement)
+                 : ekc_slim_step_with(&slim, setpoint, measurement, &extra);
 }
 
 static int fits_16(int32_t v) { return v >= -32768 && v <= 32767; }
@@ -355,12 +356,11 @@ static const Set slim_set = { "slim16", slim_vectors, SLIM_LEN, 3, SLIM_SCENARIO
 
 static inline uint32_t ticks(void) { return ~SYST_CVR & 0x00ffffffu; }
 
-/* A compiler barrier (GCC): memory written before it (the input struct)
- * is written before it, and memory read after it (the output) is read
- * after it, so the timed window holds the call, its argument registers and
- * the return, as in cost.rs, and not the filling of the input struct
- * (which GCC otherwise moves past the first counter read: measured, up to
- * 7 instructions). */
+/* A compiler barrier (GCC): memory written before it (the extra inputs)
+ * is written before it, so the timed window holds the call, its argument
+ * registers and the return, as in cost.rs, and not the filling of the
+ * struct (which GCC otherwise moves past the first counter read:
+ * measured, up to 7 instructions). The result comes back in registers. */
 #define BARRIER() __asm__ volatile("" ::: "memory")
 
 typedef struct Cost {
@@ -410,12 +410,13 @@ static int time_full(void) {
     if (ekc_load(&pi, &cost_full) != EKC_OK) return 1;
     cost_start(&c);
     for (k = 0; k < COST_STEPS; k++) {
-        EkcInput in = { setpoint_of(k), y, q_int(1), applied, 1 };
+        int32_t setpoint = setpoint_of(k);
+        EkcExtra extra = { q_int(1), applied, 1 };
         EkcStepResult r;
         uint32_t a, b;
         BARRIER();
         a = ticks();
-        r = ekc_step_with(&pi, &in);
+        r = ekc_step_with(&pi, setpoint, y, &extra);
         b = ticks();
         BARRIER();
         if (ekc_result_code(r) != EKC_OK) return 1;
@@ -468,12 +469,13 @@ static int time_slim_full(void) {
     if (ekc_slim_load(&slim, &cost_slim_full) != EKC_OK) return 1;
     cost_start(&c);
     for (k = 0; k < COST_STEPS; k++) {
-        EkcSlimInput in = { slim_setpoint_of(k), y, s_int(1), applied, 1 };
+        int16_t setpoint = slim_setpoint_of(k);
+        EkcSlimExtra extra = { s_int(1), applied, 1 };
         EkcStepResult r;
         uint32_t a, b;
         BARRIER();
         a = ticks();
-        r = ekc_slim_step_with(&slim, &in);
+        r = ekc_slim_step_with(&slim, setpoint, y, &extra);
         b = ticks();
         BARRIER();
         if (ekc_result_code(r) != EKC_OK) return 1;

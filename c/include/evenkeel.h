@@ -377,17 +377,11 @@ typedef struct EKC_ALIGNED(8) EkcLoop {
 typedef uint64_t EkcStepResult;
 
 /**
- * Inputs of one `ekc_step_with` or `ekc_track` (Q16.16 bits).
+ * The optional inputs of one `ekc_step_with` or `ekc_track` (Q16.16
+ * bits); setpoint and measurement are arguments of their own.
+ * `EKC_NO_EXTRA` is the one with none of them.
  */
-typedef struct EkcInput {
-  /**
-   * Setpoint r.
-   */
-  int32_t setpoint;
-  /**
-   * Measurement y.
-   */
-  int32_t measurement;
+typedef struct EkcExtra {
   /**
    * Feed-forward added before the limits (0 if unused).
    */
@@ -401,7 +395,7 @@ typedef struct EkcInput {
    * Non-zero: `applied` is known.
    */
   uint8_t has_applied;
-} EkcInput;
+} EkcExtra;
 
 /**
  * Storage for one 16-bit controller (`int16_t` signals); see `EkcLoop`.
@@ -414,17 +408,10 @@ typedef struct EKC_ALIGNED(4) EkcSlimLoop {
 } EkcSlimLoop;
 
 /**
- * Inputs of one `ekc_slim_step_with` or `ekc_slim_track` (raw 16-bit).
+ * The optional inputs of one `ekc_slim_step_with` or `ekc_slim_track`
+ * (raw 16-bit); see `EkcExtra`.
  */
-typedef struct EkcSlimInput {
-  /**
-   * Setpoint r.
-   */
-  int16_t setpoint;
-  /**
-   * Measurement y.
-   */
-  int16_t measurement;
+typedef struct EkcSlimExtra {
   /**
    * Feed-forward added before the limits (0 if unused).
    */
@@ -438,7 +425,7 @@ typedef struct EkcSlimInput {
    * Non-zero: `applied` is known.
    */
   uint8_t has_applied;
-} EkcSlimInput;
+} EkcSlimExtra;
 
 /**
  * Success.
@@ -624,6 +611,16 @@ typedef struct EkcSlimInput {
  */
 #define EKC_SETTING_COMMAND_SCALE 16
 
+/**
+ * No optional inputs: what `ekc_step` passes to `ekc_step_with`.
+ */
+#define EKC_NO_EXTRA (EkcExtra){ .feed_forward = 0, .applied = 0, .has_applied = 0 }
+
+/**
+ * No optional inputs: what `ekc_slim_step` passes to `ekc_slim_step_with`.
+ */
+#define EKC_SLIM_NO_EXTRA (EkcSlimExtra){ .feed_forward = 0, .applied = 0, .has_applied = 0 }
+
 #ifdef __cplusplus
 extern "C" {
 #endif // __cplusplus
@@ -693,11 +690,12 @@ EkcCode ekc_configure(struct EkcLoop *pi, const struct EkcSettings *settings);
 EkcCode ekc_load(struct EkcLoop *pi, const struct EkcCoefficients *coefficients);
 
 /**
- * One control step with setpoint and measurement (Q16.16 bits (value · EKC_ONE)):
- * `ekc_step_with` with no feed-forward and no applied value. Returns
- * code, command and status in one `EkcStepResult`; on error (in this
- * order: `EKC_ERR_NULL`, `EKC_ERR_MISALIGNED` for `pi`, then
- * `EKC_ERR_UNCONFIGURED`) nothing changes.
+ * One control step with setpoint and measurement (Q16.16 bits (value · EKC_ONE)) alone:
+ * `ekc_step_with` with `EKC_NO_EXTRA` (no feed-forward, no applied value).
+ * Returns code, command and status in one `EkcStepResult`; on
+ * error (in this order: `pi` null `EKC_ERR_NULL`, misaligned
+ * `EKC_ERR_MISALIGNED`, never configured `EKC_ERR_UNCONFIGURED`) nothing
+ * changes.
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -708,12 +706,13 @@ EkcCode ekc_load(struct EkcLoop *pi, const struct EkcCoefficients *coefficients)
 EkcStepResult ekc_step(struct EkcLoop *pi, int32_t setpoint, int32_t measurement);
 
 /**
- * One control step with feed-forward and, if known, the value the
- * actuator applied of the previous command. Returns code, command and
- * status in one `EkcStepResult`. The checks, in this order (the first
- * that fails gives the code, and nothing changes): `input` null
- * (`EKC_ERR_NULL`) or misaligned (`EKC_ERR_MISALIGNED`), `pi` null or
- * misaligned, `pi` never configured (`EKC_ERR_UNCONFIGURED`).
+ * One control step with setpoint, measurement and the optional inputs
+ * in `*extra`: feed-forward and, if known, the value the actuator applied
+ * of the previous command. Returns code, command and status in one
+ * `EkcStepResult`. The checks, in this order (the first that fails
+ * gives the code, and nothing changes): `extra` null (`EKC_ERR_NULL`) or
+ * misaligned (`EKC_ERR_MISALIGNED`), `pi` null or misaligned, `pi` never
+ * configured (`EKC_ERR_UNCONFIGURED`).
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -721,7 +720,7 @@ EkcStepResult ekc_step(struct EkcLoop *pi, int32_t setpoint, int32_t measurement
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcStepResult ekc_step_with(struct EkcLoop *pi, const struct EkcInput *input);
+EkcStepResult ekc_step_with(struct EkcLoop *pi, int32_t setpoint, int32_t measurement, const struct EkcExtra *extra);
 
 /**
  * Take over bumplessly from `actuator` (the value another source drives):
@@ -748,7 +747,7 @@ EkcCode ekc_engage(struct EkcLoop *pi, int32_t actuator);
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcStepResult ekc_track(struct EkcLoop *pi, const struct EkcInput *input, int32_t actuator);
+EkcStepResult ekc_track(struct EkcLoop *pi, int32_t setpoint, int32_t measurement, const struct EkcExtra *extra, int32_t actuator);
 
 /**
  * Replace the configuration bumplessly (the integrator absorbs the
@@ -847,11 +846,11 @@ EkcCode ekc_slim_configure(struct EkcSlimLoop *pi, const struct EkcSettings *set
 EkcCode ekc_slim_load(struct EkcSlimLoop *pi, const struct EkcCoefficients *coefficients);
 
 /**
- * One control step with setpoint and measurement (raw 16-bit values in the loop's scaling):
- * `ekc_slim_step_with` with no feed-forward and no applied value.
- * Returns code, command and status in one `EkcStepResult` (command:
- * `ekc_slim_result_command`); on error (in this order: `EKC_ERR_NULL`,
- * `EKC_ERR_MISALIGNED` for `pi`, then `EKC_ERR_UNCONFIGURED`) nothing
+ * One control step with setpoint and measurement (raw 16-bit values in the loop's scaling) alone:
+ * `ekc_slim_step_with` with `EKC_SLIM_NO_EXTRA` (no feed-forward, no applied value).
+ * Returns code, command and status in one `EkcStepResult` (command: `ekc_slim_result_command`); on
+ * error (in this order: `pi` null `EKC_ERR_NULL`, misaligned
+ * `EKC_ERR_MISALIGNED`, never configured `EKC_ERR_UNCONFIGURED`) nothing
  * changes.
  *
  * # Safety
@@ -863,12 +862,13 @@ EkcCode ekc_slim_load(struct EkcSlimLoop *pi, const struct EkcCoefficients *coef
 EkcStepResult ekc_slim_step(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurement);
 
 /**
- * One control step with feed-forward and, if known, the value the
- * actuator applied of the previous command. Returns code, command and
- * status in one `EkcStepResult`. The checks, in this order (the first
- * that fails gives the code, and nothing changes): `input` null
- * (`EKC_ERR_NULL`) or misaligned (`EKC_ERR_MISALIGNED`), `pi` null or
- * misaligned, `pi` never configured (`EKC_ERR_UNCONFIGURED`).
+ * One control step with setpoint, measurement and the optional inputs
+ * in `*extra`: feed-forward and, if known, the value the actuator applied
+ * of the previous command. Returns code, command and status in one
+ * `EkcStepResult` (command: `ekc_slim_result_command`). The checks, in this order (the first that fails
+ * gives the code, and nothing changes): `extra` null (`EKC_ERR_NULL`) or
+ * misaligned (`EKC_ERR_MISALIGNED`), `pi` null or misaligned, `pi` never
+ * configured (`EKC_ERR_UNCONFIGURED`).
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -876,7 +876,7 @@ EkcStepResult ekc_slim_step(struct EkcSlimLoop *pi, int16_t setpoint, int16_t me
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcStepResult ekc_slim_step_with(struct EkcSlimLoop *pi, const struct EkcSlimInput *input);
+EkcStepResult ekc_slim_step_with(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurement, const struct EkcSlimExtra *extra);
 
 /**
  * Take over bumplessly from `actuator` (the value another source drives):
@@ -903,7 +903,7 @@ EkcCode ekc_slim_engage(struct EkcSlimLoop *pi, int16_t actuator);
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcStepResult ekc_slim_track(struct EkcSlimLoop *pi, const struct EkcSlimInput *input, int16_t actuator);
+EkcStepResult ekc_slim_track(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurement, const struct EkcSlimExtra *extra, int16_t actuator);
 
 /**
  * Replace the configuration bumplessly (the integrator absorbs the

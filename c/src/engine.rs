@@ -9,7 +9,7 @@ use crate::codes::{self, EKC_OK, EkcCode};
 use crate::storage::{self, EkcLoop, EkcSlimLoop, Out, Plain, Storage};
 use crate::types::{
     self, EKC_FORMAT_Q16_16, EKC_FORMAT_SLIM16, EKC_RESULT_STATUS_SHIFT, EKC_STATUS_TRACKING,
-    EkcCoef, EkcCoefficients, EkcInput, EkcSettings, EkcSlimInput, EkcStepResult,
+    EkcCoef, EkcCoefficients, EkcExtra, EkcSettings, EkcSlimExtra, EkcStepResult,
 };
 
 /// What differs between the two storage types.
@@ -18,13 +18,14 @@ pub(crate) trait Engine: Storage {
     const FORMAT: u32;
     /// A raw signal in C.
     type Raw: Plain;
-    /// The C input struct.
-    type In: Plain;
+    /// The C struct of the optional inputs.
+    type Extra: Plain + 'static;
     fn signal(raw: Self::Raw) -> Self::Backend;
-    /// The C input of setpoint and measurement alone (what `Input::new` is).
-    fn plain_input(setpoint: Self::Raw, measurement: Self::Raw) -> Self::In;
+    /// No optional inputs (what `Input::new` leaves out): `EKC_NO_EXTRA`,
+    /// in read-only memory.
+    fn no_extra() -> &'static Self::Extra;
     fn raw(x: Self::Backend) -> Self::Raw;
-    fn input(i: &Self::In) -> Input<Self::Backend>;
+    fn input(setpoint: Self::Raw, measurement: Self::Raw, e: &Self::Extra) -> Input<Self::Backend>;
     /// The step result of the controller's output.
     fn result(o: evenkeel::Output<Self::Backend>) -> EkcStepResult;
     fn compute(s: &evenkeel::Settings) -> Result<Config<Self::Backend>, ConfigError>;
@@ -36,7 +37,7 @@ pub(crate) trait Engine: Storage {
 impl Engine for EkcLoop {
     const FORMAT: u32 = EKC_FORMAT_Q16_16;
     type Raw = i32;
-    type In = EkcInput;
+    type Extra = EkcExtra;
     #[inline(always)]
     fn signal(raw: i32) -> I16F16 {
         I16F16::from_bits(raw)
@@ -46,18 +47,13 @@ impl Engine for EkcLoop {
         x.to_bits()
     }
     #[inline(always)]
-    fn plain_input(setpoint: i32, measurement: i32) -> EkcInput {
-        EkcInput {
-            setpoint,
-            measurement,
-            feed_forward: 0,
-            applied: 0,
-            has_applied: 0,
-        }
+    fn no_extra() -> &'static EkcExtra {
+        static NO_EXTRA: EkcExtra = types::EKC_NO_EXTRA;
+        &NO_EXTRA
     }
     #[inline(always)]
-    fn input(i: &EkcInput) -> Input<I16F16> {
-        types::fixed_input(i)
+    fn input(setpoint: i32, measurement: i32, e: &EkcExtra) -> Input<I16F16> {
+        types::fixed_input(setpoint, measurement, e)
     }
     #[inline(always)]
     fn result(o: evenkeel::Output<I16F16>) -> EkcStepResult {
@@ -80,7 +76,7 @@ impl Engine for EkcLoop {
 impl Engine for EkcSlimLoop {
     const FORMAT: u32 = EKC_FORMAT_SLIM16;
     type Raw = i16;
-    type In = EkcSlimInput;
+    type Extra = EkcSlimExtra;
     #[inline(always)]
     fn signal(raw: i16) -> Slim16 {
         Slim16::from_raw(raw)
@@ -90,18 +86,13 @@ impl Engine for EkcSlimLoop {
         x.raw()
     }
     #[inline(always)]
-    fn plain_input(setpoint: i16, measurement: i16) -> EkcSlimInput {
-        EkcSlimInput {
-            setpoint,
-            measurement,
-            feed_forward: 0,
-            applied: 0,
-            has_applied: 0,
-        }
+    fn no_extra() -> &'static EkcSlimExtra {
+        static NO_EXTRA: EkcSlimExtra = types::EKC_SLIM_NO_EXTRA;
+        &NO_EXTRA
     }
     #[inline(always)]
-    fn input(i: &EkcSlimInput) -> Input<Slim16> {
-        types::slim_input(i)
+    fn input(setpoint: i16, measurement: i16, e: &EkcSlimExtra) -> Input<Slim16> {
+        types::slim_input(setpoint, measurement, e)
     }
     #[inline(always)]
     fn result(o: evenkeel::Output<Slim16>) -> EkcStepResult {
@@ -181,28 +172,38 @@ pub(crate) fn retune_gains<E: Engine>(storage: *mut E, kp: EkcCoef, ki_ts: EkcCo
 }
 
 /// The signature of `ekc_step_with` and `ekc_slim_step_with`.
-pub(crate) type StepWith<E> =
-    unsafe extern "C" fn(*mut E, *const <E as Engine>::In) -> EkcStepResult;
+pub(crate) type StepWith<E> = unsafe extern "C" fn(
+    *mut E,
+    <E as Engine>::Raw,
+    <E as Engine>::Raw,
+    *const <E as Engine>::Extra,
+) -> EkcStepResult;
 
 /// The one control step of the C interface (`ekc_step_with`, and its
 /// 16-bit twin): the checks of [`storage::with_step`], then the only call
 /// of [`Controller::step_with`] in the crate, so the compiler inlines the
-/// step into the exported function and reads the C input's fields where
-/// the step needs them (no copy into an [`Input`] first). `ekc_step` and
-/// `ekc_track` call the exported function, so the step's code is in the
-/// firmware once.
+/// step into the exported function, with setpoint and measurement in
+/// registers and the optional inputs read where the step needs them.
+/// `ekc_step` and `ekc_track` call the exported function, so the step's
+/// code is in the firmware once.
 #[inline(always)]
-pub(crate) fn step_with<E: Engine>(storage: *mut E, input: *const E::In) -> EkcStepResult {
-    match storage::with_step(storage, input, |pi, input| {
-        E::result(pi.step_with(&E::input(input)))
+pub(crate) fn step_with<E: Engine>(
+    storage: *mut E,
+    setpoint: E::Raw,
+    measurement: E::Raw,
+    extra: *const E::Extra,
+) -> EkcStepResult {
+    match storage::with_step(storage, extra, |pi, extra| {
+        E::result(pi.step_with(&E::input(setpoint, measurement, extra)))
     }) {
         Ok(result) => result,
         Err(code) => types::refused_result(code),
     }
 }
 
-/// `ekc_step`: `entry` (`ekc_step_with` of the format) with a local input
-/// of setpoint and measurement alone.
+/// `ekc_step`: `entry` (`ekc_step_with` of the format) with
+/// `EKC_NO_EXTRA`, a constant in read-only memory: the arguments stay in
+/// their registers and the call is a jump.
 #[inline(always)]
 pub(crate) fn step<E: Engine>(
     storage: *mut E,
@@ -210,8 +211,7 @@ pub(crate) fn step<E: Engine>(
     measurement: E::Raw,
     entry: StepWith<E>,
 ) -> EkcStepResult {
-    let input = E::plain_input(setpoint, measurement);
-    storage::forward(entry, storage, &input)
+    storage::forward(entry, storage, setpoint, measurement, E::no_extra())
 }
 
 /// `Controller::track` (engage, then the step, flagged `TRACKING`),
@@ -220,20 +220,24 @@ pub(crate) fn step<E: Engine>(
 /// order of the step's, so a refused call changes nothing.
 pub(crate) fn track<E: Engine>(
     storage: *mut E,
-    input: *const E::In,
+    setpoint: E::Raw,
+    measurement: E::Raw,
+    extra: *const E::Extra,
     actuator: E::Raw,
     entry: StepWith<E>,
 ) -> EkcStepResult {
-    if let Err(code) = storage::with_step(storage, input, |pi, _| {
+    if let Err(code) = storage::with_step(storage, extra, |pi, _| {
         pi.engage(E::signal(actuator));
     }) {
         return types::refused_result(code);
     }
-    let result = storage::forward(entry, storage, input);
-    if types::result_code(result) == EKC_OK {
-        result | (u64::from(EKC_STATUS_TRACKING) << EKC_RESULT_STATUS_SHIFT)
-    } else {
-        result
+    match storage::forward(entry, storage, setpoint, measurement, extra) {
+        // The same checks passed above, so the step runs; a refused
+        // result would keep its code alone all the same.
+        result if types::result_code(result) == EKC_OK => {
+            result | (u64::from(EKC_STATUS_TRACKING) << EKC_RESULT_STATUS_SHIFT)
+        }
+        refused => refused,
     }
 }
 

@@ -4,7 +4,7 @@
 use crate::codes::EkcCode;
 use crate::engine;
 use crate::storage::EkcLoop;
-use crate::types::{EkcCoef, EkcCoefficients, EkcInput, EkcSettings, EkcStepResult};
+use crate::types::{EkcCoef, EkcCoefficients, EkcExtra, EkcSettings, EkcStepResult};
 
 /// Compute the Q16.16 coefficients of `settings` into `*out` (`double`
 /// arithmetic: a host tool, or a core with a double-precision FPU). On
@@ -53,11 +53,12 @@ pub unsafe extern "C" fn ekc_load(
     engine::load::<EkcLoop>(pi, coefficients)
 }
 
-/// One control step with setpoint and measurement (Q16.16 bits (value · EKC_ONE)):
-/// `ekc_step_with` with no feed-forward and no applied value. Returns
-/// code, command and status in one `EkcStepResult`; on error (in this
-/// order: `EKC_ERR_NULL`, `EKC_ERR_MISALIGNED` for `pi`, then
-/// `EKC_ERR_UNCONFIGURED`) nothing changes.
+/// One control step with setpoint and measurement (Q16.16 bits (value · EKC_ONE)) alone:
+/// `ekc_step_with` with `EKC_NO_EXTRA` (no feed-forward, no applied value).
+/// Returns code, command and status in one `EkcStepResult`; on
+/// error (in this order: `pi` null `EKC_ERR_NULL`, misaligned
+/// `EKC_ERR_MISALIGNED`, never configured `EKC_ERR_UNCONFIGURED`) nothing
+/// changes.
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -73,12 +74,13 @@ pub unsafe extern "C" fn ekc_step(
     engine::step::<EkcLoop>(pi, setpoint, measurement, ekc_step_with)
 }
 
-/// One control step with feed-forward and, if known, the value the
-/// actuator applied of the previous command. Returns code, command and
-/// status in one `EkcStepResult`. The checks, in this order (the first
-/// that fails gives the code, and nothing changes): `input` null
-/// (`EKC_ERR_NULL`) or misaligned (`EKC_ERR_MISALIGNED`), `pi` null or
-/// misaligned, `pi` never configured (`EKC_ERR_UNCONFIGURED`).
+/// One control step with setpoint, measurement and the optional inputs
+/// in `*extra`: feed-forward and, if known, the value the actuator applied
+/// of the previous command. Returns code, command and status in one
+/// `EkcStepResult`. The checks, in this order (the first that fails
+/// gives the code, and nothing changes): `extra` null (`EKC_ERR_NULL`) or
+/// misaligned (`EKC_ERR_MISALIGNED`), `pi` null or misaligned, `pi` never
+/// configured (`EKC_ERR_UNCONFIGURED`).
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -86,8 +88,13 @@ pub unsafe extern "C" fn ekc_step(
 /// of one call do not overlap, and loop storage was zeroed or configured
 /// before (never left uninitialised).
 #[unsafe(no_mangle)]
-pub unsafe extern "C" fn ekc_step_with(pi: *mut EkcLoop, input: *const EkcInput) -> EkcStepResult {
-    engine::step_with::<EkcLoop>(pi, input)
+pub unsafe extern "C" fn ekc_step_with(
+    pi: *mut EkcLoop,
+    setpoint: i32,
+    measurement: i32,
+    extra: *const EkcExtra,
+) -> EkcStepResult {
+    engine::step_with::<EkcLoop>(pi, setpoint, measurement, extra)
 }
 
 /// Take over bumplessly from `actuator` (the value another source drives):
@@ -117,10 +124,12 @@ pub unsafe extern "C" fn ekc_engage(pi: *mut EkcLoop, actuator: i32) -> EkcCode 
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_track(
     pi: *mut EkcLoop,
-    input: *const EkcInput,
+    setpoint: i32,
+    measurement: i32,
+    extra: *const EkcExtra,
     actuator: i32,
 ) -> EkcStepResult {
-    engine::track::<EkcLoop>(pi, input, actuator, ekc_step_with)
+    engine::track::<EkcLoop>(pi, setpoint, measurement, extra, actuator, ekc_step_with)
 }
 
 /// Replace the configuration bumplessly (the integrator absorbs the

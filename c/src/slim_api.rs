@@ -4,7 +4,7 @@
 use crate::codes::EkcCode;
 use crate::engine;
 use crate::storage::EkcSlimLoop;
-use crate::types::{EkcCoef, EkcCoefficients, EkcSettings, EkcSlimInput, EkcStepResult};
+use crate::types::{EkcCoef, EkcCoefficients, EkcSettings, EkcSlimExtra, EkcStepResult};
 
 /// Compute the 16-bit coefficients of `settings` into `*out` (`double`
 /// arithmetic: a host tool, or a core with a double-precision FPU). On
@@ -56,11 +56,11 @@ pub unsafe extern "C" fn ekc_slim_load(
     engine::load::<EkcSlimLoop>(pi, coefficients)
 }
 
-/// One control step with setpoint and measurement (raw 16-bit values in the loop's scaling):
-/// `ekc_slim_step_with` with no feed-forward and no applied value.
-/// Returns code, command and status in one `EkcStepResult` (command:
-/// `ekc_slim_result_command`); on error (in this order: `EKC_ERR_NULL`,
-/// `EKC_ERR_MISALIGNED` for `pi`, then `EKC_ERR_UNCONFIGURED`) nothing
+/// One control step with setpoint and measurement (raw 16-bit values in the loop's scaling) alone:
+/// `ekc_slim_step_with` with `EKC_SLIM_NO_EXTRA` (no feed-forward, no applied value).
+/// Returns code, command and status in one `EkcStepResult` (command: `ekc_slim_result_command`); on
+/// error (in this order: `pi` null `EKC_ERR_NULL`, misaligned
+/// `EKC_ERR_MISALIGNED`, never configured `EKC_ERR_UNCONFIGURED`) nothing
 /// changes.
 ///
 /// # Safety
@@ -77,12 +77,13 @@ pub unsafe extern "C" fn ekc_slim_step(
     engine::step::<EkcSlimLoop>(pi, setpoint, measurement, ekc_slim_step_with)
 }
 
-/// One control step with feed-forward and, if known, the value the
-/// actuator applied of the previous command. Returns code, command and
-/// status in one `EkcStepResult`. The checks, in this order (the first
-/// that fails gives the code, and nothing changes): `input` null
-/// (`EKC_ERR_NULL`) or misaligned (`EKC_ERR_MISALIGNED`), `pi` null or
-/// misaligned, `pi` never configured (`EKC_ERR_UNCONFIGURED`).
+/// One control step with setpoint, measurement and the optional inputs
+/// in `*extra`: feed-forward and, if known, the value the actuator applied
+/// of the previous command. Returns code, command and status in one
+/// `EkcStepResult` (command: `ekc_slim_result_command`). The checks, in this order (the first that fails
+/// gives the code, and nothing changes): `extra` null (`EKC_ERR_NULL`) or
+/// misaligned (`EKC_ERR_MISALIGNED`), `pi` null or misaligned, `pi` never
+/// configured (`EKC_ERR_UNCONFIGURED`).
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -92,9 +93,11 @@ pub unsafe extern "C" fn ekc_slim_step(
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_step_with(
     pi: *mut EkcSlimLoop,
-    input: *const EkcSlimInput,
+    setpoint: i16,
+    measurement: i16,
+    extra: *const EkcSlimExtra,
 ) -> EkcStepResult {
-    engine::step_with::<EkcSlimLoop>(pi, input)
+    engine::step_with::<EkcSlimLoop>(pi, setpoint, measurement, extra)
 }
 
 /// Take over bumplessly from `actuator` (the value another source drives):
@@ -124,10 +127,19 @@ pub unsafe extern "C" fn ekc_slim_engage(pi: *mut EkcSlimLoop, actuator: i16) ->
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_track(
     pi: *mut EkcSlimLoop,
-    input: *const EkcSlimInput,
+    setpoint: i16,
+    measurement: i16,
+    extra: *const EkcSlimExtra,
     actuator: i16,
 ) -> EkcStepResult {
-    engine::track::<EkcSlimLoop>(pi, input, actuator, ekc_slim_step_with)
+    engine::track::<EkcSlimLoop>(
+        pi,
+        setpoint,
+        measurement,
+        extra,
+        actuator,
+        ekc_slim_step_with,
+    )
 }
 
 /// Replace the configuration bumplessly (the integrator absorbs the

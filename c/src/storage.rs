@@ -16,7 +16,7 @@ use evenkeel::fixed::types::I16F16;
 use evenkeel::{Backend, Controller, Slim16};
 
 use crate::codes::{EKC_ERR_MISALIGNED, EKC_ERR_NULL, EKC_ERR_UNCONFIGURED, EkcCode};
-use crate::types::{EkcCoef, EkcCoefficients, EkcInput, EkcSettings, EkcSlimInput};
+use crate::types::{EkcCoef, EkcCoefficients, EkcExtra, EkcSettings, EkcSlimExtra};
 
 /// Bytes of an `EkcLoop`.
 pub const EKC_LOOP_SIZE: usize = 152;
@@ -166,32 +166,25 @@ pub(crate) fn with_ref<S: Storage, T>(
     Ok(f(controller))
 }
 
-/// Run `f` on the controller in `storage` and the C input of one step,
-/// if every check passes: `input` non-null and aligned, then `storage`
-/// non-null and aligned, then its tag. Otherwise the code of the first
-/// check that fails in that order ([`refused`]), and nothing runs.
+/// Run `f` on the controller in `storage` and the optional inputs of one
+/// step, if every check passes: `extra` non-null and aligned, then
+/// `storage` non-null and aligned, then its tag. Otherwise the code of the
+/// first check that fails in that order ([`refused`]), and nothing runs.
 ///
 /// The common path tests both pointers at once: two null tests, one
-/// alignment test for both, the tag. `input` is borrowed, not copied: the
+/// alignment test for both, the tag. `extra` is borrowed, not copied: the
 /// step reads each field where it needs it. C passes pointers of one call
 /// that do not overlap (header contract).
 #[inline(always)]
-pub(crate) fn with_step<S: Storage, I: Plain, T>(
+pub(crate) fn with_step<S: Storage, X: Plain, T>(
     storage: *mut S,
-    input: *const I,
-    f: impl FnOnce(&mut Controller<S::Backend>, &I) -> T,
+    extra: *const X,
+    f: impl FnOnce(&mut Controller<S::Backend>, &X) -> T,
 ) -> Result<T, EkcCode> {
-    // The storage's alignment is twice the input's, so the low bits of
-    // `storage | input << 1` below the storage's alignment are clear
-    // exactly when both pointers are aligned (checked by the compiler
-    // for each pair of types).
-    const {
-        assert!(align_of::<S>() == 2 * align_of::<I>());
-    }
-    let (s, i) = (storage.addr(), input.addr());
-    let aligned = (s | (i << 1)) & (align_of::<S>() - 1) == 0;
-    if s == 0 || i == 0 || !aligned {
-        return Err(refused(storage, input));
+    let (s, x) = (storage.addr(), extra.addr());
+    let aligned = s & (align_of::<S>() - 1) == 0 && x & (align_of::<X>() - 1) == 0;
+    if s == 0 || x == 0 || !aligned {
+        return Err(refused(storage, extra));
     }
     let slot = storage.cast::<Slot<S::Backend>>();
     if tag(slot) != S::TAG {
@@ -202,21 +195,21 @@ pub(crate) fn with_step<S: Storage, I: Plain, T>(
     // outlive this function.
     let controller = unsafe { &mut (*slot).controller };
     // SAFETY: non-null and aligned (tested above): a C pointer to a whole
-    // `I` that nothing writes during the call and that overlaps neither
-    // the storage nor anything `f` writes (header contract), or a local of
-    // the caller that outlives the call; the reference lives only during
-    // `f`. Any bit pattern is a valid `I` (`Plain`).
-    let input = unsafe { &*input };
-    Ok(f(controller, input))
+    // `X` that nothing writes during the call and that overlaps neither
+    // the storage nor anything `f` writes (header contract), or a constant
+    // of this crate; the reference lives only during `f`. Any bit pattern
+    // is a valid `X` (`Plain`).
+    let extra = unsafe { &*extra };
+    Ok(f(controller, extra))
 }
 
 /// Why [`with_step`] refused its pointers: the first failing check of
-/// input null, input misaligned, storage null, storage misaligned. Off
+/// extra null, extra misaligned, storage null, storage misaligned. Off
 /// the common path.
 #[cold]
 #[inline(never)]
-fn refused<S, I>(storage: *const S, input: *const I) -> EkcCode {
-    match checked(input).and_then(|()| checked(storage)) {
+fn refused<S, X>(storage: *const S, extra: *const X) -> EkcCode {
+    match checked(extra).and_then(|()| checked(storage)) {
         Err(code) => code,
         // Not reached (`with_step` calls this only when a pointer test
         // failed); the storage is then not to be read.
@@ -224,22 +217,24 @@ fn refused<S, I>(storage: *const S, input: *const I) -> EkcCode {
     }
 }
 
-/// `entry(storage, input)`: a step function of this crate called from
-/// another one (`ekc_step` with its local input, `ekc_track` after the
-/// engage), so that the controller's step is compiled once, inside
-/// `entry`.
+/// `entry(storage, setpoint, measurement, extra)`: the step function of a
+/// format called from another function of this crate (`ekc_step` with no
+/// extra inputs, `ekc_track` after the engage), so that the controller's
+/// step is compiled once, inside `entry`.
 #[inline(always)]
-pub(crate) fn forward<S, I, R>(
-    entry: unsafe extern "C" fn(*mut S, *const I) -> R,
+pub(crate) fn forward<S, R: Copy, X, T>(
+    entry: unsafe extern "C" fn(*mut S, R, R, *const X) -> T,
     storage: *mut S,
-    input: *const I,
-) -> R {
+    setpoint: R,
+    measurement: R,
+    extra: *const X,
+) -> T {
     // SAFETY: `entry` is one of this crate's step functions, which check
     // both pointers before any access and have the contract of the caller
-    // (an `ekc_` function): `storage` and `input` are the caller's C
-    // arguments under that same contract, or `input` is a live local of
-    // the caller (valid, aligned, not overlapping the storage).
-    unsafe { entry(storage, input) }
+    // (an `ekc_` function): `storage` and `extra` are the caller's C
+    // arguments under that same contract, or `extra` is a constant of this
+    // crate (valid, aligned, read only).
+    unsafe { entry(storage, setpoint, measurement, extra) }
 }
 
 /// `Ok` if `p` is non-null and aligned.
@@ -262,8 +257,8 @@ impl Plain for i16 {}
 impl Plain for EkcSettings {}
 impl Plain for EkcCoefficients {}
 impl Plain for EkcCoef {}
-impl Plain for EkcInput {}
-impl Plain for EkcSlimInput {}
+impl Plain for EkcExtra {}
+impl Plain for EkcSlimExtra {}
 
 /// A copy of the value C points to.
 pub(crate) fn read<T: Plain>(p: *const T) -> Result<T, EkcCode> {
@@ -339,7 +334,7 @@ mod tests {
         use crate::fixed_api::*;
         use crate::slim_api::{ekc_slim_configure, ekc_slim_step};
         use crate::types::{
-            EKC_STATUS_CLAMP_HIGH, EKC_STATUS_TRACKING, EkcInput, EkcSettings, result_code,
+            EKC_STATUS_CLAMP_HIGH, EKC_STATUS_TRACKING, EkcExtra, EkcSettings, result_code,
             result_command, result_status,
         };
         use core::mem::MaybeUninit;
@@ -370,19 +365,17 @@ mod tests {
             assert_eq!((result_command(r), result_status(r)), (2, 0)); // 0.5 · 3 LSB = 1.5 → 2
             let r = ekc_step(&mut pi, -3, 0);
             assert_eq!((result_code(r), result_command(r)), (EKC_OK, -1)); // −1.5 → −1
-            let input = EkcInput {
-                setpoint: 3,
-                measurement: 0,
+            let extra = EkcExtra {
                 feed_forward: 0,
                 applied: 2,
                 has_applied: 1,
             };
-            let r = ekc_step_with(&mut pi, &input);
+            let r = ekc_step_with(&mut pi, 3, 0, &extra);
             assert_eq!(result_code(r), EKC_OK);
             let mut value = 0;
             assert_eq!(ekc_last_command(&pi, &mut value), EKC_OK);
             assert_eq!(value, result_command(r));
-            let r = ekc_track(&mut pi, &input, 5);
+            let r = ekc_track(&mut pi, 3, 0, &extra, 5);
             assert_eq!(result_code(r), EKC_OK);
             assert_ne!(result_status(r) & EKC_STATUS_TRACKING, 0);
             let misaligned = core::ptr::from_mut(&mut pi)
@@ -396,7 +389,7 @@ mod tests {
                 EKC_ERR_NULL
             );
             assert_eq!(
-                result_code(ekc_step_with(&mut pi, core::ptr::null())),
+                result_code(ekc_step_with(&mut pi, 3, 0, core::ptr::null())),
                 EKC_ERR_NULL
             );
             let mut text = [0u8; 16];
@@ -418,7 +411,7 @@ mod tests {
         }
     }
 
-    /// A step's arguments are checked in the documented order (input, then
+    /// A step's arguments are checked in the documented order (extra, then
     /// storage; null before misaligned; then the tag), whatever else is
     /// wrong, and a refused step changes nothing.
     #[test]
@@ -434,7 +427,7 @@ mod tests {
             ekc_slim_track,
         };
         use crate::types::{
-            EkcInput, EkcSettings, EkcSlimInput, EkcStepResult, refused_result, result_code,
+            EkcExtra, EkcSettings, EkcSlimExtra, EkcStepResult, refused_result, result_code,
         };
         use core::mem::MaybeUninit;
 
@@ -480,14 +473,8 @@ mod tests {
                 let mut slim: EkcSlimLoop = unsafe { MaybeUninit::zeroed().assume_init() };
                 // SAFETY: (test) as above.
                 let mut settings: EkcSettings = unsafe { MaybeUninit::zeroed().assume_init() };
-                let mut input = EkcInput {
-                    setpoint: 3 << 16,
-                    ..EkcInput::default()
-                };
-                let mut slim_input = EkcSlimInput {
-                    setpoint: 3,
-                    ..EkcSlimInput::default()
-                };
+                let mut extra = EkcExtra::default();
+                let mut slim_extra = EkcSlimExtra::default();
                 // SAFETY: (test) every pointer is null, a live local, or
                 // the deliberately misaligned one (refused, never
                 // dereferenced).
@@ -498,14 +485,14 @@ mod tests {
                         assert_eq!(ekc_slim_configure(&mut slim, &settings), EKC_OK);
                     }
                     let p = ptr(&mut pi, storage_arg);
-                    let i = ptr(&mut input, input_arg);
-                    check(ekc_step_with(p, i), want, &case);
-                    check(ekc_track(p, i, 1 << 16), want, &case);
+                    let x = ptr(&mut extra, input_arg);
+                    check(ekc_step_with(p, 3 << 16, 0, x), want, &case);
+                    check(ekc_track(p, 3 << 16, 0, x, 1 << 16), want, &case);
                     check(ekc_step(p, 3 << 16, 0), want_plain, &case);
                     let p = ptr(&mut slim, storage_arg);
-                    let i = ptr(&mut slim_input, input_arg);
-                    check(ekc_slim_step_with(p, i), want, &case);
-                    check(ekc_slim_track(p, i, 1), want, &case);
+                    let x = ptr(&mut slim_extra, input_arg);
+                    check(ekc_slim_step_with(p, 3, 0, x), want, &case);
+                    check(ekc_slim_track(p, 3, 0, x, 1), want, &case);
                     check(ekc_slim_step(p, 3, 0), want_plain, &case);
                     if storage_arg != Unconfigured {
                         // Kp · 3 = 3 once a step ran; 0 (at rest) if every call was refused.

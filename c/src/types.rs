@@ -295,14 +295,12 @@ impl EkcCoefficients {
     }
 }
 
-/// Inputs of one `ekc_step_with` or `ekc_track` (Q16.16 bits).
+/// The optional inputs of one `ekc_step_with` or `ekc_track` (Q16.16
+/// bits); setpoint and measurement are arguments of their own.
+/// `EKC_NO_EXTRA` is the one with none of them.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub struct EkcInput {
-    /// Setpoint r.
-    pub setpoint: i32,
-    /// Measurement y.
-    pub measurement: i32,
+pub struct EkcExtra {
     /// Feed-forward added before the limits (0 if unused).
     pub feed_forward: i32,
     /// What the actuator applied of the previous command (read only when
@@ -363,14 +361,25 @@ pub const fn result_status(r: EkcStepResult) -> u16 {
     (r >> EKC_RESULT_STATUS_SHIFT) as u16
 }
 
-/// Inputs of one `ekc_slim_step_with` or `ekc_slim_track` (raw 16-bit).
+/// No optional inputs: what `ekc_step` passes to `ekc_step_with`.
+pub const EKC_NO_EXTRA: EkcExtra = EkcExtra {
+    feed_forward: 0,
+    applied: 0,
+    has_applied: 0,
+};
+
+/// No optional inputs: what `ekc_slim_step` passes to `ekc_slim_step_with`.
+pub const EKC_SLIM_NO_EXTRA: EkcSlimExtra = EkcSlimExtra {
+    feed_forward: 0,
+    applied: 0,
+    has_applied: 0,
+};
+
+/// The optional inputs of one `ekc_slim_step_with` or `ekc_slim_track`
+/// (raw 16-bit); see `EkcExtra`.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub struct EkcSlimInput {
-    /// Setpoint r.
-    pub setpoint: i16,
-    /// Measurement y.
-    pub measurement: i16,
+pub struct EkcSlimExtra {
     /// Feed-forward added before the limits (0 if unused).
     pub feed_forward: i16,
     /// What the actuator applied of the previous command (read only when
@@ -380,25 +389,35 @@ pub struct EkcSlimInput {
     pub has_applied: u8,
 }
 
-/// The controller's input of a Q16.16 C input.
-pub(crate) fn fixed_input(i: &EkcInput) -> evenkeel::Input<I16F16> {
+/// The controller's input of a Q16.16 step.
+#[inline(always)]
+pub(crate) fn fixed_input(
+    setpoint: i32,
+    measurement: i32,
+    e: &EkcExtra,
+) -> evenkeel::Input<I16F16> {
     let q = I16F16::from_bits;
     let input =
-        evenkeel::Input::new(q(i.setpoint), q(i.measurement)).with_feed_forward(q(i.feed_forward));
-    if i.has_applied != 0 {
-        input.with_applied(q(i.applied))
+        evenkeel::Input::new(q(setpoint), q(measurement)).with_feed_forward(q(e.feed_forward));
+    if e.has_applied != 0 {
+        input.with_applied(q(e.applied))
     } else {
         input
     }
 }
 
-/// The controller's input of a 16-bit C input.
-pub(crate) fn slim_input(i: &EkcSlimInput) -> evenkeel::Input<Slim16> {
+/// The controller's input of a 16-bit step.
+#[inline(always)]
+pub(crate) fn slim_input(
+    setpoint: i16,
+    measurement: i16,
+    e: &EkcSlimExtra,
+) -> evenkeel::Input<Slim16> {
     let q = Slim16::from_raw;
     let input =
-        evenkeel::Input::new(q(i.setpoint), q(i.measurement)).with_feed_forward(q(i.feed_forward));
-    if i.has_applied != 0 {
-        input.with_applied(q(i.applied))
+        evenkeel::Input::new(q(setpoint), q(measurement)).with_feed_forward(q(e.feed_forward));
+    if e.has_applied != 0 {
+        input.with_applied(q(e.applied))
     } else {
         input
     }

@@ -154,14 +154,14 @@ static void slew_limit(void) {
 static void engage_and_track(void) {
     EkcSettings s = settings(0.1, 1.0, 1.0, 0.0, 10.0);
     Out out;
-    EkcInput in = { 3 * EKC_ONE, 2 * EKC_ONE, 0, 0, 0 };
+    EkcExtra none = EKC_NO_EXTRA;
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
     CHECK_EQ(ekc_engage(&pi, 425984), EKC_OK);
     out = unpack(ekc_step(&pi, 3 * EKC_ONE, 2 * EKC_ONE));
     CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 425984);
     CHECK_EQ(out.status, EKC_STATUS_ENGAGED);
-    out = unpack(ekc_track(&pi, &in, 2 * EKC_ONE));
+    out = unpack(ekc_track(&pi, 3 * EKC_ONE, 2 * EKC_ONE, &none, 2 * EKC_ONE));
     CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 2 * EKC_ONE);
     CHECK(out.status & EKC_STATUS_TRACKING);
@@ -173,11 +173,11 @@ static void engage_and_track(void) {
 static void range_and_feed_forward(void) {
     EkcSettings s = settings(0.1, 1.0, 0.0, -1.0, 1.0);
     Out out;
-    EkcInput in = { 501 * EKC_ONE, 600 * EKC_ONE, 16384, 0, 0 };
+    EkcExtra extra = { 16384, 0, 0 };
     s.measurement_min = 0.0;
     s.measurement_max = 500.0;
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
-    out = unpack(ekc_step_with(&pi, &in));
+    out = unpack(ekc_step_with(&pi, 501 * EKC_ONE, 600 * EKC_ONE, &extra));
     CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 16384);
     CHECK_EQ(out.status, EKC_STATUS_MEASUREMENT_RANGE | EKC_STATUS_SETPOINT_RANGE);
@@ -235,6 +235,12 @@ static void slim_loop(void) {
     out = unpack_slim(ekc_slim_step(&slim, 3, 0));
     CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 2);
+    /* -3 raw: -1.5 -> -1, through the packed result's sign extension. */
+    out = unpack_slim(ekc_slim_step(&slim, -3, 0));
+    CHECK_EQ(out.code, EKC_OK);
+    CHECK_EQ(out.command, -1);
+    out = unpack_slim(ekc_slim_step(&slim, 3, 0));
+    CHECK_EQ(out.command, 2);
     CHECK_EQ(ekc_slim_last_command(&slim, &value), EKC_OK);
     CHECK_EQ(value, 2);
     CHECK_EQ(ekc_slim_compute(&s, &c), EKC_OK);
@@ -251,7 +257,7 @@ static void slim_loop(void) {
 static void call_errors(void) {
     EkcSettings s = settings(0.01, 1.0, 1.0, -1.0, 1.0);
     Out out;
-    EkcInput in = { 0, 0, 0, 0, 0 };
+    EkcExtra extra = { 0, 0, 0 };
     int32_t value;
     alignas(8) unsigned char raw[sizeof(EkcLoop) + 8];
     EkcLoop *misaligned = (EkcLoop *)(raw + 4);
@@ -262,18 +268,18 @@ static void call_errors(void) {
     CHECK_EQ(out.code, EKC_ERR_UNCONFIGURED);
     CHECK_EQ(out.command, 0);
     CHECK_EQ(out.status, 0);
-    CHECK_EQ(ekc_result_code(ekc_step_with(&never_configured, &in)), EKC_ERR_UNCONFIGURED);
+    CHECK_EQ(ekc_result_code(ekc_step_with(&never_configured, 0, 0, &extra)), EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_engage(&never_configured, 0), EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_reset(&never_configured), EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_integral(&never_configured, &value), EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
     CHECK_EQ(ekc_result_code(ekc_step(NULL, 0, 0)), EKC_ERR_NULL);
     CHECK_EQ(ekc_result_code(ekc_step(misaligned, 0, 0)), EKC_ERR_MISALIGNED);
-    CHECK_EQ(ekc_result_code(ekc_step_with(misaligned, &in)), EKC_ERR_MISALIGNED);
-    CHECK_EQ(ekc_result_code(ekc_step_with(NULL, (const EkcInput *)(raw + 2))), EKC_ERR_MISALIGNED);
-    CHECK_EQ(ekc_result_code(ekc_track(&pi, NULL, 0)), EKC_ERR_NULL);
-    CHECK_EQ(ekc_result_code(ekc_step_with(&pi, NULL)), EKC_ERR_NULL);
-    CHECK_EQ(ekc_step_with(NULL, NULL), ekc_step_with(&pi, NULL)); /* code alone, command and status 0 */
+    CHECK_EQ(ekc_result_code(ekc_step_with(misaligned, 0, 0, &extra)), EKC_ERR_MISALIGNED);
+    CHECK_EQ(ekc_result_code(ekc_step_with(NULL, 0, 0, (const EkcExtra *)(raw + 2))), EKC_ERR_MISALIGNED);
+    CHECK_EQ(ekc_result_code(ekc_track(&pi, 0, 0, NULL, 0)), EKC_ERR_NULL);
+    CHECK_EQ(ekc_result_code(ekc_step_with(&pi, 0, 0, NULL)), EKC_ERR_NULL);
+    CHECK_EQ(ekc_step_with(NULL, 0, 0, NULL), ekc_step_with(&pi, 0, 0, NULL)); /* code alone, command and status 0 */
     CHECK_EQ(ekc_last_command(&pi, NULL), EKC_ERR_NULL);
     CHECK_EQ(ekc_settings_init(NULL, 1, 1, 1, 0, 1), EKC_ERR_NULL);
     CHECK_EQ(ekc_compute(&s, NULL), EKC_ERR_NULL);
