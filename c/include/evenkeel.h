@@ -11,7 +11,8 @@
  * storage aligned as declared (EKC_LOOP_ALIGN, EKC_SLIM_LOOP_ALIGN; a
  * static or automatic EkcLoop is); storage is zeroed (a static is) or
  * configured before any other call. Every function checks its pointers and
- * returns an EkcCode; none allocates, blocks or panics.
+ * returns an EkcCode (a step function returns it inside an EkcStepResult,
+ * with the command and the status); none allocates, blocks or panics.
  */
 
 #ifndef EVENKEEL_H
