@@ -148,11 +148,16 @@ static Step read_step(Cursor *c, const Step *prev) {
 static EkcLoop pi;
 static EkcSlimLoop slim;
 
+/* The result of a step refused with `code` (as the library packs it). */
+static EkcStepResult refused(EkcCode code) {
+    return (EkcStepResult)(uint16_t)code << EKC_RESULT_CODE_SHIFT;
+}
+
 /* One step through the C interface, exactly as boards/replay/src/replay.rs
- * does it through the Rust one. Returns EKC_OK or the call's error. */
-static EkcCode apply(unsigned scenario, const Step *s, EkcOutput *out) {
-    EkcInput in = { s->setpoint, s->measurement, s->feed_forward, s->applied,
-                    (uint8_t)(s->has_applied ? 1 : 0) };
+ * does it through the Rust one. Returns the step's result, or an error
+ * code alone (ekc_result_code) if an operation before it failed. */
+static EkcStepResult apply(unsigned scenario, const Step *s) {
+    EkcExtra extra = { s->feed_forward, s->applied, (uint8_t)(s->has_applied ? 1 : 0) };
     int plain = s->feed_forward == 0 && !s->has_applied;
     EkcCode code = EKC_OK;
     switch (s->op) {
@@ -160,13 +165,13 @@ static EkcCode apply(unsigned scenario, const Step *s, EkcOutput *out) {
         code = ekc_engage(&pi, s->actuator);
         break;
     case OP_TRACK:
-        return ekc_track(&pi, &in, s->actuator, out);
+        return ekc_track(&pi, s->setpoint, s->measurement, &extra, s->actuator);
     case OP_RESET:
         code = ekc_reset(&pi);
         break;
     case OP_RETUNE:
         if (s->gain_index >= golden_gain_counts[scenario]) {
-            return EKC_ERR_CONFIG_OTHER;
+            return refused(EKC_ERR_CONFIG_OTHER);
         }
         code = ekc_retune_gains(&pi, golden_gains[scenario][s->gain_index].kp,
                                 golden_gains[scenario][s->gain_index].ki_ts);
@@ -175,17 +180,18 @@ static EkcCode apply(unsigned scenario, const Step *s, EkcOutput *out) {
         break;
     }
     if (code != EKC_OK) {
-        return code;
+        return refused(code);
     }
-    return plain ? ekc_step(&pi, s->setpoint, s->measurement, out)
-                 : ekc_step_with(&pi, &in, out);
+    return plain ? ekc_step(&pi, s->setpoint, s->measurement)
+                 : ekc_step_with(&pi, s->setpoint, s->measurement, &extra);
 }
 
 /* One step of the 16-bit set through the 16-bit C interface; the signals
  * were checked to fit 16 bits. */
-static EkcCode apply_slim(unsigned scenario, const Step *s, EkcSlimOutput *out) {
-    EkcSlimInput in = { (int16_t)s->setpoint, (int16_t)s->measurement, (int16_t)s->feed_forward,
-                        (int16_t)s->applied, (uint8_t)(s->has_applied ? 1 : 0) };
+static EkcStepResult apply_slim(unsigned scenario, const Step *s) {
+    int16_t setpoint = (int16_t)s->setpoint, measurement = (int16_t)s->measurement;
+    EkcSlimExtra extra = { (int16_t)s->feed_forward, (int16_t)s->applied,
+                           (uint8_t)(s->has_applied ? 1 : 0) };
     int plain = s->feed_forward == 0 && !s->has_applied;
     EkcCode code = EKC_OK;
     switch (s->op) {
@@ -193,13 +199,13 @@ static EkcCode apply_slim(unsigned scenario, const Step *s, EkcSlimOutput *out) 
         code = ekc_slim_engage(&slim, (int16_t)s->actuator);
         break;
     case OP_TRACK:
-        return ekc_slim_track(&slim, &in, (int16_t)s->actuator, out);
+        return ekc_slim_track(&slim, setpoint, measurement, &extra, (int16_t)s->actuator);
     case OP_RESET:
         code = ekc_slim_reset(&slim);
         break;
     case OP_RETUNE:
         if (s->gain_index >= slim_gain_counts[scenario]) {
-            return EKC_ERR_CONFIG_OTHER;
+            return refused(EKC_ERR_CONFIG_OTHER);
         }
         code = ekc_slim_retune_gains(&slim, slim_gains[scenario][s->gain_index].kp,
                                      slim_gains[scenario][s->gain_index].ki_ts);
@@ -208,10 +214,10 @@ static EkcCode apply_slim(unsigned scenario, const Step *s, EkcSlimOutput *out) 
         break;
     }
     if (code != EKC_OK) {
-        return code;
+        return refused(code);
     }
-    return plain ? ekc_slim_step(&slim, in.setpoint, in.measurement, out)
-                 : ekc_slim_step_with(&slim, &in, out);
+    return plain ? ekc_slim_step(&slim, setpoint, measurement)
+                 : ekc_slim_step_with(&slim, setpoint, measurement, &extra);
 }
 
 static int fits_16(int32_t v) { return v >= -32768 && v <= 32767; }
@@ -293,15 +299,15 @@ static int replay_set(const Set *set, unsigned long *steps_out, unsigned long *m
                 return 1;
             }
             if (slim16) {
-                EkcSlimOutput out = { 0, 0 };
-                code = apply_slim(i, &step, &out);
-                command = out.command;
-                status = out.status;
+                EkcStepResult r = apply_slim(i, &step);
+                code = ekc_result_code(r);
+                command = ekc_slim_result_command(r);
+                status = ekc_result_status(r);
             } else {
-                EkcOutput out = { 0, 0 };
-                code = apply(i, &step, &out);
-                command = out.command;
-                status = out.status;
+                EkcStepResult r = apply(i, &step);
+                code = ekc_result_code(r);
+                command = ekc_result_command(r);
+                status = ekc_result_status(r);
             }
             if (code != EKC_OK) {
                 printf("replay: ERROR %s step %u: code %ld\n", set->names[i], k, (long)code);
@@ -350,12 +356,11 @@ static const Set slim_set = { "slim16", slim_vectors, SLIM_LEN, 3, SLIM_SCENARIO
 
 static inline uint32_t ticks(void) { return ~SYST_CVR & 0x00ffffffu; }
 
-/* A compiler barrier (GCC): memory written before it (the input struct)
- * is written before it, and memory read after it (the output) is read
- * after it, so the timed window holds the call, its argument registers and
- * the return, as in cost.rs, and not the filling of the input struct
- * (which GCC otherwise moves past the first counter read: measured, up to
- * 7 instructions). */
+/* A compiler barrier (GCC): memory written before it (the extra inputs)
+ * is written before it, so the timed window holds the call, its argument
+ * registers and the return, as in cost.rs, and not the filling of the
+ * struct (which GCC otherwise moves past the first counter read:
+ * measured, up to 7 instructions). The result comes back in registers. */
 #define BARRIER() __asm__ volatile("" ::: "memory")
 
 typedef struct Cost {
@@ -405,18 +410,18 @@ static int time_full(void) {
     if (ekc_load(&pi, &cost_full) != EKC_OK) return 1;
     cost_start(&c);
     for (k = 0; k < COST_STEPS; k++) {
-        EkcInput in = { setpoint_of(k), y, q_int(1), applied, 1 };
-        EkcOutput out;
+        int32_t setpoint = setpoint_of(k);
+        EkcExtra extra = { q_int(1), applied, 1 };
+        EkcStepResult r;
         uint32_t a, b;
-        EkcCode code;
         BARRIER();
         a = ticks();
-        code = ekc_step_with(&pi, &in, &out);
+        r = ekc_step_with(&pi, setpoint, y, &extra);
         b = ticks();
         BARRIER();
-        if (code != EKC_OK) return 1;
+        if (ekc_result_code(r) != EKC_OK) return 1;
         cost_add(&c, a, b);
-        applied = out.command > q_int(8) ? q_int(8) : out.command;
+        applied = ekc_result_command(r) > q_int(8) ? q_int(8) : ekc_result_command(r);
         y = plant(y, applied);
     }
     print_cost("c full", &c);
@@ -430,18 +435,17 @@ static int time_minimal(void) {
     if (ekc_load(&pi, &cost_minimal) != EKC_OK) return 1;
     cost_start(&c);
     for (k = 0; k < COST_STEPS; k++) {
-        int32_t r = setpoint_of(k);
-        EkcOutput out;
+        int32_t setpoint = setpoint_of(k);
+        EkcStepResult r;
         uint32_t a, b;
-        EkcCode code;
         BARRIER();
         a = ticks();
-        code = ekc_step(&pi, r, y, &out);
+        r = ekc_step(&pi, setpoint, y);
         b = ticks();
         BARRIER();
-        if (code != EKC_OK) return 1;
+        if (ekc_result_code(r) != EKC_OK) return 1;
         cost_add(&c, a, b);
-        y = plant(y, out.command);
+        y = plant(y, ekc_result_command(r));
     }
     print_cost("c minimal", &c);
     return 0;
@@ -465,18 +469,18 @@ static int time_slim_full(void) {
     if (ekc_slim_load(&slim, &cost_slim_full) != EKC_OK) return 1;
     cost_start(&c);
     for (k = 0; k < COST_STEPS; k++) {
-        EkcSlimInput in = { slim_setpoint_of(k), y, s_int(1), applied, 1 };
-        EkcSlimOutput out;
+        int16_t setpoint = slim_setpoint_of(k);
+        EkcSlimExtra extra = { s_int(1), applied, 1 };
+        EkcStepResult r;
         uint32_t a, b;
-        EkcCode code;
         BARRIER();
         a = ticks();
-        code = ekc_slim_step_with(&slim, &in, &out);
+        r = ekc_slim_step_with(&slim, setpoint, y, &extra);
         b = ticks();
         BARRIER();
-        if (code != EKC_OK) return 1;
+        if (ekc_result_code(r) != EKC_OK) return 1;
         cost_add(&c, a, b);
-        applied = out.command > s_int(8) ? s_int(8) : out.command;
+        applied = ekc_slim_result_command(r) > s_int(8) ? s_int(8) : ekc_slim_result_command(r);
         y = slim_plant(y, applied);
     }
     print_cost("c slim16 full", &c);
@@ -490,18 +494,17 @@ static int time_slim_minimal(void) {
     if (ekc_slim_load(&slim, &cost_slim_minimal) != EKC_OK) return 1;
     cost_start(&c);
     for (k = 0; k < COST_STEPS; k++) {
-        int16_t r = slim_setpoint_of(k);
-        EkcSlimOutput out;
+        int16_t setpoint = slim_setpoint_of(k);
+        EkcStepResult r;
         uint32_t a, b;
-        EkcCode code;
         BARRIER();
         a = ticks();
-        code = ekc_slim_step(&slim, r, y, &out);
+        r = ekc_slim_step(&slim, setpoint, y);
         b = ticks();
         BARRIER();
-        if (code != EKC_OK) return 1;
+        if (ekc_result_code(r) != EKC_OK) return 1;
         cost_add(&c, a, b);
-        y = slim_plant(y, out.command);
+        y = slim_plant(y, ekc_slim_result_command(r));
     }
     print_cost("c slim16 minimal", &c);
     return 0;

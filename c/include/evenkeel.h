@@ -11,7 +11,8 @@
  * storage aligned as declared (EKC_LOOP_ALIGN, EKC_SLIM_LOOP_ALIGN; a
  * static or automatic EkcLoop is); storage is zeroed (a static is) or
  * configured before any other call. Every function checks its pointers and
- * returns an EkcCode; none allocates, blocks or panics.
+ * returns an EkcCode (a step function returns it inside an EkcStepResult,
+ * with the command and the status); none allocates, blocks or panics.
  */
 
 #ifndef EVENKEEL_H
@@ -166,6 +167,16 @@
  * clamped.
  */
 #define EKC_STATUS_SETPOINT_RANGE (1 << 10)
+
+/**
+ * Bit position of the status in an `EkcStepResult`.
+ */
+#define EKC_RESULT_STATUS_SHIFT 32
+
+/**
+ * Bit position of the code in an `EkcStepResult`.
+ */
+#define EKC_RESULT_CODE_SHIFT 48
 
 /**
  * A result code: `EKC_OK`, an `EKC_ERR_…` call error, or a configuration
@@ -354,31 +365,24 @@ typedef struct EKC_ALIGNED(8) EkcLoop {
 } EkcLoop;
 
 /**
- * Result of one step (Q16.16 bits).
+ * What a step returns (`ekc_step`, `ekc_step_with`, `ekc_track` and
+ * their 16-bit twins): code, status and command packed in one 64-bit
+ * integer, which the Arm calling convention returns in r0:r1 (no
+ * out-pointer to check and write). Bits 0 to 31: the command, an
+ * `int32_t` (an `EkcSlimLoop`'s `int16_t` command sign-extended); bits
+ * 32 to 47: the `EKC_STATUS_…` bits; bits 48 to 63: the `EkcCode`
+ * (every code fits 16 bits). A refused step has command and status 0.
+ * Read it with `ekc_result_code`, `ekc_result_command` (or
+ * `ekc_slim_result_command`) and `ekc_result_status`.
  */
-typedef struct EkcOutput {
-  /**
-   * The command, always within the output limits.
-   */
-  int32_t command;
-  /**
-   * `EKC_STATUS_…` bits: what acted during the step.
-   */
-  uint16_t status;
-} EkcOutput;
+typedef uint64_t EkcStepResult;
 
 /**
- * Inputs of one `ekc_step_with` or `ekc_track` (Q16.16 bits).
+ * The optional inputs of one `ekc_step_with` or `ekc_track` (Q16.16
+ * bits); setpoint and measurement are arguments of their own.
+ * `EKC_NO_EXTRA` is the one with none of them.
  */
-typedef struct EkcInput {
-  /**
-   * Setpoint r.
-   */
-  int32_t setpoint;
-  /**
-   * Measurement y.
-   */
-  int32_t measurement;
+typedef struct EkcExtra {
   /**
    * Feed-forward added before the limits (0 if unused).
    */
@@ -392,7 +396,7 @@ typedef struct EkcInput {
    * Non-zero: `applied` is known.
    */
   uint8_t has_applied;
-} EkcInput;
+} EkcExtra;
 
 /**
  * Storage for one 16-bit controller (`int16_t` signals); see `EkcLoop`.
@@ -405,31 +409,10 @@ typedef struct EKC_ALIGNED(4) EkcSlimLoop {
 } EkcSlimLoop;
 
 /**
- * Result of one 16-bit step.
+ * The optional inputs of one `ekc_slim_step_with` or `ekc_slim_track`
+ * (raw 16-bit); see `EkcExtra`.
  */
-typedef struct EkcSlimOutput {
-  /**
-   * The command, always within the output limits.
-   */
-  int16_t command;
-  /**
-   * `EKC_STATUS_…` bits: what acted during the step.
-   */
-  uint16_t status;
-} EkcSlimOutput;
-
-/**
- * Inputs of one `ekc_slim_step_with` or `ekc_slim_track` (raw 16-bit).
- */
-typedef struct EkcSlimInput {
-  /**
-   * Setpoint r.
-   */
-  int16_t setpoint;
-  /**
-   * Measurement y.
-   */
-  int16_t measurement;
+typedef struct EkcSlimExtra {
   /**
    * Feed-forward added before the limits (0 if unused).
    */
@@ -443,7 +426,7 @@ typedef struct EkcSlimInput {
    * Non-zero: `applied` is known.
    */
   uint8_t has_applied;
-} EkcSlimInput;
+} EkcSlimExtra;
 
 /**
  * Success.
@@ -629,6 +612,16 @@ typedef struct EkcSlimInput {
  */
 #define EKC_SETTING_COMMAND_SCALE 16
 
+/**
+ * No optional inputs: what `ekc_step` passes to `ekc_step_with`.
+ */
+#define EKC_NO_EXTRA (EkcExtra){ .feed_forward = 0, .applied = 0, .has_applied = 0 }
+
+/**
+ * No optional inputs: what `ekc_slim_step` passes to `ekc_slim_step_with`.
+ */
+#define EKC_SLIM_NO_EXTRA (EkcSlimExtra){ .feed_forward = 0, .applied = 0, .has_applied = 0 }
+
 #ifdef __cplusplus
 extern "C" {
 #endif // __cplusplus
@@ -698,8 +691,12 @@ EkcCode ekc_configure(struct EkcLoop *pi, const struct EkcSettings *settings);
 EkcCode ekc_load(struct EkcLoop *pi, const struct EkcCoefficients *coefficients);
 
 /**
- * One control step with setpoint and measurement (Q16.16 bits (value · EKC_ONE)); the
- * command and status go to `*out`. On error nothing changes.
+ * One control step with setpoint and measurement (Q16.16 bits (value · EKC_ONE)) alone:
+ * `ekc_step_with` with `EKC_NO_EXTRA` (no feed-forward, no applied value).
+ * Returns code, command and status in one `EkcStepResult`; on
+ * error (in this order: `pi` null `EKC_ERR_NULL`, misaligned
+ * `EKC_ERR_MISALIGNED`, never configured `EKC_ERR_UNCONFIGURED`) nothing
+ * changes.
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -707,11 +704,16 @@ EkcCode ekc_load(struct EkcLoop *pi, const struct EkcCoefficients *coefficients)
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcCode ekc_step(struct EkcLoop *pi, int32_t setpoint, int32_t measurement, struct EkcOutput *out);
+EkcStepResult ekc_step(struct EkcLoop *pi, int32_t setpoint, int32_t measurement);
 
 /**
- * One control step with feed-forward and, if known, the value the
- * actuator applied of the previous command.
+ * One control step with setpoint, measurement and the optional inputs
+ * in `*extra`: feed-forward and, if known, the value the actuator applied
+ * of the previous command. Returns code, command and status in one
+ * `EkcStepResult`. The checks, in this order (the first that fails
+ * gives the code, and nothing changes): `extra` null (`EKC_ERR_NULL`) or
+ * misaligned (`EKC_ERR_MISALIGNED`), `pi` null or misaligned, `pi` never
+ * configured (`EKC_ERR_UNCONFIGURED`).
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -719,7 +721,7 @@ EkcCode ekc_step(struct EkcLoop *pi, int32_t setpoint, int32_t measurement, stru
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcCode ekc_step_with(struct EkcLoop *pi, const struct EkcInput *input, struct EkcOutput *out);
+EkcStepResult ekc_step_with(struct EkcLoop *pi, int32_t setpoint, int32_t measurement, const struct EkcExtra *extra);
 
 /**
  * Take over bumplessly from `actuator` (the value another source drives):
@@ -736,7 +738,9 @@ EkcCode ekc_engage(struct EkcLoop *pi, int32_t actuator);
 /**
  * One step while another source drives the actuator at `actuator`: the
  * command follows it (clamped) and the integrator stays aligned, so a later
- * step continues without a bump.
+ * step continues without a bump. The result as of the step function
+ * (with `EKC_STATUS_TRACKING` set), its checks in the same order; a
+ * refused call does not engage.
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -744,7 +748,7 @@ EkcCode ekc_engage(struct EkcLoop *pi, int32_t actuator);
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcCode ekc_track(struct EkcLoop *pi, const struct EkcInput *input, int32_t actuator, struct EkcOutput *out);
+EkcStepResult ekc_track(struct EkcLoop *pi, int32_t setpoint, int32_t measurement, const struct EkcExtra *extra, int32_t actuator);
 
 /**
  * Replace the configuration bumplessly (the integrator absorbs the
@@ -843,8 +847,12 @@ EkcCode ekc_slim_configure(struct EkcSlimLoop *pi, const struct EkcSettings *set
 EkcCode ekc_slim_load(struct EkcSlimLoop *pi, const struct EkcCoefficients *coefficients);
 
 /**
- * One control step with setpoint and measurement (raw 16-bit values in the loop's scaling); the
- * command and status go to `*out`. On error nothing changes.
+ * One control step with setpoint and measurement (raw 16-bit values in the loop's scaling) alone:
+ * `ekc_slim_step_with` with `EKC_SLIM_NO_EXTRA` (no feed-forward, no applied value).
+ * Returns code, command and status in one `EkcStepResult` (command: `ekc_slim_result_command`); on
+ * error (in this order: `pi` null `EKC_ERR_NULL`, misaligned
+ * `EKC_ERR_MISALIGNED`, never configured `EKC_ERR_UNCONFIGURED`) nothing
+ * changes.
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -852,11 +860,16 @@ EkcCode ekc_slim_load(struct EkcSlimLoop *pi, const struct EkcCoefficients *coef
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcCode ekc_slim_step(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurement, struct EkcSlimOutput *out);
+EkcStepResult ekc_slim_step(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurement);
 
 /**
- * One control step with feed-forward and, if known, the value the
- * actuator applied of the previous command.
+ * One control step with setpoint, measurement and the optional inputs
+ * in `*extra`: feed-forward and, if known, the value the actuator applied
+ * of the previous command. Returns code, command and status in one
+ * `EkcStepResult` (command: `ekc_slim_result_command`). The checks, in this order (the first that fails
+ * gives the code, and nothing changes): `extra` null (`EKC_ERR_NULL`) or
+ * misaligned (`EKC_ERR_MISALIGNED`), `pi` null or misaligned, `pi` never
+ * configured (`EKC_ERR_UNCONFIGURED`).
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -864,7 +877,7 @@ EkcCode ekc_slim_step(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurem
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcCode ekc_slim_step_with(struct EkcSlimLoop *pi, const struct EkcSlimInput *input, struct EkcSlimOutput *out);
+EkcStepResult ekc_slim_step_with(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurement, const struct EkcSlimExtra *extra);
 
 /**
  * Take over bumplessly from `actuator` (the value another source drives):
@@ -881,7 +894,9 @@ EkcCode ekc_slim_engage(struct EkcSlimLoop *pi, int16_t actuator);
 /**
  * One step while another source drives the actuator at `actuator`: the
  * command follows it (clamped) and the integrator stays aligned, so a later
- * step continues without a bump.
+ * step continues without a bump. The result as of the step function
+ * (with `EKC_STATUS_TRACKING` set), its checks in the same order; a
+ * refused call does not engage.
  *
  * # Safety
  * Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -889,7 +904,7 @@ EkcCode ekc_slim_engage(struct EkcSlimLoop *pi, int16_t actuator);
  * of one call do not overlap, and loop storage was zeroed or configured
  * before (never left uninitialised).
  */
-EkcCode ekc_slim_track(struct EkcSlimLoop *pi, const struct EkcSlimInput *input, int16_t actuator, struct EkcSlimOutput *out);
+EkcStepResult ekc_slim_track(struct EkcSlimLoop *pi, int16_t setpoint, int16_t measurement, const struct EkcSlimExtra *extra, int16_t actuator);
 
 /**
  * Replace the configuration bumplessly (the integrator absorbs the
@@ -954,3 +969,40 @@ EkcCode ekc_slim_last_command(const struct EkcSlimLoop *pi, int16_t *out);
 #endif  // __cplusplus
 
 #endif  /* EVENKEEL_H */
+
+#ifndef EVENKEEL_H_RESULT
+#define EVENKEEL_H_RESULT
+
+/**
+ * The code of a step result: EKC_OK, or why the step was refused.
+ */
+static inline EkcCode ekc_result_code(EkcStepResult result) {
+  return (EkcCode)(result >> EKC_RESULT_CODE_SHIFT);
+}
+
+/**
+ * The command of an EkcLoop's step result (Q16.16 bits; 0 if refused).
+ * Bits 0 to 31 as an int32_t, written without a conversion that C leaves
+ * to the implementation (compilers make it a plain register move).
+ */
+static inline int32_t ekc_result_command(EkcStepResult result) {
+  uint32_t bits = (uint32_t)result;
+  return bits <= (uint32_t)INT32_MAX ? (int32_t)bits
+                                     : (int32_t)(bits - 0x80000000u) - INT32_MAX - 1;
+}
+
+/**
+ * The command of an EkcSlimLoop's step result (raw int16_t; 0 if refused).
+ */
+static inline int16_t ekc_slim_result_command(EkcStepResult result) {
+  return (int16_t)ekc_result_command(result);
+}
+
+/**
+ * The status bits of a step result (EKC_STATUS_…; 0 if refused).
+ */
+static inline uint16_t ekc_result_status(EkcStepResult result) {
+  return (uint16_t)(result >> EKC_RESULT_STATUS_SHIFT);
+}
+
+#endif  /* EVENKEEL_H_RESULT */

@@ -6,10 +6,10 @@ use evenkeel::fixed::types::I16F16;
 use evenkeel::{Backend, Config, ConfigError, Controller, FixedCoef, Input, Slim16, SlimCoef};
 
 use crate::codes::{self, EKC_OK, EkcCode};
-use crate::storage::{self, EkcLoop, EkcSlimLoop, Located, Out, Plain, Readable, Storage};
+use crate::storage::{self, EkcLoop, EkcSlimLoop, Out, Plain, Storage};
 use crate::types::{
-    self, EKC_FORMAT_Q16_16, EKC_FORMAT_SLIM16, EkcCoef, EkcCoefficients, EkcInput, EkcOutput,
-    EkcSettings, EkcSlimInput, EkcSlimOutput,
+    self, EKC_FORMAT_Q16_16, EKC_FORMAT_SLIM16, EKC_RESULT_STATUS_SHIFT, EKC_STATUS_TRACKING,
+    EkcCoef, EkcCoefficients, EkcExtra, EkcSettings, EkcSlimExtra, EkcStepResult,
 };
 
 /// What differs between the two storage types.
@@ -18,18 +18,16 @@ pub(crate) trait Engine: Storage {
     const FORMAT: u32;
     /// A raw signal in C.
     type Raw: Plain;
-    /// The C input struct.
-    type In: Plain;
-    /// The C output struct.
-    type Out: Plain + Default;
+    /// The C struct of the optional inputs.
+    type Extra: Plain + 'static;
     fn signal(raw: Self::Raw) -> Self::Backend;
-    /// The C input of setpoint and measurement alone (what `Input::new` is).
-    fn plain_input(setpoint: Self::Raw, measurement: Self::Raw) -> Self::In;
-    /// `o` with the `TRACKING` status bit set.
-    fn tracking(o: Self::Out) -> Self::Out;
+    /// No optional inputs (what `Input::new` leaves out): `EKC_NO_EXTRA`,
+    /// in read-only memory.
+    fn no_extra() -> &'static Self::Extra;
     fn raw(x: Self::Backend) -> Self::Raw;
-    fn input(i: &Self::In) -> Input<Self::Backend>;
-    fn output(o: evenkeel::Output<Self::Backend>) -> Self::Out;
+    fn input(setpoint: Self::Raw, measurement: Self::Raw, e: &Self::Extra) -> Input<Self::Backend>;
+    /// The step result of the controller's output.
+    fn result(o: evenkeel::Output<Self::Backend>) -> EkcStepResult;
     fn compute(s: &evenkeel::Settings) -> Result<Config<Self::Backend>, ConfigError>;
     fn from_parts(p: &evenkeel::ConfigParts) -> Result<Config<Self::Backend>, ConfigError>;
     fn to_parts(c: &Config<Self::Backend>) -> evenkeel::ConfigParts;
@@ -39,8 +37,7 @@ pub(crate) trait Engine: Storage {
 impl Engine for EkcLoop {
     const FORMAT: u32 = EKC_FORMAT_Q16_16;
     type Raw = i32;
-    type In = EkcInput;
-    type Out = EkcOutput;
+    type Extra = EkcExtra;
     #[inline(always)]
     fn signal(raw: i32) -> I16F16 {
         I16F16::from_bits(raw)
@@ -50,31 +47,17 @@ impl Engine for EkcLoop {
         x.to_bits()
     }
     #[inline(always)]
-    fn plain_input(setpoint: i32, measurement: i32) -> EkcInput {
-        EkcInput {
-            setpoint,
-            measurement,
-            feed_forward: 0,
-            applied: 0,
-            has_applied: 0,
-        }
-    }
-    fn tracking(o: EkcOutput) -> EkcOutput {
-        EkcOutput {
-            status: o.status | types::EKC_STATUS_TRACKING,
-            ..o
-        }
+    fn no_extra() -> &'static EkcExtra {
+        static NO_EXTRA: EkcExtra = types::EKC_NO_EXTRA;
+        &NO_EXTRA
     }
     #[inline(always)]
-    fn input(i: &EkcInput) -> Input<I16F16> {
-        types::fixed_input(i)
+    fn input(setpoint: i32, measurement: i32, e: &EkcExtra) -> Input<I16F16> {
+        types::fixed_input(setpoint, measurement, e)
     }
     #[inline(always)]
-    fn output(o: evenkeel::Output<I16F16>) -> EkcOutput {
-        EkcOutput {
-            command: o.command.to_bits(),
-            status: o.status.bits(),
-        }
+    fn result(o: evenkeel::Output<I16F16>) -> EkcStepResult {
+        types::step_result(o.command.to_bits(), o.status.bits())
     }
     fn compute(s: &evenkeel::Settings) -> Result<Config<I16F16>, ConfigError> {
         Config::try_new(s)
@@ -93,8 +76,7 @@ impl Engine for EkcLoop {
 impl Engine for EkcSlimLoop {
     const FORMAT: u32 = EKC_FORMAT_SLIM16;
     type Raw = i16;
-    type In = EkcSlimInput;
-    type Out = EkcSlimOutput;
+    type Extra = EkcSlimExtra;
     #[inline(always)]
     fn signal(raw: i16) -> Slim16 {
         Slim16::from_raw(raw)
@@ -104,31 +86,17 @@ impl Engine for EkcSlimLoop {
         x.raw()
     }
     #[inline(always)]
-    fn plain_input(setpoint: i16, measurement: i16) -> EkcSlimInput {
-        EkcSlimInput {
-            setpoint,
-            measurement,
-            feed_forward: 0,
-            applied: 0,
-            has_applied: 0,
-        }
-    }
-    fn tracking(o: EkcSlimOutput) -> EkcSlimOutput {
-        EkcSlimOutput {
-            status: o.status | types::EKC_STATUS_TRACKING,
-            ..o
-        }
+    fn no_extra() -> &'static EkcSlimExtra {
+        static NO_EXTRA: EkcSlimExtra = types::EKC_SLIM_NO_EXTRA;
+        &NO_EXTRA
     }
     #[inline(always)]
-    fn input(i: &EkcSlimInput) -> Input<Slim16> {
-        types::slim_input(i)
+    fn input(setpoint: i16, measurement: i16, e: &EkcSlimExtra) -> Input<Slim16> {
+        types::slim_input(setpoint, measurement, e)
     }
     #[inline(always)]
-    fn output(o: evenkeel::Output<Slim16>) -> EkcSlimOutput {
-        EkcSlimOutput {
-            command: o.command.raw(),
-            status: o.status.bits(),
-        }
+    fn result(o: evenkeel::Output<Slim16>) -> EkcStepResult {
+        types::step_result(i32::from(o.command.raw()), o.status.bits())
     }
     fn compute(s: &evenkeel::Settings) -> Result<Config<Slim16>, ConfigError> {
         Config::try_new(s)
@@ -203,75 +171,74 @@ pub(crate) fn retune_gains<E: Engine>(storage: *mut E, kp: EkcCoef, ki_ts: EkcCo
     done(result.and_then(|r| r))
 }
 
-/// The one control step of the C interface, behind `ekc_step`,
-/// `ekc_step_with` and `ekc_track` (and their 16-bit twins), once the
-/// pointers are checked: the tag test, then the only call of
-/// [`Controller::step_with`] in the crate, so the compiler inlines the step
-/// here and reads the C input's fields where the step needs them (no copy
-/// into an [`Input`] first). Out of line, so the step's code is in the
-/// firmware once; `ekc_step_with` reaches it with its arguments in place
-/// (a jump, not a call).
-#[inline(never)]
-fn checked_step<E: Engine>(
-    storage: Located<E>,
-    input: Readable<'_, E::In>,
-    out: Out<E::Out>,
-) -> EkcCode {
-    done(storage::with_step(storage, input, out, |pi, input, out| {
-        out.put(E::output(pi.step_with(&E::input(input))));
-    }))
+/// The signature of `ekc_step_with` and `ekc_slim_step_with`.
+pub(crate) type StepWith<E> = unsafe extern "C" fn(
+    *mut E,
+    <E as Engine>::Raw,
+    <E as Engine>::Raw,
+    *const <E as Engine>::Extra,
+) -> EkcStepResult;
+
+/// The one control step of the C interface (`ekc_step_with`, and its
+/// 16-bit twin): the checks of [`storage::with_step`], then the only call
+/// of [`Controller::step_with`] in the crate, so the compiler inlines the
+/// step into the exported function, with setpoint and measurement in
+/// registers and the optional inputs read where the step needs them.
+/// `ekc_step` and `ekc_track` call the exported function, so the step's
+/// code is in the firmware once.
+#[inline(always)]
+pub(crate) fn step_with<E: Engine>(
+    storage: *mut E,
+    setpoint: E::Raw,
+    measurement: E::Raw,
+    extra: *const E::Extra,
+) -> EkcStepResult {
+    match storage::with_step(storage, extra, |pi, extra| {
+        E::result(pi.step_with(&E::input(setpoint, measurement, extra)))
+    }) {
+        Ok(result) => result,
+        Err(code) => types::refused_result(code),
+    }
 }
 
+/// `ekc_step`: `entry` (`ekc_step_with` of the format) with
+/// `EKC_NO_EXTRA`, a constant in read-only memory: the arguments stay in
+/// their registers and the call is a jump.
 #[inline(always)]
 pub(crate) fn step<E: Engine>(
     storage: *mut E,
     setpoint: E::Raw,
     measurement: E::Raw,
-    out: *mut E::Out,
-) -> EkcCode {
-    let input = E::plain_input(setpoint, measurement);
-    match Out::new(out).and_then(|out| Ok((out, storage::locate(storage)?))) {
-        Ok((out, storage)) => checked_step(storage, Readable::local(&input), out),
-        Err(code) => code,
-    }
-}
-
-#[inline(always)]
-pub(crate) fn step_with<E: Engine>(
-    storage: *mut E,
-    input: *const E::In,
-    out: *mut E::Out,
-) -> EkcCode {
-    let checked =
-        Out::new(out).and_then(|out| Ok((out, Readable::new(input)?, storage::locate(storage)?)));
-    match checked {
-        Ok((out, input, storage)) => checked_step(storage, input, out),
-        Err(code) => code,
-    }
+    entry: StepWith<E>,
+) -> EkcStepResult {
+    storage::forward(entry, storage, setpoint, measurement, E::no_extra())
 }
 
 /// `Controller::track` (engage, then the step, flagged `TRACKING`),
-/// written out so that [`checked_step`] stays the only caller of the step.
+/// written out so that `entry` (`ekc_step_with` of the format) stays the
+/// only place of the step. Every check is made before the engage, in the
+/// order of the step's, so a refused call changes nothing.
 pub(crate) fn track<E: Engine>(
     storage: *mut E,
-    input: *const E::In,
+    setpoint: E::Raw,
+    measurement: E::Raw,
+    extra: *const E::Extra,
     actuator: E::Raw,
-    out: *mut E::Out,
-) -> EkcCode {
-    done((|| {
-        let out = Out::new(out)?;
-        let input = storage::read(input)?;
-        storage::with_mut(storage, |pi| pi.engage(E::signal(actuator)))?;
-        let mut o = E::Out::default();
-        let checked = storage::locate(storage)?;
-        match checked_step(checked, Readable::local(&input), Out::new(&mut o)?) {
-            EKC_OK => {
-                out.put(E::tracking(o));
-                Ok(())
-            }
-            code => Err(code),
+    entry: StepWith<E>,
+) -> EkcStepResult {
+    if let Err(code) = storage::with_step(storage, extra, |pi, _| {
+        pi.engage(E::signal(actuator));
+    }) {
+        return types::refused_result(code);
+    }
+    match storage::forward(entry, storage, setpoint, measurement, extra) {
+        // The same checks passed above, so the step runs; a refused
+        // result would keep its code alone all the same.
+        result if types::result_code(result) == EKC_OK => {
+            result | (u64::from(EKC_STATUS_TRACKING) << EKC_RESULT_STATUS_SHIFT)
         }
-    })())
+        refused => refused,
+    }
 }
 
 pub(crate) fn engage<E: Engine>(storage: *mut E, actuator: E::Raw) -> EkcCode {

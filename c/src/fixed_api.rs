@@ -4,7 +4,7 @@
 use crate::codes::EkcCode;
 use crate::engine;
 use crate::storage::EkcLoop;
-use crate::types::{EkcCoef, EkcCoefficients, EkcInput, EkcOutput, EkcSettings};
+use crate::types::{EkcCoef, EkcCoefficients, EkcExtra, EkcSettings, EkcStepResult};
 
 /// Compute the Q16.16 coefficients of `settings` into `*out` (`double`
 /// arithmetic: a host tool, or a core with a double-precision FPU). On
@@ -53,8 +53,12 @@ pub unsafe extern "C" fn ekc_load(
     engine::load::<EkcLoop>(pi, coefficients)
 }
 
-/// One control step with setpoint and measurement (Q16.16 bits (value · EKC_ONE)); the
-/// command and status go to `*out`. On error nothing changes.
+/// One control step with setpoint and measurement (Q16.16 bits (value · EKC_ONE)) alone:
+/// `ekc_step_with` with `EKC_NO_EXTRA` (no feed-forward, no applied value).
+/// Returns code, command and status in one `EkcStepResult`; on
+/// error (in this order: `pi` null `EKC_ERR_NULL`, misaligned
+/// `EKC_ERR_MISALIGNED`, never configured `EKC_ERR_UNCONFIGURED`) nothing
+/// changes.
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -66,13 +70,17 @@ pub unsafe extern "C" fn ekc_step(
     pi: *mut EkcLoop,
     setpoint: i32,
     measurement: i32,
-    out: *mut EkcOutput,
-) -> EkcCode {
-    engine::step::<EkcLoop>(pi, setpoint, measurement, out)
+) -> EkcStepResult {
+    engine::step::<EkcLoop>(pi, setpoint, measurement, ekc_step_with)
 }
 
-/// One control step with feed-forward and, if known, the value the
-/// actuator applied of the previous command.
+/// One control step with setpoint, measurement and the optional inputs
+/// in `*extra`: feed-forward and, if known, the value the actuator applied
+/// of the previous command. Returns code, command and status in one
+/// `EkcStepResult`. The checks, in this order (the first that fails
+/// gives the code, and nothing changes): `extra` null (`EKC_ERR_NULL`) or
+/// misaligned (`EKC_ERR_MISALIGNED`), `pi` null or misaligned, `pi` never
+/// configured (`EKC_ERR_UNCONFIGURED`).
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -82,10 +90,11 @@ pub unsafe extern "C" fn ekc_step(
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_step_with(
     pi: *mut EkcLoop,
-    input: *const EkcInput,
-    out: *mut EkcOutput,
-) -> EkcCode {
-    engine::step_with::<EkcLoop>(pi, input, out)
+    setpoint: i32,
+    measurement: i32,
+    extra: *const EkcExtra,
+) -> EkcStepResult {
+    engine::step_with::<EkcLoop>(pi, setpoint, measurement, extra)
 }
 
 /// Take over bumplessly from `actuator` (the value another source drives):
@@ -103,7 +112,9 @@ pub unsafe extern "C" fn ekc_engage(pi: *mut EkcLoop, actuator: i32) -> EkcCode 
 
 /// One step while another source drives the actuator at `actuator`: the
 /// command follows it (clamped) and the integrator stays aligned, so a later
-/// step continues without a bump.
+/// step continues without a bump. The result as of the step function
+/// (with `EKC_STATUS_TRACKING` set), its checks in the same order; a
+/// refused call does not engage.
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -113,11 +124,12 @@ pub unsafe extern "C" fn ekc_engage(pi: *mut EkcLoop, actuator: i32) -> EkcCode 
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_track(
     pi: *mut EkcLoop,
-    input: *const EkcInput,
+    setpoint: i32,
+    measurement: i32,
+    extra: *const EkcExtra,
     actuator: i32,
-    out: *mut EkcOutput,
-) -> EkcCode {
-    engine::track::<EkcLoop>(pi, input, actuator, out)
+) -> EkcStepResult {
+    engine::track::<EkcLoop>(pi, setpoint, measurement, extra, actuator, ekc_step_with)
 }
 
 /// Replace the configuration bumplessly (the integrator absorbs the

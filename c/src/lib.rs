@@ -5,8 +5,9 @@
 //! backend (`EkcLoop`, `int32_t` signals) and the 16-bit backend
 //! (`EkcSlimLoop`, `int16_t` signals). The C side owns the storage: a
 //! struct of published size and alignment that can be a `static`. Every
-//! function checks its pointers and returns an error code; nothing
-//! allocates or panics. The header `include/evenkeel.h` is generated from
+//! function checks its pointers and returns an error code (a step returns
+//! it packed with command and status in one `u64`, `EkcStepResult`);
+//! nothing allocates or panics. The header `include/evenkeel.h` is generated from
 //! this crate by cbindgen (a test fails when the committed one is stale).
 //!
 //! A configuration reaches the target in one of two ways: from physical

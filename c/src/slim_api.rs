@@ -4,7 +4,7 @@
 use crate::codes::EkcCode;
 use crate::engine;
 use crate::storage::EkcSlimLoop;
-use crate::types::{EkcCoef, EkcCoefficients, EkcSettings, EkcSlimInput, EkcSlimOutput};
+use crate::types::{EkcCoef, EkcCoefficients, EkcSettings, EkcSlimExtra, EkcStepResult};
 
 /// Compute the 16-bit coefficients of `settings` into `*out` (`double`
 /// arithmetic: a host tool, or a core with a double-precision FPU). On
@@ -56,8 +56,12 @@ pub unsafe extern "C" fn ekc_slim_load(
     engine::load::<EkcSlimLoop>(pi, coefficients)
 }
 
-/// One control step with setpoint and measurement (raw 16-bit values in the loop's scaling); the
-/// command and status go to `*out`. On error nothing changes.
+/// One control step with setpoint and measurement (raw 16-bit values in the loop's scaling) alone:
+/// `ekc_slim_step_with` with `EKC_SLIM_NO_EXTRA` (no feed-forward, no applied value).
+/// Returns code, command and status in one `EkcStepResult` (command: `ekc_slim_result_command`); on
+/// error (in this order: `pi` null `EKC_ERR_NULL`, misaligned
+/// `EKC_ERR_MISALIGNED`, never configured `EKC_ERR_UNCONFIGURED`) nothing
+/// changes.
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -69,13 +73,17 @@ pub unsafe extern "C" fn ekc_slim_step(
     pi: *mut EkcSlimLoop,
     setpoint: i16,
     measurement: i16,
-    out: *mut EkcSlimOutput,
-) -> EkcCode {
-    engine::step::<EkcSlimLoop>(pi, setpoint, measurement, out)
+) -> EkcStepResult {
+    engine::step::<EkcSlimLoop>(pi, setpoint, measurement, ekc_slim_step_with)
 }
 
-/// One control step with feed-forward and, if known, the value the
-/// actuator applied of the previous command.
+/// One control step with setpoint, measurement and the optional inputs
+/// in `*extra`: feed-forward and, if known, the value the actuator applied
+/// of the previous command. Returns code, command and status in one
+/// `EkcStepResult` (command: `ekc_slim_result_command`). The checks, in this order (the first that fails
+/// gives the code, and nothing changes): `extra` null (`EKC_ERR_NULL`) or
+/// misaligned (`EKC_ERR_MISALIGNED`), `pi` null or misaligned, `pi` never
+/// configured (`EKC_ERR_UNCONFIGURED`).
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -85,10 +93,11 @@ pub unsafe extern "C" fn ekc_slim_step(
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_step_with(
     pi: *mut EkcSlimLoop,
-    input: *const EkcSlimInput,
-    out: *mut EkcSlimOutput,
-) -> EkcCode {
-    engine::step_with::<EkcSlimLoop>(pi, input, out)
+    setpoint: i16,
+    measurement: i16,
+    extra: *const EkcSlimExtra,
+) -> EkcStepResult {
+    engine::step_with::<EkcSlimLoop>(pi, setpoint, measurement, extra)
 }
 
 /// Take over bumplessly from `actuator` (the value another source drives):
@@ -106,7 +115,9 @@ pub unsafe extern "C" fn ekc_slim_engage(pi: *mut EkcSlimLoop, actuator: i16) ->
 
 /// One step while another source drives the actuator at `actuator`: the
 /// command follows it (clamped) and the integrator stays aligned, so a later
-/// step continues without a bump.
+/// step continues without a bump. The result as of the step function
+/// (with `EKC_STATUS_TRACKING` set), its checks in the same order; a
+/// refused call does not engage.
 ///
 /// # Safety
 /// Every pointer is null (refused with `EKC_ERR_NULL`) or points to a whole
@@ -116,11 +127,19 @@ pub unsafe extern "C" fn ekc_slim_engage(pi: *mut EkcSlimLoop, actuator: i16) ->
 #[unsafe(no_mangle)]
 pub unsafe extern "C" fn ekc_slim_track(
     pi: *mut EkcSlimLoop,
-    input: *const EkcSlimInput,
+    setpoint: i16,
+    measurement: i16,
+    extra: *const EkcSlimExtra,
     actuator: i16,
-    out: *mut EkcSlimOutput,
-) -> EkcCode {
-    engine::track::<EkcSlimLoop>(pi, input, actuator, out)
+) -> EkcStepResult {
+    engine::track::<EkcSlimLoop>(
+        pi,
+        setpoint,
+        measurement,
+        extra,
+        actuator,
+        ekc_slim_step_with,
+    )
 }
 
 /// Replace the configuration bumplessly (the integrator absorbs the

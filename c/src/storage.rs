@@ -10,16 +10,13 @@
 //! (a C `static`) is never taken for a controller.
 
 use core::ffi::c_char;
-use core::marker::PhantomData;
 use core::mem::{align_of, size_of};
 
 use evenkeel::fixed::types::I16F16;
 use evenkeel::{Backend, Controller, Slim16};
 
 use crate::codes::{EKC_ERR_MISALIGNED, EKC_ERR_NULL, EKC_ERR_UNCONFIGURED, EkcCode};
-use crate::types::{
-    EkcCoef, EkcCoefficients, EkcInput, EkcOutput, EkcSettings, EkcSlimInput, EkcSlimOutput,
-};
+use crate::types::{EkcCoef, EkcCoefficients, EkcExtra, EkcSettings, EkcSlimExtra};
 
 /// Bytes of an `EkcLoop`.
 pub const EKC_LOOP_SIZE: usize = 152;
@@ -60,20 +57,20 @@ pub(crate) struct Slot<B: Backend> {
 pub(crate) trait Storage {
     /// The controller's backend.
     type Backend: Backend;
-    /// The tag of a configured storage of this type (differs per type).
-    /// Four equal bytes: Armv7-M compares with such a constant in one
-    /// instruction (no constant to load first).
+    /// The tag of a configured storage of this type (differs per type;
+    /// zeroed storage has none). Below 256: Armv6-M and Armv7-M compare
+    /// with it as an 8-bit immediate, with no constant to load first.
     const TAG: u32;
 }
 
 impl Storage for EkcLoop {
     type Backend = I16F16;
-    const TAG: u32 = u32::from_le_bytes(*b"qqqq");
+    const TAG: u32 = b'q' as u32;
 }
 
 impl Storage for EkcSlimLoop {
     type Backend = Slim16;
-    const TAG: u32 = u32::from_le_bytes(*b"ssss");
+    const TAG: u32 = b's' as u32;
 }
 
 // The slot fits the published storage, and the storage's alignment is
@@ -169,65 +166,75 @@ pub(crate) fn with_ref<S: Storage, T>(
     Ok(f(controller))
 }
 
-/// A storage pointer checked non-null and aligned (not yet for its tag).
-pub(crate) struct Located<S: Storage>(*mut Slot<S::Backend>);
-
-/// `storage`, if non-null and aligned.
-#[inline(always)]
-pub(crate) fn locate<S: Storage>(storage: *mut S) -> Result<Located<S>, EkcCode> {
-    slot(storage).map(Located)
-}
-
-/// A pointer to a `T` that may be read for the whole call: a C pointer
-/// checked non-null and aligned (valid for the call: header contract), or
-/// a borrowed local (valid for `'a`).
-pub(crate) struct Readable<'a, T: Plain>(*const T, PhantomData<&'a T>);
-
-impl<T: Plain> Readable<'_, T> {
-    /// `p`, if non-null and aligned.
-    #[inline(always)]
-    pub(crate) fn new(p: *const T) -> Result<Self, EkcCode> {
-        checked(p).map(|()| Self(p, PhantomData))
-    }
-}
-
-impl<'a, T: Plain> Readable<'a, T> {
-    /// A local, borrowed for as long as this lives.
-    #[inline(always)]
-    pub(crate) fn local(value: &'a T) -> Self {
-        Self(value, PhantomData)
-    }
-}
-
-/// Run `f` on the controller in `storage`, if it was configured, with the
-/// input and the out-pointer of one step (all three checked by the
-/// caller: the types say so).
+/// Run `f` on the controller in `storage` and the optional inputs of one
+/// step, if every check passes: `extra` non-null and aligned, then
+/// `storage` non-null and aligned, then its tag. Otherwise the code of the
+/// first check that fails in that order ([`refused`]), and nothing runs.
 ///
-/// `input` is borrowed, not copied: the step reads each field where it
-/// needs it. C passes pointers of one call that do not overlap (header
-/// contract).
+/// The common path tests both pointers at once: two null tests, one
+/// alignment test for both, the tag. `extra` is borrowed, not copied: the
+/// step reads each field where it needs it. C passes pointers of one call
+/// that do not overlap (header contract).
 #[inline(always)]
-pub(crate) fn with_step<S: Storage, I: Plain, O: Plain, T>(
-    storage: Located<S>,
-    input: Readable<'_, I>,
-    out: Out<O>,
-    f: impl FnOnce(&mut Controller<S::Backend>, &I, Out<O>) -> T,
+pub(crate) fn with_step<S: Storage, X: Plain, T>(
+    storage: *mut S,
+    extra: *const X,
+    f: impl FnOnce(&mut Controller<S::Backend>, &X) -> T,
 ) -> Result<T, EkcCode> {
-    let slot = storage.0;
+    let (s, x) = (storage.addr(), extra.addr());
+    let aligned = s & (align_of::<S>() - 1) == 0 && x & (align_of::<X>() - 1) == 0;
+    if s == 0 || x == 0 || !aligned {
+        return Err(refused(storage, extra));
+    }
+    let slot = storage.cast::<Slot<S::Backend>>();
     if tag(slot) != S::TAG {
         return Err(EKC_ERR_UNCONFIGURED);
     }
-    // SAFETY: as in `with_mut` (non-null and aligned: `Located`; the tag
-    // says a whole valid controller is there). The reference does not
+    // SAFETY: as in `with_mut` (non-null and aligned: tested above; the
+    // tag says a whole valid controller is there). The reference does not
     // outlive this function.
     let controller = unsafe { &mut (*slot).controller };
-    // SAFETY: non-null and aligned (`Readable`): a C pointer to a whole
-    // `I` that nothing writes during the call and that overlaps neither the
-    // storage nor `out` (header contract), or a local that outlives the
-    // call; so no write of `f` reaches it while the reference lives (only
-    // during `f`). Any bit pattern is a valid `I` (`Plain`).
-    let input = unsafe { &*input.0 };
-    Ok(f(controller, input, out))
+    // SAFETY: non-null and aligned (tested above): a C pointer to a whole
+    // `X` that nothing writes during the call and that overlaps neither
+    // the storage nor anything `f` writes (header contract), or a constant
+    // of this crate; the reference lives only during `f`. Any bit pattern
+    // is a valid `X` (`Plain`).
+    let extra = unsafe { &*extra };
+    Ok(f(controller, extra))
+}
+
+/// Why [`with_step`] refused its pointers: the first failing check of
+/// extra null, extra misaligned, storage null, storage misaligned. Off
+/// the common path.
+#[cold]
+#[inline(never)]
+fn refused<S, X>(storage: *const S, extra: *const X) -> EkcCode {
+    match checked(extra).and_then(|()| checked(storage)) {
+        Err(code) => code,
+        // Not reached (`with_step` calls this only when a pointer test
+        // failed); the storage is then not to be read.
+        Ok(()) => EKC_ERR_UNCONFIGURED,
+    }
+}
+
+/// `entry(storage, setpoint, measurement, extra)`: the step function of a
+/// format called from another function of this crate (`ekc_step` with no
+/// extra inputs, `ekc_track` after the engage), so that the controller's
+/// step is compiled once, inside `entry`.
+#[inline(always)]
+pub(crate) fn forward<S, R: Copy, X, T>(
+    entry: unsafe extern "C" fn(*mut S, R, R, *const X) -> T,
+    storage: *mut S,
+    setpoint: R,
+    measurement: R,
+    extra: *const X,
+) -> T {
+    // SAFETY: `entry` is one of this crate's step functions, which check
+    // both pointers before any access and have the contract of the caller
+    // (an `ekc_` function): `storage` and `extra` are the caller's C
+    // arguments under that same contract, or `extra` is a constant of this
+    // crate (valid, aligned, read only).
+    unsafe { entry(storage, setpoint, measurement, extra) }
 }
 
 /// `Ok` if `p` is non-null and aligned.
@@ -250,10 +257,8 @@ impl Plain for i16 {}
 impl Plain for EkcSettings {}
 impl Plain for EkcCoefficients {}
 impl Plain for EkcCoef {}
-impl Plain for EkcInput {}
-impl Plain for EkcOutput {}
-impl Plain for EkcSlimInput {}
-impl Plain for EkcSlimOutput {}
+impl Plain for EkcExtra {}
+impl Plain for EkcSlimExtra {}
 
 /// A copy of the value C points to.
 pub(crate) fn read<T: Plain>(p: *const T) -> Result<T, EkcCode> {
@@ -328,7 +333,10 @@ mod tests {
         use crate::common_api::{ekc_code_text, ekc_settings_init};
         use crate::fixed_api::*;
         use crate::slim_api::{ekc_slim_configure, ekc_slim_step};
-        use crate::types::{EkcInput, EkcOutput, EkcSettings, EkcSlimOutput};
+        use crate::types::{
+            EKC_STATUS_CLAMP_HIGH, EKC_STATUS_TRACKING, EkcExtra, EkcSettings, result_code,
+            result_command, result_status,
+        };
         use core::mem::MaybeUninit;
 
         // SAFETY: (test) zeroed bytes are what a C static holds; every
@@ -336,12 +344,13 @@ mod tests {
         let mut pi: EkcLoop = unsafe { MaybeUninit::zeroed().assume_init() };
         // SAFETY: (test) as above.
         let mut settings: EkcSettings = unsafe { MaybeUninit::zeroed().assume_init() };
-        let mut out = EkcOutput::default();
         // SAFETY: (test) every pointer below is null, or points to a live
         // local of its type, or is the deliberately misaligned one (never
         // dereferenced: refused first).
         unsafe {
-            assert_eq!(ekc_step(&mut pi, 0, 0, &mut out), EKC_ERR_UNCONFIGURED);
+            let r = ekc_step(&mut pi, 0, 0);
+            assert_eq!(result_code(r), EKC_ERR_UNCONFIGURED);
+            assert_eq!((result_command(r), result_status(r)), (0, 0));
             assert_eq!(
                 ekc_settings_init(&mut settings, 0.01, 0.5, 0.0, -1.0, 1.0),
                 EKC_OK
@@ -351,25 +360,38 @@ mod tests {
                 EKC_ERR_NULL
             );
             assert_eq!(ekc_configure(&mut pi, &settings), EKC_OK);
-            assert_eq!(ekc_step(&mut pi, 3, 0, &mut out), EKC_OK);
-            assert_eq!((out.command, out.status), (2, 0)); // 0.5 · 3 LSB = 1.5 → 2
-            let input = EkcInput {
-                setpoint: 3,
-                measurement: 0,
+            let r = ekc_step(&mut pi, 3, 0);
+            assert_eq!(result_code(r), EKC_OK);
+            assert_eq!((result_command(r), result_status(r)), (2, 0)); // 0.5 · 3 LSB = 1.5 → 2
+            let r = ekc_step(&mut pi, -3, 0);
+            assert_eq!((result_code(r), result_command(r)), (EKC_OK, -1)); // −1.5 → −1
+            let extra = EkcExtra {
                 feed_forward: 0,
                 applied: 2,
                 has_applied: 1,
             };
-            assert_eq!(ekc_step_with(&mut pi, &input, &mut out), EKC_OK);
+            let r = ekc_step_with(&mut pi, 3, 0, &extra);
+            assert_eq!(result_code(r), EKC_OK);
             let mut value = 0;
             assert_eq!(ekc_last_command(&pi, &mut value), EKC_OK);
-            assert_eq!(value, out.command);
+            assert_eq!(value, result_command(r));
+            let r = ekc_track(&mut pi, 3, 0, &extra, 5);
+            assert_eq!(result_code(r), EKC_OK);
+            assert_ne!(result_status(r) & EKC_STATUS_TRACKING, 0);
             let misaligned = core::ptr::from_mut(&mut pi)
                 .cast::<u8>()
                 .wrapping_add(4)
                 .cast::<EkcLoop>();
             assert_eq!(ekc_reset(misaligned), EKC_ERR_MISALIGNED);
-            assert_eq!(ekc_step(&mut pi, 0, 0, core::ptr::null_mut()), EKC_ERR_NULL);
+            assert_eq!(result_code(ekc_step(misaligned, 0, 0)), EKC_ERR_MISALIGNED);
+            assert_eq!(
+                result_code(ekc_step(core::ptr::null_mut(), 0, 0)),
+                EKC_ERR_NULL
+            );
+            assert_eq!(
+                result_code(ekc_step_with(&mut pi, 3, 0, core::ptr::null())),
+                EKC_ERR_NULL
+            );
             let mut text = [0u8; 16];
             let n = ekc_code_text(EKC_ERR_NULL, text.as_mut_ptr().cast(), text.len());
             assert_eq!(&text[..15], &b"a pointer argument is null"[..15]);
@@ -377,18 +399,21 @@ mod tests {
             assert!(n > 16);
             // SAFETY: (test) as above.
             let mut slim: EkcSlimLoop = MaybeUninit::zeroed().assume_init();
-            let mut slim_out = EkcSlimOutput::default();
             assert_eq!(ekc_slim_configure(&mut slim, &settings), EKC_OK);
-            assert_eq!(ekc_slim_step(&mut slim, 3, 0, &mut slim_out), EKC_OK);
+            let r = ekc_slim_step(&mut slim, 3, 0);
+            assert_eq!(result_code(r), EKC_OK);
             // 0.5 · 3 = 1.5 raw, clamped to output_max = 1 raw (unit scale).
-            assert_eq!(slim_out.command, 1);
-            assert_ne!(slim_out.status & crate::types::EKC_STATUS_CLAMP_HIGH, 0);
+            assert_eq!(result_command(r), 1);
+            assert_ne!(result_status(r) & EKC_STATUS_CLAMP_HIGH, 0);
+            let r = ekc_slim_step(&mut slim, -30, 0);
+            // −15 raw, clamped to output_min = −1 raw: the sign survives the packing.
+            assert_eq!((result_code(r), result_command(r)), (EKC_OK, -1));
         }
     }
 
-    /// A step's arguments are checked in the order of every other function
-    /// (out, then input, then storage; null before misaligned; then the
-    /// tag), whatever else is wrong, and a refused step changes nothing.
+    /// A step's arguments are checked in the documented order (extra, then
+    /// storage; null before misaligned; then the tag), whatever else is
+    /// wrong, and a refused step changes nothing.
     #[test]
     #[allow(clippy::multiple_unsafe_ops_per_block)] // one contract for the whole sequence of calls
     fn step_checks_give_the_ordered_codes() {
@@ -397,7 +422,13 @@ mod tests {
         use crate::fixed_api::{
             ekc_configure, ekc_last_command, ekc_step, ekc_step_with, ekc_track,
         };
-        use crate::types::{EkcInput, EkcOutput, EkcSettings};
+        use crate::slim_api::{
+            ekc_slim_configure, ekc_slim_last_command, ekc_slim_step, ekc_slim_step_with,
+            ekc_slim_track,
+        };
+        use crate::types::{
+            EkcExtra, EkcSettings, EkcSlimExtra, EkcStepResult, refused_result, result_code,
+        };
         use core::mem::MaybeUninit;
 
         #[derive(Clone, Copy, Debug, PartialEq)]
@@ -423,69 +454,60 @@ mod tests {
                 Fine => None,
             }
         }
-        let io = [Null, Misaligned, Fine];
-        let mut checked = 0;
-        for storage_arg in [Null, Misaligned, Unconfigured, Fine] {
-            for input_arg in io {
-                for out_arg in io {
-                    // SAFETY: (test) zeroed bytes are what a C static holds.
-                    let mut pi: EkcLoop = unsafe { MaybeUninit::zeroed().assume_init() };
-                    // SAFETY: (test) as above.
-                    let mut settings: EkcSettings = unsafe { MaybeUninit::zeroed().assume_init() };
-                    let mut input = EkcInput {
-                        setpoint: 3 << 16,
-                        ..EkcInput::default()
-                    };
-                    let mut out = EkcOutput {
-                        command: 77,
-                        status: 77,
-                    };
-                    let want = code(out_arg)
-                        .or(code(input_arg))
-                        .or(code(storage_arg))
-                        .unwrap_or(EKC_OK);
-                    let want_plain = code(out_arg).or(code(storage_arg)).unwrap_or(EKC_OK);
-                    // SAFETY: (test) every pointer is null, a live local, or
-                    // the deliberately misaligned one (refused, never
-                    // dereferenced).
-                    unsafe {
-                        ekc_settings_init(&mut settings, 0.01, 1.0, 0.0, -10.0, 10.0);
-                        if storage_arg != Unconfigured {
-                            assert_eq!(ekc_configure(&mut pi, &settings), EKC_OK);
-                        }
-                        let p = ptr(&mut pi, storage_arg);
-                        let i = ptr(&mut input, input_arg);
-                        let o = ptr(&mut out, out_arg);
-                        assert_eq!(
-                            ekc_step_with(p, i, o),
-                            want,
-                            "{storage_arg:?} {input_arg:?} {out_arg:?}"
-                        );
-                        assert_eq!(
-                            ekc_track(p, i, 1 << 16, o),
-                            want,
-                            "track {storage_arg:?} {input_arg:?} {out_arg:?}"
-                        );
-                        assert_eq!(
-                            ekc_step(p, 3 << 16, 0, o),
-                            want_plain,
-                            "step {storage_arg:?} {out_arg:?}"
-                        );
-                        if storage_arg != Unconfigured {
-                            let mut last = -1;
-                            assert_eq!(ekc_last_command(&pi, &mut last), EKC_OK);
-                            // Kp · 3 = 3 once a step ran; 0 (at rest) if every call was refused.
-                            let ran = want == EKC_OK || want_plain == EKC_OK;
-                            assert_eq!(last != 0, ran, "{storage_arg:?} {input_arg:?} {out_arg:?}");
-                        }
-                    }
-                    if want != EKC_OK && want_plain != EKC_OK {
-                        assert_eq!((out.command, out.status), (77, 77));
-                    }
-                    checked += 1;
-                }
+        // A refused step returns its code and nothing else.
+        fn check(r: EkcStepResult, want: EkcCode, what: &str) {
+            assert_eq!(result_code(r), want, "{what}");
+            if want != EKC_OK {
+                assert_eq!(r, refused_result(want), "{what}");
             }
         }
-        assert_eq!(checked, 36);
+        let mut checked = 0;
+        for storage_arg in [Null, Misaligned, Unconfigured, Fine] {
+            for input_arg in [Null, Misaligned, Fine] {
+                let want = code(input_arg).or(code(storage_arg)).unwrap_or(EKC_OK);
+                let want_plain = code(storage_arg).unwrap_or(EKC_OK);
+                let case = std::format!("{storage_arg:?} {input_arg:?}");
+                // SAFETY: (test) zeroed bytes are what a C static holds.
+                let mut pi: EkcLoop = unsafe { MaybeUninit::zeroed().assume_init() };
+                // SAFETY: (test) as above.
+                let mut slim: EkcSlimLoop = unsafe { MaybeUninit::zeroed().assume_init() };
+                // SAFETY: (test) as above.
+                let mut settings: EkcSettings = unsafe { MaybeUninit::zeroed().assume_init() };
+                let mut extra = EkcExtra::default();
+                let mut slim_extra = EkcSlimExtra::default();
+                // SAFETY: (test) every pointer is null, a live local, or
+                // the deliberately misaligned one (refused, never
+                // dereferenced).
+                unsafe {
+                    ekc_settings_init(&mut settings, 0.01, 1.0, 0.0, -10.0, 10.0);
+                    if storage_arg != Unconfigured {
+                        assert_eq!(ekc_configure(&mut pi, &settings), EKC_OK);
+                        assert_eq!(ekc_slim_configure(&mut slim, &settings), EKC_OK);
+                    }
+                    let p = ptr(&mut pi, storage_arg);
+                    let x = ptr(&mut extra, input_arg);
+                    check(ekc_step_with(p, 3 << 16, 0, x), want, &case);
+                    check(ekc_track(p, 3 << 16, 0, x, 1 << 16), want, &case);
+                    check(ekc_step(p, 3 << 16, 0), want_plain, &case);
+                    let p = ptr(&mut slim, storage_arg);
+                    let x = ptr(&mut slim_extra, input_arg);
+                    check(ekc_slim_step_with(p, 3, 0, x), want, &case);
+                    check(ekc_slim_track(p, 3, 0, x, 1), want, &case);
+                    check(ekc_slim_step(p, 3, 0), want_plain, &case);
+                    if storage_arg != Unconfigured {
+                        // Kp · 3 = 3 once a step ran; 0 (at rest) if every call was refused.
+                        let ran = want == EKC_OK || want_plain == EKC_OK;
+                        let mut last = -1;
+                        assert_eq!(ekc_last_command(&pi, &mut last), EKC_OK);
+                        assert_eq!(last != 0, ran, "{case}");
+                        let mut last = -1;
+                        assert_eq!(ekc_slim_last_command(&slim, &mut last), EKC_OK);
+                        assert_eq!(last != 0, ran, "{case}");
+                    }
+                }
+                checked += 1;
+            }
+        }
+        assert_eq!(checked, 12);
     }
 }

@@ -295,14 +295,12 @@ impl EkcCoefficients {
     }
 }
 
-/// Inputs of one `ekc_step_with` or `ekc_track` (Q16.16 bits).
+/// The optional inputs of one `ekc_step_with` or `ekc_track` (Q16.16
+/// bits); setpoint and measurement are arguments of their own.
+/// `EKC_NO_EXTRA` is the one with none of them.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub struct EkcInput {
-    /// Setpoint r.
-    pub setpoint: i32,
-    /// Measurement y.
-    pub measurement: i32,
+pub struct EkcExtra {
     /// Feed-forward added before the limits (0 if unused).
     pub feed_forward: i32,
     /// What the actuator applied of the previous command (read only when
@@ -312,24 +310,76 @@ pub struct EkcInput {
     pub has_applied: u8,
 }
 
-/// Result of one step (Q16.16 bits).
-#[repr(C)]
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub struct EkcOutput {
-    /// The command, always within the output limits.
-    pub command: i32,
-    /// `EKC_STATUS_…` bits: what acted during the step.
-    pub status: u16,
+/// What a step returns (`ekc_step`, `ekc_step_with`, `ekc_track` and
+/// their 16-bit twins): code, status and command packed in one 64-bit
+/// integer, which the Arm calling convention returns in r0:r1 (no
+/// out-pointer to check and write). Bits 0 to 31: the command, an
+/// `int32_t` (an `EkcSlimLoop`'s `int16_t` command sign-extended); bits
+/// 32 to 47: the `EKC_STATUS_…` bits; bits 48 to 63: the `EkcCode`
+/// (every code fits 16 bits). A refused step has command and status 0.
+/// Read it with `ekc_result_code`, `ekc_result_command` (or
+/// `ekc_slim_result_command`) and `ekc_result_status`.
+pub type EkcStepResult = u64;
+
+/// Bit position of the status in an `EkcStepResult`.
+pub const EKC_RESULT_STATUS_SHIFT: u32 = 32;
+/// Bit position of the code in an `EkcStepResult`.
+pub const EKC_RESULT_CODE_SHIFT: u32 = 48;
+
+/// The result of a step that ran: `command` (the raw signal as an `i32`)
+/// and `status`, code `EKC_OK`.
+#[inline(always)]
+#[must_use]
+pub const fn step_result(command: i32, status: u16) -> EkcStepResult {
+    // EKC_OK is 0: nothing to add above the status.
+    (command.cast_unsigned() as u64) | ((status as u64) << EKC_RESULT_STATUS_SHIFT)
 }
 
-/// Inputs of one `ekc_slim_step_with` or `ekc_slim_track` (raw 16-bit).
+/// The result of a refused step: `code` alone.
+#[must_use]
+pub const fn refused_result(code: EkcCode) -> EkcStepResult {
+    // Every code is in 0..=0xffff (`codes`: call errors 1 to 15,
+    // configuration errors below 0x1000), so it fills bits 48 to 63 only.
+    ((code as u16) as u64) << EKC_RESULT_CODE_SHIFT
+}
+
+/// The code of a step result (what `ekc_result_code` does in C).
+#[must_use]
+pub const fn result_code(r: EkcStepResult) -> EkcCode {
+    (r >> EKC_RESULT_CODE_SHIFT) as EkcCode
+}
+
+/// The command of a step result (what `ekc_result_command` does in C).
+#[must_use]
+pub const fn result_command(r: EkcStepResult) -> i32 {
+    (r as u32).cast_signed()
+}
+
+/// The status bits of a step result (what `ekc_result_status` does in C).
+#[must_use]
+pub const fn result_status(r: EkcStepResult) -> u16 {
+    (r >> EKC_RESULT_STATUS_SHIFT) as u16
+}
+
+/// No optional inputs: what `ekc_step` passes to `ekc_step_with`.
+pub const EKC_NO_EXTRA: EkcExtra = EkcExtra {
+    feed_forward: 0,
+    applied: 0,
+    has_applied: 0,
+};
+
+/// No optional inputs: what `ekc_slim_step` passes to `ekc_slim_step_with`.
+pub const EKC_SLIM_NO_EXTRA: EkcSlimExtra = EkcSlimExtra {
+    feed_forward: 0,
+    applied: 0,
+    has_applied: 0,
+};
+
+/// The optional inputs of one `ekc_slim_step_with` or `ekc_slim_track`
+/// (raw 16-bit); see `EkcExtra`.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub struct EkcSlimInput {
-    /// Setpoint r.
-    pub setpoint: i16,
-    /// Measurement y.
-    pub measurement: i16,
+pub struct EkcSlimExtra {
     /// Feed-forward added before the limits (0 if unused).
     pub feed_forward: i16,
     /// What the actuator applied of the previous command (read only when
@@ -339,35 +389,35 @@ pub struct EkcSlimInput {
     pub has_applied: u8,
 }
 
-/// Result of one 16-bit step.
-#[repr(C)]
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub struct EkcSlimOutput {
-    /// The command, always within the output limits.
-    pub command: i16,
-    /// `EKC_STATUS_…` bits: what acted during the step.
-    pub status: u16,
-}
-
-/// The controller's input of a Q16.16 C input.
-pub(crate) fn fixed_input(i: &EkcInput) -> evenkeel::Input<I16F16> {
+/// The controller's input of a Q16.16 step.
+#[inline(always)]
+pub(crate) fn fixed_input(
+    setpoint: i32,
+    measurement: i32,
+    e: &EkcExtra,
+) -> evenkeel::Input<I16F16> {
     let q = I16F16::from_bits;
     let input =
-        evenkeel::Input::new(q(i.setpoint), q(i.measurement)).with_feed_forward(q(i.feed_forward));
-    if i.has_applied != 0 {
-        input.with_applied(q(i.applied))
+        evenkeel::Input::new(q(setpoint), q(measurement)).with_feed_forward(q(e.feed_forward));
+    if e.has_applied != 0 {
+        input.with_applied(q(e.applied))
     } else {
         input
     }
 }
 
-/// The controller's input of a 16-bit C input.
-pub(crate) fn slim_input(i: &EkcSlimInput) -> evenkeel::Input<Slim16> {
+/// The controller's input of a 16-bit step.
+#[inline(always)]
+pub(crate) fn slim_input(
+    setpoint: i16,
+    measurement: i16,
+    e: &EkcSlimExtra,
+) -> evenkeel::Input<Slim16> {
     let q = Slim16::from_raw;
     let input =
-        evenkeel::Input::new(q(i.setpoint), q(i.measurement)).with_feed_forward(q(i.feed_forward));
-    if i.has_applied != 0 {
-        input.with_applied(q(i.applied))
+        evenkeel::Input::new(q(setpoint), q(measurement)).with_feed_forward(q(e.feed_forward));
+    if e.has_applied != 0 {
+        input.with_applied(q(e.applied))
     } else {
         input
     }

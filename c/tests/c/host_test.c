@@ -35,6 +35,23 @@ static int failures;
         }                                                                \
     } while (0)
 
+/* A step result, unpacked with the header's readers. */
+typedef struct Out {
+    EkcCode code;
+    int32_t command;
+    uint16_t status;
+} Out;
+
+static Out unpack(EkcStepResult r) {
+    Out o = { ekc_result_code(r), ekc_result_command(r), ekc_result_status(r) };
+    return o;
+}
+
+static Out unpack_slim(EkcStepResult r) {
+    Out o = { ekc_result_code(r), ekc_slim_result_command(r), ekc_result_status(r) };
+    return o;
+}
+
 /* Zeroed storage, as a firmware's statics are. */
 static EkcLoop pi;
 static EkcLoop never_configured;
@@ -59,12 +76,14 @@ static void published_layout(void) {
  * nothing holds the integrator: status 0. */
 static void proportional_rounding(void) {
     EkcSettings s = settings(0.01, 0.5, 0.0, -1.0, 1.0);
-    EkcOutput out;
+    Out out;
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
-    CHECK_EQ(ekc_step(&pi, 3, 0, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, 3, 0));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 2);
     CHECK_EQ(out.status, 0);
-    CHECK_EQ(ekc_step(&pi, -3, 0, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, -3, 0));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, -1);
 }
 
@@ -74,16 +93,19 @@ static void proportional_rounding(void) {
  * keeps Q32.32, so the second step adds to 0.01, not to 655 LSB). */
 static void integral_steps(void) {
     EkcSettings s = settings(0.01, 0.0, 1.0, -1.0, 1.0);
-    EkcOutput out;
+    Out out;
     int32_t value = -1;
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
-    CHECK_EQ(ekc_step(&pi, EKC_ONE, 0, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, EKC_ONE, 0));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 0);
     CHECK_EQ(ekc_integral(&pi, &value), EKC_OK);
     CHECK_EQ(value, 655);
-    CHECK_EQ(ekc_step(&pi, EKC_ONE, 0, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, EKC_ONE, 0));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 655);
-    CHECK_EQ(ekc_step(&pi, EKC_ONE, 0, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, EKC_ONE, 0));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 1311);
     CHECK_EQ(ekc_last_command(&pi, &value), EKC_OK);
     CHECK_EQ(value, 1311);
@@ -100,9 +122,10 @@ static void integral_steps(void) {
  * from above). */
 static void clamp_high(void) {
     EkcSettings s = settings(0.1, 2.0, 1.0, 0.0, 4.0);
-    EkcOutput out;
+    Out out;
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
-    CHECK_EQ(ekc_step(&pi, 10 * EKC_ONE, 0, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, 10 * EKC_ONE, 0));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 4 * EKC_ONE);
     CHECK_EQ(out.status, EKC_STATUS_CLAMP_HIGH | EKC_STATUS_INTEGRATOR_HELD);
 }
@@ -113,14 +136,16 @@ static void clamp_high(void) {
  * error, so conditional integration holds the integrator too. */
 static void slew_limit(void) {
     EkcSettings s = settings(0.1, 1.0, 0.0, -10.0, 10.0);
-    EkcOutput out;
+    Out out;
     s.parts |= EKC_PART_SLEW;
     s.slew_per_s = 1.0;
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
-    CHECK_EQ(ekc_step(&pi, 5 * EKC_ONE, 0, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, 5 * EKC_ONE, 0));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 6554);
     CHECK_EQ(out.status, EKC_STATUS_SLEW | EKC_STATUS_INTEGRATOR_HELD);
-    CHECK_EQ(ekc_step(&pi, 5 * EKC_ONE, 0, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, 5 * EKC_ONE, 0));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 13108);
 }
 
@@ -128,14 +153,16 @@ static void slew_limit(void) {
  * ENGAGED; tracking returns the actuator value, flagged TRACKING. */
 static void engage_and_track(void) {
     EkcSettings s = settings(0.1, 1.0, 1.0, 0.0, 10.0);
-    EkcOutput out;
-    EkcInput in = { 3 * EKC_ONE, 2 * EKC_ONE, 0, 0, 0 };
+    Out out;
+    EkcExtra none = EKC_NO_EXTRA;
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
     CHECK_EQ(ekc_engage(&pi, 425984), EKC_OK);
-    CHECK_EQ(ekc_step(&pi, 3 * EKC_ONE, 2 * EKC_ONE, &out), EKC_OK);
+    out = unpack(ekc_step(&pi, 3 * EKC_ONE, 2 * EKC_ONE));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 425984);
     CHECK_EQ(out.status, EKC_STATUS_ENGAGED);
-    CHECK_EQ(ekc_track(&pi, &in, 2 * EKC_ONE, &out), EKC_OK);
+    out = unpack(ekc_track(&pi, 3 * EKC_ONE, 2 * EKC_ONE, &none, 2 * EKC_ONE));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 2 * EKC_ONE);
     CHECK(out.status & EKC_STATUS_TRACKING);
 }
@@ -145,12 +172,13 @@ static void engage_and_track(void) {
  * 0.25 (16384 LSB) through ekc_step_with is added: command 16384. */
 static void range_and_feed_forward(void) {
     EkcSettings s = settings(0.1, 1.0, 0.0, -1.0, 1.0);
-    EkcOutput out;
-    EkcInput in = { 501 * EKC_ONE, 600 * EKC_ONE, 16384, 0, 0 };
+    Out out;
+    EkcExtra extra = { 16384, 0, 0 };
     s.measurement_min = 0.0;
     s.measurement_max = 500.0;
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
-    CHECK_EQ(ekc_step_with(&pi, &in, &out), EKC_OK);
+    out = unpack(ekc_step_with(&pi, 501 * EKC_ONE, 600 * EKC_ONE, &extra));
+    CHECK_EQ(out.code, EKC_OK);
     CHECK_EQ(out.command, 16384);
     CHECK_EQ(out.status, EKC_STATUS_MEASUREMENT_RANGE | EKC_STATUS_SETPOINT_RANGE);
 }
@@ -161,7 +189,7 @@ static void range_and_feed_forward(void) {
 static void coefficients_path(void) {
     EkcSettings s = settings(0.01, 2.0, 5.0, -10.0, 10.0);
     EkcCoefficients c;
-    EkcOutput a, b;
+    Out a, b;
     EkcCoef kp1 = { 1 << 30, 30 };
     CHECK_EQ(ekc_compute(&s, &c), EKC_OK);
     CHECK_EQ(c.format, EKC_FORMAT_Q16_16);
@@ -169,9 +197,11 @@ static void coefficients_path(void) {
     CHECK_EQ(c.kp.shift, 29);
     CHECK_EQ(c.output_max, 10 * EKC_ONE);
     CHECK_EQ(ekc_load(&pi, &c), EKC_OK);
-    CHECK_EQ(ekc_step(&pi, EKC_ONE, 0, &a), EKC_OK);
+    a = unpack(ekc_step(&pi, EKC_ONE, 0));
+    CHECK_EQ(a.code, EKC_OK);
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
-    CHECK_EQ(ekc_step(&pi, EKC_ONE, 0, &b), EKC_OK);
+    b = unpack(ekc_step(&pi, EKC_ONE, 0));
+    CHECK_EQ(b.code, EKC_OK);
     CHECK_EQ(a.command, b.command);
     CHECK_EQ(a.command, 2 * EKC_ONE); /* P = 2 · 1, I = 0 before the update */
     CHECK_EQ(ekc_retune_gains(&pi, kp1, c.ki_ts), EKC_OK);
@@ -192,16 +222,24 @@ static void coefficients_path(void) {
  * raw error of 3 give 1.5 raw -> 2 (ties toward +infinity). */
 static void slim_loop(void) {
     EkcSettings s = settings(0.01, 0.5, 0.0, -10.0, 10.0);
-    EkcSlimOutput out;
+    Out out;
     EkcCoefficients c;
     int16_t value = -1;
     s.measurement_min = -60.0;
     s.measurement_max = 60.0;
     s.measurement_per_unit = 512.0;
     s.command_per_unit = 512.0;
-    CHECK_EQ(ekc_slim_step(&slim, 3, 0, &out), EKC_ERR_UNCONFIGURED);
+    out = unpack_slim(ekc_slim_step(&slim, 3, 0));
+    CHECK_EQ(out.code, EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_slim_configure(&slim, &s), EKC_OK);
-    CHECK_EQ(ekc_slim_step(&slim, 3, 0, &out), EKC_OK);
+    out = unpack_slim(ekc_slim_step(&slim, 3, 0));
+    CHECK_EQ(out.code, EKC_OK);
+    CHECK_EQ(out.command, 2);
+    /* -3 raw: -1.5 -> -1, through the packed result's sign extension. */
+    out = unpack_slim(ekc_slim_step(&slim, -3, 0));
+    CHECK_EQ(out.code, EKC_OK);
+    CHECK_EQ(out.command, -1);
+    out = unpack_slim(ekc_slim_step(&slim, 3, 0));
     CHECK_EQ(out.command, 2);
     CHECK_EQ(ekc_slim_last_command(&slim, &value), EKC_OK);
     CHECK_EQ(value, 2);
@@ -218,21 +256,30 @@ static void slim_loop(void) {
 /* Every call error. */
 static void call_errors(void) {
     EkcSettings s = settings(0.01, 1.0, 1.0, -1.0, 1.0);
-    EkcOutput out;
+    Out out;
+    EkcExtra extra = { 0, 0, 0 };
     int32_t value;
     alignas(8) unsigned char raw[sizeof(EkcLoop) + 8];
     EkcLoop *misaligned = (EkcLoop *)(raw + 4);
     CHECK_EQ(ekc_configure(NULL, &s), EKC_ERR_NULL);
     CHECK_EQ(ekc_configure(&pi, NULL), EKC_ERR_NULL);
     CHECK_EQ(ekc_configure(misaligned, &s), EKC_ERR_MISALIGNED);
-    CHECK_EQ(ekc_step(&never_configured, 0, 0, &out), EKC_ERR_UNCONFIGURED);
+    out = unpack(ekc_step(&never_configured, 0, 0));
+    CHECK_EQ(out.code, EKC_ERR_UNCONFIGURED);
+    CHECK_EQ(out.command, 0);
+    CHECK_EQ(out.status, 0);
+    CHECK_EQ(ekc_result_code(ekc_step_with(&never_configured, 0, 0, &extra)), EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_engage(&never_configured, 0), EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_reset(&never_configured), EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_integral(&never_configured, &value), EKC_ERR_UNCONFIGURED);
     CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
-    CHECK_EQ(ekc_step(&pi, 0, 0, NULL), EKC_ERR_NULL);
-    CHECK_EQ(ekc_step(NULL, 0, 0, &out), EKC_ERR_NULL);
-    CHECK_EQ(ekc_step_with(&pi, NULL, &out), EKC_ERR_NULL);
+    CHECK_EQ(ekc_result_code(ekc_step(NULL, 0, 0)), EKC_ERR_NULL);
+    CHECK_EQ(ekc_result_code(ekc_step(misaligned, 0, 0)), EKC_ERR_MISALIGNED);
+    CHECK_EQ(ekc_result_code(ekc_step_with(misaligned, 0, 0, &extra)), EKC_ERR_MISALIGNED);
+    CHECK_EQ(ekc_result_code(ekc_step_with(NULL, 0, 0, (const EkcExtra *)(raw + 2))), EKC_ERR_MISALIGNED);
+    CHECK_EQ(ekc_result_code(ekc_track(&pi, 0, 0, NULL, 0)), EKC_ERR_NULL);
+    CHECK_EQ(ekc_result_code(ekc_step_with(&pi, 0, 0, NULL)), EKC_ERR_NULL);
+    CHECK_EQ(ekc_step_with(NULL, 0, 0, NULL), ekc_step_with(&pi, 0, 0, NULL)); /* code alone, command and status 0 */
     CHECK_EQ(ekc_last_command(&pi, NULL), EKC_ERR_NULL);
     CHECK_EQ(ekc_settings_init(NULL, 1, 1, 1, 0, 1), EKC_ERR_NULL);
     CHECK_EQ(ekc_compute(&s, NULL), EKC_ERR_NULL);
@@ -269,12 +316,13 @@ static void config_errors(void) {
     /* A refused configuration leaves the loop as it was: still the last
      * good one (Kp = 1, limits +-1). */
     {
-        EkcOutput out;
+        Out out;
         s = settings(0.01, 1.0, 0.0, -1.0, 1.0);
         CHECK_EQ(ekc_configure(&pi, &s), EKC_OK);
         s.period_s = -1.0;
         CHECK_EQ(ekc_configure(&pi, &s), EKC_ERR_NOT_POSITIVE | EKC_SETTING_PERIOD);
-        CHECK_EQ(ekc_step(&pi, EKC_ONE / 2, 0, &out), EKC_OK);
+        out = unpack(ekc_step(&pi, EKC_ONE / 2, 0));
+    CHECK_EQ(out.code, EKC_OK);
         CHECK_EQ(out.command, EKC_ONE / 2);
     }
     /* The codes' layout: kind | setting. */
