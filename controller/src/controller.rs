@@ -131,24 +131,19 @@ pub struct Output<B> {
 /// # Ok::<(), evenkeel::ConfigError>(())
 /// ```
 #[derive(Clone, Copy, Debug)]
-#[repr(C)]
 pub struct Controller<B: Backend, L: Layout = Runtime> {
-    // In this order (`repr(C)`): the state the step reads and writes
-    // every time first, at small offsets, where Armv6-M's loads and stores
-    // reach it directly (byte offsets ≤ 31, halfword ≤ 62, word ≤ 124);
-    // the configuration after it.
+    config: Config<B, L>,
     integral: B::Accum,
     filtered: B::Accum,
-    last_command: B,
-    last_setpoint: B,
-    last_filtered: B,
     /// [`PRIMED`] once a step ran since `new`/`reset`; [`ENGAGE`] while an
     /// engage waits for the next step (one byte: one load and one store per
     /// step).
     state: u8,
+    last_command: B,
+    last_setpoint: B,
+    last_filtered: B,
     /// The actuator value of a pending engage (read only under [`ENGAGE`]).
     engage_at: B,
-    config: Config<B, L>,
 }
 
 /// A step ran since `new` or `reset` (filter and retune history valid).
