@@ -38,11 +38,11 @@ use crate::settings::Settings;
 /// assert_eq!(twice::<f32>(20_000.0), 40_000.0);
 /// assert_eq!(twice::<I16F16>(20_000.0), I16F16::MAX.to_num::<f64>()); // saturates
 /// ```
-pub trait Backend: Copy + PartialOrd + Debug {
+pub trait Backend: Copy + PartialOrd + Debug + 'static {
     /// Per-sample coefficient (gains, filter and tracking ratios).
-    type Coef: Copy + PartialEq + Debug;
+    type Coef: Copy + PartialEq + Debug + 'static;
     /// Integrator and filter state, with at least the signal's precision.
-    type Accum: Copy + PartialOrd + Debug;
+    type Accum: Copy + PartialOrd + Debug + 'static;
 
     /// Zero signal.
     ///
@@ -384,12 +384,12 @@ pub trait Backend: Copy + PartialOrd + Debug {
     /// ```
     /// use evenkeel::{Backend, Runtime, Settings, Slim16};
     /// evenkeel::frozen!(Fan: Slim16 = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0));
-    /// assert_eq!(Slim16::frozen::<Fan>(), Some(Fan::CONFIG));
+    /// assert_eq!(Slim16::frozen::<Fan>(), Some(&Fan::CONFIG));
     /// assert_eq!(Slim16::frozen::<Runtime>(), None);
     /// assert_eq!(f32::frozen::<Fan>(), None);
     /// ```
     #[inline(always)]
-    fn frozen<L: Layout>() -> Option<Config<Self, L>> {
+    fn frozen<L: Layout>() -> Option<&'static Config<Self, L>> {
         None
     }
     /// `acc` clamped into `[lo, hi]` (`lo ≤ hi`): the integrator's clamp.
@@ -553,8 +553,8 @@ impl Backend for I16F16 {
         q::accum_to_signal(acc)
     }
     #[inline(always)]
-    fn frozen<L: Layout>() -> Option<Config<Self, L>> {
-        L::FROZEN_Q16
+    fn frozen<L: Layout>() -> Option<&'static Config<Self, L>> {
+        const { &L::FROZEN_Q16 }.as_ref()
     }
     #[inline(always)]
     fn clamp_state(acc: I32F32, lo: I32F32, hi: I32F32) -> I32F32 {

@@ -537,8 +537,8 @@ impl Backend for Slim16 {
     /// (< 8.06e8 state LSB) and the filter state within the signal range
     /// (< 2²⁸), see `SlimCoef::integrate`.
     #[inline(always)]
-    fn frozen<L: Layout>() -> Option<Config<Self, L>> {
-        L::FROZEN_SLIM16
+    fn frozen<L: Layout>() -> Option<&'static Config<Self, L>> {
+        const { &L::FROZEN_SLIM16 }.as_ref()
     }
     #[inline(always)]
     fn narrow_state(acc: i32) -> Self {

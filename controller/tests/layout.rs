@@ -291,6 +291,6 @@ fn a_frozen_layout_has_no_other_configuration() {
             .expect("valid")
             .to_parts()
     );
-    assert_eq!(I16F16::frozen::<FrozenFull>(), Some(FrozenFull::CONFIG));
+    assert_eq!(I16F16::frozen::<FrozenFull>(), Some(&FrozenFull::CONFIG));
     assert_eq!(I16F16::frozen::<Full>(), None);
 }
