@@ -381,8 +381,9 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         // Both inside the range (the usual case): nothing to clamp or flag.
         // Under a compile-time layout the clamp runs out of line; the
         // run-time step keeps it inline (measured: out of line it saves
-        // 2 instructions on the M4F layout step and costs the run-time
-        // and C steps on Armv6-M up to 19; boards/README.md).
+        // 2 instructions on the M4F layout step, but in the run-time step
+        // it made the C interface's inlined copy on Armv6-M slower by more
+        // than the C call's whole budget; boards/README.md).
         if !(y >= lo && y <= hi && r >= lo && r <= hi) {
             if L::SHAPE.is_some() {
                 (y, r, status) = clamp_range(y, r, lo, hi);

@@ -607,7 +607,8 @@ macro_rules! layout {
 
 /// Declare a *frozen* layout: a zero-sized type that fixes the whole
 /// configuration at compile time (features, shifts, gains, limits, ranges
-/// and scaling), for `I16F16` or `Slim16`.
+/// and scaling), for `I16F16` or `Slim16` (written as these bare names;
+/// the float backends have no frozen form).
 ///
 /// The step then reads every setting as a constant: each gain is a
 /// multiplication by an immediate, each limit a comparison with one, and
