@@ -301,6 +301,40 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     fn integrate(acc: Self::Accum, x: Self, c: Self::Coef) -> Self::Accum {
         Self::scale_into(acc, x, c)
     }
+    /// [`Backend::scale`] for a coefficient whose shift is a constant of
+    /// the step (a compile-time layout's, see [`Backend::coef_at_shift`]):
+    /// the same result, computed the way that is cheapest with that shift
+    /// known (Q16.16 on Armv6-M: the rounding half is added inside the
+    /// product). The default is [`Backend::scale`].
+    ///
+    /// ```
+    /// use evenkeel::{Backend, FixedCoef};
+    /// use fixed::types::I16F16;
+    /// let c = FixedCoef::with_shift(0.7, 29).ok_or("does not fit")?;
+    /// let x = I16F16::from_bits(-12_345_679);
+    /// assert_eq!(I16F16::scale_at(x, c), x.scale(c));
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[inline(always)]
+    fn scale_at(self, c: Self::Coef) -> Self {
+        self.scale(c)
+    }
+    /// [`Backend::integrate`] for a coefficient whose shift is a constant
+    /// of the step (see [`Backend::scale_at`]): the same result. The
+    /// default is [`Backend::integrate`].
+    ///
+    /// ```
+    /// use evenkeel::{Backend, FixedCoef};
+    /// use fixed::types::{I16F16, I32F32};
+    /// let k = FixedCoef::with_shift(0.05, 35).ok_or("does not fit")?;
+    /// let (acc, x) = (I32F32::from_num(-2.5), I16F16::from_num(3.75));
+    /// assert_eq!(I16F16::integrate_at(acc, x, k), I16F16::integrate(acc, x, k));
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[inline(always)]
+    fn integrate_at(acc: Self::Accum, x: Self, c: Self::Coef) -> Self::Accum {
+        Self::integrate(acc, x, c)
+    }
     /// The largest value not above `self + step`, for `step ≥ 0`: the
     /// slew limiter's upper bound, which must never be further from `self`
     /// than the stored step (float rounding of `self + step` alone can be,
@@ -527,6 +561,14 @@ impl Backend for I16F16 {
     #[inline(always)]
     fn integrate(acc: I32F32, x: Self, c: FixedCoef) -> I32F32 {
         c.integrate(acc, x)
+    }
+    #[inline(always)]
+    fn scale_at(self, c: FixedCoef) -> Self {
+        c.scale_at(self)
+    }
+    #[inline(always)]
+    fn integrate_at(acc: I32F32, x: Self, c: FixedCoef) -> I32F32 {
+        c.integrate_at(acc, x)
     }
     #[inline(always)]
     fn raise_by(self, step: Self) -> Self {

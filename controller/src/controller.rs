@@ -413,7 +413,11 @@ impl<B: Backend, L: Layout> Controller<B, L> {
             // Inside the signal range (see `SlimCoef::integrate` and
             // `FixedCoef::integrate`): the state's own narrowing.
             let alpha = coef::<B, L>(c.filter_alpha, Slot::FilterAlpha);
-            self.filtered = B::integrate(self.filtered, y.sub(previous), alpha);
+            self.filtered = if L::SHAPE.is_some() {
+                integrate_at::<B, L>(self.filtered, y.sub(previous), alpha, Slot::FilterAlpha)
+            } else {
+                B::integrate(self.filtered, y.sub(previous), alpha)
+            };
             B::narrow_state(self.filtered)
         } else {
             // A compile-time layout without filter never reads the state
@@ -512,8 +516,14 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         let ki_ts = coef::<B, L>(c.ki_ts, Slot::KiTs);
         let integral = if on.contains(Features::BACK_CALCULATION) {
             let ratio = coef::<B, L>(c.tracking_ratio, Slot::TrackingRatio);
-            let i = B::integrate(self.integral, e, ki_ts);
-            Some(B::integrate(i, u.sub(v).add(downstream), ratio))
+            if L::SHAPE.is_some() {
+                let i = integrate_at::<B, L>(self.integral, e, ki_ts, Slot::KiTs);
+                let d = u.sub(v).add(downstream);
+                Some(integrate_at::<B, L>(i, d, ratio, Slot::TrackingRatio))
+            } else {
+                let i = B::integrate(self.integral, e, ki_ts);
+                Some(B::integrate(i, u.sub(v).add(downstream), ratio))
+            }
         } else {
             let held_high = u < v || downstream < B::ZERO;
             let held_low = u > v || downstream > B::ZERO;
@@ -525,7 +535,11 @@ impl<B: Backend, L: Layout> Controller<B, L> {
                 }
                 None
             } else {
-                Some(B::integrate(self.integral, e, ki_ts))
+                Some(if L::SHAPE.is_some() {
+                    integrate_at::<B, L>(self.integral, e, ki_ts, Slot::KiTs)
+                } else {
+                    B::integrate(self.integral, e, ki_ts)
+                })
             }
         };
         if let Some(integral) = integral {
@@ -573,6 +587,26 @@ fn coef<B: Backend, L: Layout>(stored: B::Coef, slot: Slot) -> B::Coef {
     }
 }
 
+/// `x · c` under a compile-time layout: the backend's
+/// [`Backend::scale_at`] when the layout fixes the slot's shift (so that it
+/// is a constant of the step), else [`Backend::scale`]. Same result.
+#[inline(always)]
+fn scale_at<B: Backend, L: Layout>(x: B, c: B::Coef, slot: Slot) -> B {
+    match L::SHAPE {
+        Some(shape) if shape.shift(slot).is_some() => x.scale_at(c),
+        _ => x.scale(c),
+    }
+}
+
+/// `acc + x · c` under a compile-time layout (see [`scale_at`]).
+#[inline(always)]
+fn integrate_at<B: Backend, L: Layout>(acc: B::Accum, x: B, c: B::Coef, slot: Slot) -> B::Accum {
+    match L::SHAPE {
+        Some(shape) if shape.shift(slot).is_some() => B::integrate_at(acc, x, c),
+        _ => B::integrate(acc, x, c),
+    }
+}
+
 /// The proportional part alone, out of line: `retune` needs it twice and is
 /// not time-critical, so one shared copy keeps the code small.
 #[inline(never)]
@@ -607,15 +641,23 @@ fn proportional<B: Backend, L: Layout>(
     };
     let weighted = if on.contains(Features::SETPOINT_WEIGHT) {
         let b = coef::<B, L>(c.setpoint_weight, Slot::SetpointWeight);
-        r.scale(b).sub(y_f).sub(inside)
+        if L::SHAPE.is_some() {
+            scale_at::<B, L>(r, b, Slot::SetpointWeight)
+                .sub(y_f)
+                .sub(inside)
+        } else {
+            r.scale(b).sub(y_f).sub(inside)
+        }
     } else {
         e_db
     };
-    (
-        weighted.scale(coef::<B, L>(c.kp, Slot::Kp)),
-        e_db,
-        in_deadband,
-    )
+    let kp = coef::<B, L>(c.kp, Slot::Kp);
+    let p = if L::SHAPE.is_some() {
+        scale_at::<B, L>(weighted, kp, Slot::Kp)
+    } else {
+        weighted.scale(kp)
+    };
+    (p, e_db, in_deadband)
 }
 
 #[inline]

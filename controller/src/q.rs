@@ -347,6 +347,28 @@ impl FixedCoef {
         let product = arith::rounded_wide(x.to_bits(), self.mantissa, shift);
         I32F32::from_bits(acc.to_bits().wrapping_add(product))
     }
+
+    /// [`FixedCoef::scale`] for a coefficient whose shift is a constant of
+    /// the step (a compile-time layout's). Same result; on Armv6-M the
+    /// rounding half is added inside the product (see
+    /// `words::mul_halves_rounding`), elsewhere it is [`FixedCoef::scale`].
+    #[inline(always)]
+    #[must_use]
+    pub(crate) fn scale_at(self, x: I16F16) -> I16F16 {
+        let r = arith::rounded_at(x.to_bits(), self.mantissa, u32::from(self.shift));
+        I16F16::from_bits(r)
+    }
+
+    /// [`FixedCoef::integrate`] for a coefficient whose shift is a constant
+    /// of the step (see [`FixedCoef::scale_at`]). Same result.
+    #[inline(always)]
+    #[must_use]
+    pub(crate) fn integrate_at(self, acc: I32F32, x: I16F16) -> I32F32 {
+        let lift = ACCUM_FRAC_BITS - SIGNAL_FRAC_BITS;
+        let shift = u32::from(self.shift).saturating_sub(lift);
+        let product = arith::rounded_wide_at(x.to_bits(), self.mantissa, shift);
+        I32F32::from_bits(acc.to_bits().wrapping_add(product))
+    }
 }
 
 // The rounded product floor(x · m / 2^s + 1/2) of a coefficient and a
@@ -383,6 +405,18 @@ mod native {
     pub(super) fn narrow_accum(acc: i64) -> i32 {
         super::saturate_i32((acc >> 16) + ((acc >> 15) & 1))
     }
+
+    /// [`rounded`] (the host has one way to compute it).
+    #[inline(always)]
+    pub(super) fn rounded_at(x: i32, m: i32, s: u32) -> i32 {
+        rounded(x, m, s)
+    }
+
+    /// [`rounded_wide`].
+    #[inline(always)]
+    pub(super) fn rounded_wide_at(x: i32, m: i32, s: u32) -> i64 {
+        rounded_wide(x, m, s)
+    }
 }
 
 /// 32-bit targets: `shift ≤ 62` is an invariant of `FixedCoef` (every
@@ -415,6 +449,105 @@ mod words {
             let (lo, hi) = round_low(lo, hi, s);
             (i64::from(hi) << 32) | i64::from(lo)
         }
+    }
+
+    /// [`rounded`] for a shift `s` that is a constant where it is inlined
+    /// (a compile-time layout's step): on Armv6-M [`rounded_folded`], which
+    /// folds the rounding half into the product; elsewhere [`rounded`].
+    #[inline(always)]
+    pub(super) fn rounded_at(x: i32, m: i32, s: u32) -> i32 {
+        if cfg!(all(target_arch = "arm", not(target_has_atomic = "32"))) {
+            rounded_folded(x, m, s)
+        } else {
+            rounded(x, m, s)
+        }
+    }
+
+    /// [`rounded_wide`] for a constant shift (see [`rounded_at`]).
+    #[inline(always)]
+    pub(super) fn rounded_wide_at(x: i32, m: i32, s: u32) -> i64 {
+        if cfg!(all(target_arch = "arm", not(target_has_atomic = "32"))) {
+            rounded_wide_folded(x, m, s)
+        } else {
+            rounded_wide(x, m, s)
+        }
+    }
+
+    /// [`rounded`] from [`mul_halves_rounding`]: P + 2^(s−1) in words,
+    /// then only shifts (for s ≥ 32 the high word alone).
+    #[inline(always)]
+    pub(super) fn rounded_folded(x: i32, m: i32, s: u32) -> i32 {
+        let (lo, hi) = mul_halves_rounding(x, m, s);
+        if s >= 32 {
+            // floor((P + half) / 2^s) = hi >> (s − 32): the low word is
+            // below 2³² ≤ 2^s. |P + half| < 2⁶³, so it fits `i32`.
+            hi >> ((s - 32) & 31)
+        } else {
+            let (lo, hi) = shift_words(lo, hi, s);
+            narrow_words(lo, hi)
+        }
+    }
+
+    /// [`rounded_wide`] from [`mul_halves_rounding`].
+    #[inline(always)]
+    pub(super) fn rounded_wide_folded(x: i32, m: i32, s: u32) -> i64 {
+        let (lo, hi) = mul_halves_rounding(x, m, s);
+        if s >= 32 {
+            i64::from(hi >> ((s - 32) & 31))
+        } else {
+            let (lo, hi) = shift_words(lo, hi, s);
+            (i64::from(hi) << 32) | i64::from(lo)
+        }
+    }
+
+    /// floor(V / 2^s) for V = hi·2³² + lo, s ≤ 31, as (low word, high word).
+    #[inline(always)]
+    fn shift_words(lo: u32, hi: i32, s: u32) -> (u32, i32) {
+        let s = s & 31;
+        // (hi << 1) << (31 − s) is hi << (32 − s), also for s = 0.
+        let lo = (lo >> s) | (((hi as u32) << 1) << (31 - s));
+        (lo, hi >> s)
+    }
+
+    /// The exact sum `x · m + 2^(s−1)` (zero added for s = 0), `s ≤ 62`, as
+    /// (low word, high word): [`mul_halves`] with the rounding half added to
+    /// one of its four partial products, where it cannot overflow it, instead
+    /// of a 64-bit add afterwards. With x_lo, m_lo < 2¹⁶ and |x_hi|, |m_hi| ≤
+    /// 2¹⁵: low ≤ (2¹⁶ − 1)² = 2³² − 2¹⁷ + 1 takes 2^(s−1) ≤ 2¹⁶ (s ≤ 17);
+    /// cross_a = x_lo·m_hi ≤ 65 535 · 32 767 = 2³¹ − 98 303 takes
+    /// 2^(s−17) ≤ 2¹⁶ (18 ≤ s ≤ 33); |high| ≤ 2³⁰ takes 2^(s−33) ≤ 2²⁹
+    /// (s ≥ 34). The sum of the parts is then P + 2^(s−1) exactly, and
+    /// |P| < 2⁶², 2^(s−1) ≤ 2⁶¹: nothing wraps. Compiled everywhere so that
+    /// the host tests check it; only Armv6-M uses it.
+    #[cfg_attr(
+        not(all(target_arch = "arm", not(target_has_atomic = "32"))),
+        allow(dead_code)
+    )]
+    #[inline(always)]
+    pub(super) fn mul_halves_rounding(x: i32, m: i32, s: u32) -> (u32, i32) {
+        let (x_lo, x_hi) = (x & 0xffff, x >> 16);
+        let (m_lo, m_hi) = (m & 0xffff, m >> 16);
+        let mut low = (x_lo as u32).wrapping_mul(m_lo as u32);
+        let mut high = x_hi.wrapping_mul(m_hi);
+        let mut cross_a = x_lo.wrapping_mul(m_hi);
+        let cross_b = x_hi.wrapping_mul(m_lo);
+        if s == 0 {
+        } else if s <= 17 {
+            low = low.wrapping_add(1 << ((s - 1) & 31));
+        } else if s <= 33 {
+            cross_a = cross_a.wrapping_add(1 << ((s - 17) & 31));
+        } else {
+            high = high.wrapping_add(1 << ((s - 33) & 31));
+        }
+        // As in `mul_halves`.
+        let (lo, carry_a) = low.overflowing_add((cross_a as u32) << 16);
+        let (lo, carry_b) = lo.overflowing_add((cross_b as u32) << 16);
+        let hi = high
+            .wrapping_add(cross_a >> 16)
+            .wrapping_add(cross_b >> 16)
+            .wrapping_add(i32::from(carry_a))
+            .wrapping_add(i32::from(carry_b));
+        (lo, hi)
     }
 
     /// floor(acc / 2¹⁶ + 1/2) saturated into `i32`: floor(acc / 2¹⁶) plus bit
@@ -908,8 +1041,28 @@ mod tests {
                         want,
                         "native {x}·{m}>>{shift}"
                     );
+                    let half = if shift == 0 { 0 } else { 1i64 << (shift - 1) };
+                    let (lo, hi) = words::mul_halves_rounding(x, m, shift);
+                    assert_eq!(
+                        (i64::from(hi) << 32) | i64::from(lo),
+                        p + half,
+                        "folded {x}·{m}+½ at {shift}"
+                    );
+                    assert_eq!(
+                        words::rounded_folded(x, m, shift),
+                        want,
+                        "folded {x}·{m}>>{shift}"
+                    );
+                    assert_eq!(words::rounded_at(x, m, shift), want);
+                    assert_eq!(c.scale_at(I16F16::from_bits(x)).to_bits(), want);
                     if shift >= 16 {
                         let want = round_shift(p, shift - 16);
+                        assert_eq!(
+                            words::rounded_wide_folded(x, m, shift - 16),
+                            want,
+                            "folded wide {x}·{m}>>{shift}−16"
+                        );
+                        assert_eq!(words::rounded_wide_at(x, m, shift - 16), want);
                         assert_eq!(words::rounded_wide(x, m, shift - 16), want);
                         assert_eq!(native::rounded_wide(x, m, shift - 16), want);
                     }
@@ -926,6 +1079,8 @@ mod tests {
                         };
                         let got = c.scale_into(I32F32::from_bits(acc), I16F16::from_bits(x));
                         assert_eq!(got.to_bits(), want, "{acc} + {x}·{m}>>{shift}−16");
+                        let (acc, x) = (I32F32::from_bits(acc), I16F16::from_bits(x));
+                        assert_eq!(c.integrate_at(acc, x), c.integrate(acc, x));
                     }
                 }
             }
