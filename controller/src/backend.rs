@@ -305,7 +305,10 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     /// the step (a compile-time layout's, see [`Backend::coef_at_shift`]):
     /// the same result, computed the way that is cheapest with that shift
     /// known (Q16.16 on Armv6-M: the rounding half is added inside the
-    /// product). The default is [`Backend::scale`].
+    /// product). Fixed point: the same result for every coefficient whose
+    /// mantissa is above `i32::MIN` (validated configurations store only
+    /// non-negative ones); for that one mantissa the result is unspecified
+    /// (it never panics). The default is [`Backend::scale`].
     ///
     /// ```
     /// use evenkeel::{Backend, FixedCoef};

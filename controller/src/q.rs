@@ -349,9 +349,11 @@ impl FixedCoef {
     }
 
     /// [`FixedCoef::scale`] for a coefficient whose shift is a constant of
-    /// the step (a compile-time layout's). Same result; on Armv6-M the
-    /// rounding half is added inside the product (see
-    /// `words::mul_halves_rounding`), elsewhere it is [`FixedCoef::scale`].
+    /// the step (a compile-time layout's). Same result for a mantissa
+    /// above `i32::MIN` (every validated configuration's; for that one the
+    /// result is unspecified, never a panic); on Armv6-M the rounding half
+    /// is added inside the product (see `words::mul_halves_rounding`),
+    /// elsewhere it is [`FixedCoef::scale`].
     #[inline(always)]
     #[must_use]
     pub(crate) fn scale_at(self, x: I16F16) -> I16F16 {
@@ -482,6 +484,10 @@ mod words {
             // floor((P + half) / 2^s) = hi >> (s − 32): the low word is
             // below 2³² ≤ 2^s. |P + half| < 2⁶³, so it fits `i32`.
             hi >> ((s - 32) & 31)
+        } else if s == 31 {
+            // No saturation: |x| ≤ 2³¹ and |m| ≤ 2³¹ − 1 give
+            // |P| ≤ 2⁶² − 2³¹, so the result lies in [−2³¹ + 1, 2³¹ − 1].
+            ((lo >> 31) | ((hi as u32) << 1)) as i32
         } else {
             let (lo, hi) = shift_words(lo, hi, s);
             narrow_words(lo, hi)
