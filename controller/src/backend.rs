@@ -338,6 +338,25 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     fn integrate_at(acc: Self::Accum, x: Self, c: Self::Coef) -> Self::Accum {
         Self::integrate(acc, x, c)
     }
+    /// `lo ≤ self ≤ hi`, for `lo ≤ hi` (the measurement range check of a
+    /// compile-time layout's step; for `lo > hi` the result is unspecified).
+    /// Q16.16 compares the distances from `lo` without sign (one
+    /// subtraction and one comparison per value, the range's width computed
+    /// once); the default compares both bounds.
+    ///
+    /// ```
+    /// use evenkeel::Backend;
+    /// use fixed::types::I16F16;
+    /// let (lo, hi) = (I16F16::from_num(-100), I16F16::from_num(100));
+    /// for x in [I16F16::MIN, I16F16::from_num(-100.001), lo, I16F16::ZERO, hi, I16F16::MAX] {
+    ///     assert_eq!(x.inside(lo, hi), x >= lo && x <= hi);
+    /// }
+    /// assert!(2.5_f32.inside(0.0, 2.5) && !2.6_f32.inside(0.0, 2.5));
+    /// ```
+    #[inline(always)]
+    fn inside(self, lo: Self, hi: Self) -> bool {
+        self >= lo && self <= hi
+    }
     /// The largest value not above `self + step`, for `step ≥ 0`: the
     /// slew limiter's upper bound, which must never be further from `self`
     /// than the stored step (float rounding of `self + step` alone can be,
@@ -564,6 +583,13 @@ impl Backend for I16F16 {
     #[inline(always)]
     fn integrate(acc: I32F32, x: Self, c: FixedCoef) -> I32F32 {
         c.integrate(acc, x)
+    }
+    #[inline(always)]
+    fn inside(self, lo: Self, hi: Self) -> bool {
+        // For lo ≤ hi: x − lo (exact, modulo 2³²) lies in [0, hi − lo]
+        // exactly when lo ≤ x ≤ hi.
+        let from_lo = self.to_bits().wrapping_sub(lo.to_bits()) as u32;
+        from_lo <= hi.to_bits().wrapping_sub(lo.to_bits()) as u32
     }
     #[inline(always)]
     fn scale_at(self, c: FixedCoef) -> Self {

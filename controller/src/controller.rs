@@ -384,7 +384,12 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         // 2 instructions on the M4F layout step, but in the run-time step
         // it made the C interface's inlined copy on Armv6-M slower by more
         // than the C call's whole budget; boards/README.md).
-        if !(y >= lo && y <= hi && r >= lo && r <= hi) {
+        let inside = if L::SHAPE.is_some() {
+            y.inside(lo, hi) && r.inside(lo, hi)
+        } else {
+            y >= lo && y <= hi && r >= lo && r <= hi
+        };
+        if !inside {
             if L::SHAPE.is_some() {
                 (y, r, status) = clamp_range(y, r, lo, hi);
             } else {
