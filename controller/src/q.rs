@@ -988,6 +988,51 @@ mod tests {
     /// (`round_shift` then saturation), on edge values and a
     /// pseudo-random sweep of every shift.
     #[test]
+    fn unsigned_range_check_matches_the_comparisons() {
+        use crate::Backend;
+        let edges = [
+            i32::MIN,
+            i32::MIN + 1,
+            -65_536,
+            -2,
+            -1,
+            0,
+            1,
+            2,
+            65_536,
+            i32::MAX - 1,
+            i32::MAX,
+        ];
+        let mut seed: u32 = 0x2545_F491;
+        let mut next = move || {
+            seed ^= seed << 13;
+            seed ^= seed >> 17;
+            seed ^= seed << 5;
+            seed as i32 >> (seed % 31)
+        };
+        let mut values = [0i32; 24];
+        for v in &mut values {
+            *v = next();
+        }
+        let mut all = [0i32; 35];
+        for (slot, &v) in all.iter_mut().zip(edges.iter().chain(values.iter())) {
+            *slot = v;
+        }
+        for &lo in &all {
+            for &hi in all.iter().filter(|&&hi| hi >= lo) {
+                let (l, h) = (I16F16::from_bits(lo), I16F16::from_bits(hi));
+                for &x in all
+                    .iter()
+                    .chain([lo, hi, lo.wrapping_sub(1), hi.wrapping_add(1)].iter())
+                {
+                    let x = I16F16::from_bits(x);
+                    assert_eq!(x.inside(l, h), x >= l && x <= h, "{x:?} in [{l:?}, {h:?}]");
+                }
+            }
+        }
+    }
+
+    #[test]
     fn word_products_match_the_64_bit_definition() {
         let mut seed: u64 = 0x9E37_79B9_7F4A_7C15;
         let mut next = move || {
