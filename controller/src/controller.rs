@@ -383,7 +383,10 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         // run-time step keeps it inline (measured: out of line it saves
         // 2 instructions on the M4F layout step, but in the run-time step
         // it made the C interface's inlined copy on Armv6-M slower by more
-        // than the C call's whole budget; boards/README.md).
+        // than the C call's whole budget; boards/README.md). A layout's
+        // check is the backend's (Q16.16: unsigned distances from `lo`,
+        // valid because configuration keeps lo < hi); the run-time step
+        // keeps its four comparisons.
         let inside = if L::SHAPE.is_some() {
             y.inside(lo, hi) && r.inside(lo, hi)
         } else {
