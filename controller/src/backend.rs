@@ -505,6 +505,42 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     /// assert_eq!(f32::coef_lerp(1.0, 3.0, 0.25), 1.5);
     /// ```
     fn coef_lerp(lo: Self::Coef, hi: Self::Coef, frac: Self) -> Self::Coef;
+    /// The gain schedule's interpolation fraction of `at` in the segment
+    /// that starts at `from` and whose width's inverse is `inverse_width`
+    /// (from [`Backend::schedule_inverse`]): `(at − from) · inverse_width`,
+    /// clamped to [0, one], where one is what [`Backend::coef_lerp`] takes
+    /// as the whole step (`1` for the floats and Q16.16, raw 2¹⁴ for
+    /// [`crate::Slim16`]). The fixed backends take the difference exactly
+    /// (it does not saturate however wide the segment).
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Slim16};
+    /// let inverse = Slim16::schedule_inverse(Slim16::from_raw(100), Slim16::from_raw(300), 200.0)
+    ///     .ok_or("does not fit")?;
+    /// let at = |x| Slim16::schedule_fraction(Slim16::from_raw(x), Slim16::from_raw(100), inverse).raw();
+    /// assert_eq!((at(50), at(150), at(300), at(900)), (0, 4_096, 16_384, 16_384));
+    /// assert_eq!(f64::schedule_fraction(2.0, 1.0, 0.25), 0.25);
+    /// # Ok::<(), &str>(())
+    /// ```
+    fn schedule_fraction(at: Self, from: Self, inverse_width: Self::Coef) -> Self {
+        let raw = at.sub(from).scale(inverse_width);
+        if raw < Self::ZERO {
+            Self::ZERO
+        } else if raw > Self::ONE {
+            Self::ONE
+        } else {
+            raw
+        }
+    }
+    /// The coefficient [`Backend::schedule_fraction`] multiplies by, for a
+    /// segment from `from` to `to` (the breakpoints in this backend) whose
+    /// written width is `width`; `None` if it does not fit. Floats and
+    /// Q16.16: `1 / width`, nearest; [`crate::Slim16`]: `2¹⁴ / (to − from)`
+    /// rounded up, so the fraction reaches its one exactly at `to`.
+    fn schedule_inverse(from: Self, to: Self, width: f64) -> Option<Self::Coef> {
+        let _ = (from, to);
+        Self::coef_pair(1.0 / width, 1.0 / width, 0).map(|(c, _)| c)
+    }
 }
 
 impl Backend for I16F16 {
@@ -654,6 +690,9 @@ impl Backend for I16F16 {
     }
     fn coef_lerp(lo: FixedCoef, hi: FixedCoef, frac: Self) -> FixedCoef {
         lo.lerp(hi, frac)
+    }
+    fn schedule_fraction(at: Self, from: Self, inverse_width: FixedCoef) -> Self {
+        q::schedule_fraction(at, from, inverse_width)
     }
 }
 

@@ -842,6 +842,37 @@ pub const fn signal_nearest_even(value: f64) -> I16F16 {
     I16F16::from_bits(saturate_i32(rounded))
 }
 
+/// The gain schedule's interpolation fraction (`Backend::schedule_fraction`
+/// for `I16F16`): `(at − from) · c`, nearest, ties toward +∞, clamped to
+/// [0, 1]. The difference is exact: |at − from| < 2³² and |mantissa| < 2³¹,
+/// so the product fits in `i64`. Wherever the difference fits Q16.16 this
+/// is the saturating `(at − from).scale(c)` clamped; a segment wider than
+/// 32 768 no longer saturates it.
+///
+/// ```
+/// use evenkeel::{Backend, FixedCoef};
+/// use fixed::types::I16F16;
+/// let c = FixedCoef::from_f64(1.0 / 60_000.0, 0).ok_or("does not fit")?;
+/// let (from, at) = (I16F16::from_num(-30_000), I16F16::from_num(10_000));
+/// let frac = I16F16::schedule_fraction(at, from, c);
+/// assert!((frac.to_num::<f64>() - 40_000.0 / 60_000.0).abs() < 1e-4);
+/// # Ok::<(), &str>(())
+/// ```
+#[must_use]
+pub(crate) fn schedule_fraction(at: I16F16, from: I16F16, c: FixedCoef) -> I16F16 {
+    let d = i64::from(at.to_bits()).wrapping_sub(i64::from(from.to_bits()));
+    let f = round_shift(d.saturating_mul(i64::from(c.mantissa)), u32::from(c.shift));
+    let one = 1_i64 << SIGNAL_FRAC_BITS;
+    let f = if f < 0 {
+        0
+    } else if f > one {
+        one
+    } else {
+        f
+    };
+    I16F16::from_bits(saturate_i32(f))
+}
+
 /// Two coefficients with one shift, so that they can be interpolated: the
 /// finer of their natural shifts that holds both (the smaller one), at
 /// least `min_shift`; a zero takes the other's. `None` if either does not

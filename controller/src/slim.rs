@@ -49,6 +49,21 @@ pub const SLIM_MAX_SHIFT: u32 = 30;
 /// ```
 pub const SLIM_COEF_REL_TOLERANCE: f64 = 1.0 / 16_384.0;
 
+/// Fraction bits of a gain schedule's interpolation fraction.
+const FRACTION_BITS: u32 = 14;
+
+/// A gain schedule's whole step as a raw fraction (`SlimCoef::lerp`,
+/// `Backend::schedule_fraction`): 2¹⁴, so the fraction's resolution is
+/// 2⁻¹⁴ of a segment.
+///
+/// ```
+/// use evenkeel::{Slim16, SlimCoef, slim::SLIM_FRACTION_ONE};
+/// let (lo, hi) = (SlimCoef::with_shift(0.5, 14).ok_or("")?, SlimCoef::with_shift(1.5, 14).ok_or("")?);
+/// assert_eq!(lo.lerp(hi, Slim16::from_raw(SLIM_FRACTION_ONE)), hi);
+/// # Ok::<(), &str>(())
+/// ```
+pub const SLIM_FRACTION_ONE: i16 = 1 << FRACTION_BITS;
+
 /// Smallest shift of a coefficient added into the state (Ki·Ts, α: value
 /// below 1).
 const STATE_COEF_MIN_SHIFT: u32 = 15;
@@ -319,13 +334,15 @@ impl SlimCoef {
     }
 
     /// `self + (other − self) · frac` on the mantissas, `frac` in raw
-    /// units of 2⁻¹⁵ (0 … 32 767); both ends must share a shift, otherwise
-    /// `self`. Nearest, ties toward +∞, saturating.
+    /// units of 2⁻¹⁴ (0 … [`SLIM_FRACTION_ONE`] = 16 384, the whole step);
+    /// both ends must share a shift, otherwise `self`. Nearest, ties toward
+    /// +∞, saturating. `frac` = 16 384 gives `other` exactly.
     ///
     /// ```
     /// use evenkeel::{Slim16, SlimCoef};
     /// let (lo, hi) = (SlimCoef::with_shift(1.0, 12).ok_or("")?, SlimCoef::with_shift(3.0, 12).ok_or("")?);
-    /// assert_eq!(lo.lerp(hi, Slim16::from_raw(16_384)).to_f64(), 2.0);
+    /// assert_eq!(lo.lerp(hi, Slim16::from_raw(8_192)).to_f64(), 2.0);
+    /// assert_eq!(lo.lerp(hi, Slim16::from_raw(16_384)), hi);
     /// # Ok::<(), &str>(())
     /// ```
     #[must_use]
@@ -334,10 +351,49 @@ impl SlimCoef {
             return self;
         }
         let span = i32::from(other.mantissa) - i32::from(self.mantissa);
-        let step = round_shift(span.saturating_mul(i32::from(frac.0)), 15);
+        let step = round_shift(span.saturating_mul(i32::from(frac.0)), FRACTION_BITS);
         Self {
             mantissa: saturate_i16(i32::from(self.mantissa).saturating_add(step)),
             shift: self.shift,
+        }
+    }
+
+    /// The coefficient a gain schedule's fraction is taken with for a
+    /// segment from `from` to `to` (raw): `2¹⁴ / (to − from)` rounded up,
+    /// at the largest shift that keeps the mantissa within 15 bits. Rounded
+    /// up, so `(to − from) · c` reaches [`SLIM_FRACTION_ONE`] (the fraction
+    /// is exactly one at `to`); relative excess below 2⁻¹⁴. Integer
+    /// arithmetic only. `None` unless `from < to`.
+    ///
+    /// ```
+    /// use evenkeel::{Slim16, SlimCoef};
+    /// let c = SlimCoef::fraction_inverse(Slim16::from_raw(0), Slim16::from_raw(3)).ok_or("")?;
+    /// assert_eq!((c.mantissa(), c.shift()), (21_846, 2)); // ⌈2¹⁶ / 3⌉ · 2⁻² = 5 461.5
+    /// # Ok::<(), &str>(())
+    /// ```
+    #[must_use]
+    pub const fn fraction_inverse(from: Slim16, to: Slim16) -> Option<Self> {
+        let width = to.0 as i64 - from.0 as i64;
+        if width <= 0 {
+            return None;
+        }
+        let mut shift = SLIM_MAX_SHIFT;
+        loop {
+            let whole = 1_i64 << (FRACTION_BITS + shift);
+            let mantissa = match (whole + width - 1).checked_div(width) {
+                Some(m) => m,
+                None => return None,
+            };
+            if mantissa <= i16::MAX as i64 {
+                return Some(Self {
+                    mantissa: mantissa as i16,
+                    shift: shift as u8,
+                });
+            }
+            if shift == 0 {
+                return None;
+            }
+            shift -= 1;
         }
     }
 }
@@ -384,7 +440,7 @@ fn saturate_i16(x: i32) -> i16 {
 }
 
 /// Nearest raw value, ties to even, saturating; NaN gives zero.
-const fn raw_nearest_even(x: f64) -> i16 {
+pub(crate) const fn raw_nearest_even(x: f64) -> i16 {
     if x.is_nan() {
         return 0;
     }
@@ -453,24 +509,10 @@ impl Backend for Slim16 {
         c.at_shift(shift.saturating_sub(16))
     }
     fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(SlimCoef, SlimCoef)> {
-        let (ca, cb) = (
-            SlimCoef::from_f64(a, min_shift)?,
-            SlimCoef::from_f64(b, min_shift)?,
-        );
-        let shift = match (a != 0.0, b != 0.0) {
-            (true, true) => ca.shift.min(cb.shift),
-            (true, false) => ca.shift,
-            (false, true) => cb.shift,
-            (false, false) => min_shift as u8,
-        };
-        Self::coef_pair_at(a, b, u32::from(shift) + 16)
+        coef_pair(a, b, min_shift)
     }
     fn coef_pair_at(a: f64, b: f64, shift: u32) -> Option<(SlimCoef, SlimCoef)> {
-        let shift = shift.checked_sub(16)?;
-        Some((
-            SlimCoef::with_shift(a, shift)?,
-            SlimCoef::with_shift(b, shift)?,
-        ))
+        coef_pair_at(a, b, shift)
     }
     fn from_f64(x: f64) -> Self {
         Self(raw_nearest_even(x))
@@ -553,6 +595,63 @@ impl Backend for Slim16 {
     }
     fn coef_lerp(lo: SlimCoef, hi: SlimCoef, frac: Self) -> SlimCoef {
         lo.lerp(hi, frac)
+    }
+    /// `(at − from) · c` in units of 2⁻¹⁴, clamped to [0, 2¹⁴]: the
+    /// difference exact in `i32` (|at − from| ≤ 65 535, and 65 535 · 32 767
+    /// < 2³¹, so the product is exact too), nearest, ties toward +∞.
+    fn schedule_fraction(at: Self, from: Self, c: SlimCoef) -> Self {
+        let d = i32::from(at.0) - i32::from(from.0);
+        let f = round_shift(d.saturating_mul(i32::from(c.mantissa)), u32::from(c.shift));
+        Self(clamp_i32(f, 0, i32::from(SLIM_FRACTION_ONE)) as i16)
+    }
+    fn schedule_inverse(from: Self, to: Self, _width: f64) -> Option<SlimCoef> {
+        SlimCoef::fraction_inverse(from, to)
+    }
+}
+
+/// Two 16-bit coefficients with one shift, so that they can be
+/// interpolated (`Backend::coef_pair`): the finer natural shift that holds
+/// both, at least 15 if `min_shift` (the Q16.16 figure, as in
+/// `Backend::check_gain`) is 16 or more; a zero takes the other's.
+pub(crate) const fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(SlimCoef, SlimCoef)> {
+    let min_shift = if min_shift >= 16 {
+        STATE_COEF_MIN_SHIFT
+    } else {
+        0
+    };
+    let (Some(ca), Some(cb)) = (
+        SlimCoef::from_f64(a, min_shift),
+        SlimCoef::from_f64(b, min_shift),
+    ) else {
+        return None;
+    };
+    let shift = match (a != 0.0, b != 0.0) {
+        (true, true) => {
+            if ca.shift < cb.shift {
+                ca.shift as u32
+            } else {
+                cb.shift as u32
+            }
+        }
+        (true, false) => ca.shift as u32,
+        (false, true) => cb.shift as u32,
+        (false, false) => min_shift,
+    };
+    coef_pair_at(a, b, shift + 16)
+}
+
+/// Two 16-bit coefficients at the layout's shift `shift` (the Q16.16
+/// figure) less 16.
+pub(crate) const fn coef_pair_at(a: f64, b: f64, shift: u32) -> Option<(SlimCoef, SlimCoef)> {
+    if shift < 16 {
+        return None;
+    }
+    match (
+        SlimCoef::with_shift(a, shift - 16),
+        SlimCoef::with_shift(b, shift - 16),
+    ) {
+        (Some(x), Some(y)) => Some((x, y)),
+        _ => None,
     }
 }
 
