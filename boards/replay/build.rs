@@ -1,6 +1,6 @@
 //! Turns the committed vector files into compile-time tables, one module
 //! per file: one `Config<I16F16>` per scenario (`Config<Slim16>` for the
-//! 16-bit file, version 3) (through `evenkeel::config!`,
+//! 16-bit files, versions 3 and 4) (through `evenkeel::config!`,
 //! so the target never converts settings at run time and links no
 //! floating-point routine), the same in the scenario's compile-time layout,
 //! each scenario's retune gains, and its gain schedule (through
@@ -15,7 +15,7 @@ use std::{env, fs};
 mod format;
 
 use format::{
-    COMMAND_COUNTS, File, HAS_BACK_CALCULATION, HAS_DEADBAND, HAS_FILTER, HAS_SLEW, VERSION_SLIM16,
+    COMMAND_COUNTS, File, HAS_BACK_CALCULATION, HAS_DEADBAND, HAS_FILTER, HAS_SLEW, sixteen_bit,
 };
 
 /// The backend a file's scenarios run on.
@@ -47,6 +47,7 @@ fn main() {
         ("golden", "golden.ekv", FIXED),
         ("schedule", "schedule.ekv", FIXED),
         ("slim16", "slim16.ekv", SLIM16),
+        ("slim16_schedule", "slim16_schedule.ekv", SLIM16),
     ] {
         let path = manifest.join("../../shared/vectors").join(file);
         println!("cargo:rerun-if-changed={}", path.display());
@@ -69,7 +70,7 @@ fn tables(module: &str, path: &Path, backend: &Backend) -> String {
     let file =
         File::open(&bytes).unwrap_or_else(|e| panic!("{}: {}", path.display(), e.describe()));
     assert_eq!(
-        file.version == VERSION_SLIM16,
+        sixteen_bit(file.version),
         backend.signal == SLIM16.signal,
         "{}: format version {} for backend {}",
         path.display(),
@@ -165,14 +166,14 @@ fn tables(module: &str, path: &Path, backend: &Backend) -> String {
         if s.row_count() > 0 {
             writeln!(
                 schedules,
-                "    Some(&evenkeel::schedule!(SCHEDULE_ROWS, {settings}, [{rows}])),"
+                "    Some(&evenkeel::schedule!({signal}: SCHEDULE_ROWS, {settings}, [{rows}])),"
             )
             .expect("write to String");
             writeln!(
                 layouts,
                 "    /// Scenario {index}'s schedule in its compile-time layout.\n\
-                 pub static LAYOUT_SCHEDULE_{index}: Schedule<I16F16, SCHEDULE_ROWS, Scenario{index}> = \
-                 evenkeel::schedule!(SCHEDULE_ROWS, Scenario{index}, {settings}, [{rows}]);"
+                 pub static LAYOUT_SCHEDULE_{index}: Schedule<{signal}, SCHEDULE_ROWS, Scenario{index}> = \
+                 evenkeel::schedule!({signal}: SCHEDULE_ROWS, Scenario{index}, {settings}, [{rows}]);"
             )
             .expect("write to String");
             writeln!(

@@ -526,3 +526,86 @@ fn slim16_sub_lsb_integral_moves_stalls_and_returns() {
         .collect();
     assert_eq!(changes, [(256, 1), (445, 0)]);
 }
+
+/// The committed 16-bit schedule set is what the generator produces today
+/// (see the comment at the top).
+#[test]
+fn committed_slim16_schedule_file_matches_generator() {
+    let fresh = vectors::generate_slim16_schedules().expect("scenarios are valid");
+    assert!(
+        fresh == read(vectors::SLIM16_SCHEDULE_FILE),
+        "16-bit schedule vectors differ from the generator"
+    );
+    assert_eq!(fresh.get(4), Some(&4), "format version 4");
+}
+
+/// The 16-bit schedule set replays through `Controller::schedule` with
+/// tables built at compile time (`schedule!(Slim16: …)`), as on the
+/// boards, in both configurations; and it schedules across every segment,
+/// at or beyond both ends (the extremes set has rows at both ends of the
+/// 16-bit range), with gains that move.
+#[test]
+fn slim16_schedule_set_replays_bit_exactly_and_covers_the_table() {
+    use evenkeel::{Schedule, Slim16};
+    let mut report = Collect::default();
+    let summary = replay::run_slim16_schedules(&mut report).expect("file reads to the end");
+    assert!(report.mismatches.is_empty(), "{:#?}", report.mismatches);
+    let recordings = vectors::slim16_schedules().expect("valid");
+    assert_eq!(summary.scenarios as usize, 2 * recordings.len());
+    assert_eq!(report.scenarios, report.compile_time);
+    let mut scheduled = 0;
+    for rec in &recordings {
+        let table: Schedule<Slim16, 4> =
+            Schedule::slim16(&rec.settings, &rec.rows).expect("valid rows");
+        let (first, last) = (rec.rows[0].at, rec.rows[rec.rows.len() - 1].at);
+        let mut kps = std::collections::BTreeSet::new();
+        let (mut below, mut above, mut segments) = (0, 0, std::collections::BTreeSet::new());
+        for step in &rec.steps {
+            let Op::Schedule(at) = step.op else { continue };
+            scheduled += 1;
+            let at = f64::from(at);
+            below += usize::from(at <= first);
+            above += usize::from(at >= last);
+            segments.insert(rec.rows.iter().filter(|r| r.at < at).count());
+            let raw = i16::try_from(at as i32).expect("16 bits");
+            let (kp, _) = table.gains(Slim16::from_raw(raw)).expect("non-empty");
+            kps.insert((kp.mantissa(), kp.shift()));
+        }
+        assert!(
+            below > 0 && above > 0,
+            "{}: {below} below, {above} above",
+            rec.name
+        );
+        assert!(
+            (1..rec.rows.len()).all(|k| segments.contains(&k)),
+            "{}: every segment, {segments:?}",
+            rec.name
+        );
+        assert!(kps.len() > 50, "{}: only {} gains", rec.name, kps.len());
+    }
+    assert!(scheduled > 1000, "only {scheduled} scheduled steps");
+}
+
+/// Version 4 carries 16-bit scheduling values: one outside 16 bits is
+/// refused, as any other signal there.
+#[test]
+fn slim16_schedule_files_with_wide_values_are_refused() {
+    let mut recs = vectors::slim16_schedules().expect("valid");
+    recs.truncate(1);
+    let step = recs[0]
+        .steps
+        .iter_mut()
+        .find(|s| matches!(s.op, Op::Schedule(_)))
+        .expect("a schedule step");
+    step.op = Op::Schedule(40_000);
+    assert!(matches!(
+        vectors::encode_version(&recs, 4),
+        Err(vectors::EncodeError::NotSixteenBit(_))
+    ));
+    // The same file as version 3 is refused for its schedule.
+    let recs = vectors::slim16_schedules().expect("valid");
+    assert!(matches!(
+        vectors::encode_version(&recs, 3),
+        Err(vectors::EncodeError::NeedsSchedule(_))
+    ));
+}

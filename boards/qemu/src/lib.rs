@@ -16,7 +16,7 @@ use cortex_m_semihosting::debug::{self, EXIT_FAILURE, EXIT_SUCCESS};
 use cortex_m_semihosting::hio::{self, HostStream};
 use evenkeel_replay::cost::{self, Clock, Cost, Rate};
 use evenkeel_replay::replay::{self, Mismatch, Report};
-use evenkeel_replay::tables::{golden, schedule, slim16};
+use evenkeel_replay::tables::{golden, schedule, slim16, slim16_schedule};
 
 /// What differs between the boards.
 #[derive(Clone, Copy, Debug)]
@@ -117,16 +117,21 @@ pub fn run(board: &Board) -> ! {
     let _ = writeln!(console, "evenkeel boards: {}", board.name);
     let _ = writeln!(
         console,
-        "vectors: golden {} bytes, schedule {} bytes, slim16 {} bytes",
+        "vectors: golden {} bytes, schedule {} bytes, slim16 {} bytes, slim16 schedule {} bytes",
         golden::VECTORS.len(),
         schedule::VECTORS.len(),
-        slim16::VECTORS.len()
+        slim16::VECTORS.len(),
+        slim16_schedule::VECTORS.len()
     );
     let mut passed = true;
     for (what, result) in [
         ("replay", replay::run(&mut console)),
         ("schedule replay", replay::run_schedules(&mut console)),
         ("slim16 replay", replay::run_slim16(&mut console)),
+        (
+            "slim16 schedule replay",
+            replay::run_slim16_schedules(&mut console),
+        ),
     ] {
         passed &= match result {
             Ok(s) => {

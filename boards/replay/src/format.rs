@@ -1,10 +1,10 @@
-//! Decoder for the vector files, format versions 1, 2 and 3
+//! Decoder for the vector files, format versions 1 to 4
 //! (`shared/vectors/FORMAT.md` is the specification).
 //!
 //! Streams straight from the bytes (flash on a microcontroller): no buffer,
 //! no allocation, no panic; a malformed file gives a [`FormatError`].
-//! Signals are raw Q16.16 bits (`i32`; in version 3 raw 16-bit values,
-//! sign-extended) and settings raw `f64` bits (`u64`),
+//! Signals are raw Q16.16 bits (`i32`; in versions 3 and 4 raw 16-bit
+//! values, sign-extended) and settings raw `f64` bits (`u64`),
 //! so decoding needs no floating point. The build script of this crate
 //! includes this file too, to turn each scenario's settings into a
 //! compile-time configuration.
@@ -19,8 +19,24 @@ pub const VERSION_SCHEDULE: u8 = 2;
 /// Version 3: version 1 for the 16-bit backend (`slim16.ekv`): each
 /// scenario adds its scaling, every signal is a 16-bit raw value.
 pub const VERSION_SLIM16: u8 = 3;
-/// Scaling flag (version 3): the command is whole actuator counts.
+/// Version 4: version 3 plus breakpoint rows per scenario and the
+/// schedule operation, its scheduling value a 16-bit raw value
+/// (`slim16_schedule.ekv`).
+pub const VERSION_SLIM16_SCHEDULE: u8 = 4;
+/// Scaling flag (versions 3 and 4): the command is whole actuator counts.
 pub const COMMAND_COUNTS: u8 = 1 << 0;
+/// The version stores breakpoint rows and the schedule operation (2, 4).
+#[must_use]
+pub const fn schedules(version: u8) -> bool {
+    matches!(version, VERSION_SCHEDULE | VERSION_SLIM16_SCHEDULE)
+}
+
+/// The version is a 16-bit one: scaling stored, raw 16-bit signals (3, 4).
+#[must_use]
+pub const fn sixteen_bit(version: u8) -> bool {
+    matches!(version, VERSION_SLIM16 | VERSION_SLIM16_SCHEDULE)
+}
+
 /// Length of one encoded breakpoint row (three `f64` bit patterns).
 pub const ROW_LEN: usize = 24;
 /// Length of the file header in bytes.
@@ -192,7 +208,7 @@ impl<'a> Cursor<'a> {
 pub struct File<'a> {
     /// Number of scenarios in the file.
     pub scenario_count: u8,
-    /// Format version (1, 2 or 3).
+    /// Format version (1 … 4).
     pub version: u8,
     body: &'a [u8],
 }
@@ -209,7 +225,10 @@ impl<'a> File<'a> {
             return Err(FormatError::Magic);
         }
         let version = c.u8()?;
-        if !matches!(version, VERSION | VERSION_SCHEDULE | VERSION_SLIM16) {
+        if !matches!(
+            version,
+            VERSION | VERSION_SCHEDULE | VERSION_SLIM16 | VERSION_SLIM16_SCHEDULE
+        ) {
             return Err(FormatError::Version(version));
         }
         let scenario_count = c.u8()?;
@@ -268,7 +287,7 @@ pub struct SettingsBits {
     pub deadband: u64,
     /// tracking_time_s (if [`HAS_BACK_CALCULATION`]).
     pub tracking_time_s: u64,
-    /// Version 3: the scaling (`evenkeel::Scaling`); version 1 and 2:
+    /// Versions 3 and 4: the scaling (`evenkeel::Scaling`); versions 1 and 2:
     /// [`ScalingBits::NONE`].
     pub scaling: ScalingBits,
 }
@@ -361,7 +380,7 @@ impl<'a> Scenario<'a> {
         })
     }
 
-    /// Number of gain-schedule breakpoint rows (version 2; 0 in version 1).
+    /// Number of gain-schedule breakpoint rows (versions 2 and 4; 0 in 1 and 3).
     #[must_use]
     pub const fn row_count(&self) -> usize {
         self.rows.len() / ROW_LEN
@@ -472,7 +491,7 @@ impl<'a> Scenarios<'a> {
         if flags & HAS_BACK_CALCULATION != 0 {
             s.tracking_time_s = c.u64()?;
         }
-        if version == VERSION_SLIM16 {
+        if sixteen_bit(version) {
             s.scaling = ScalingBits {
                 measurement_per_unit: c.u64()?,
                 measurement_offset: c.u64()?,
@@ -487,7 +506,7 @@ impl<'a> Scenarios<'a> {
         }
         let gain_count = c.u8()?;
         let gains = c.take(usize::from(gain_count) * GAIN_LEN)?;
-        let rows = if version == VERSION_SCHEDULE {
+        let rows = if schedules(version) {
             let row_count = c.u8()?;
             c.take(usize::from(row_count) * ROW_LEN)?
         } else {
@@ -596,7 +615,7 @@ impl Steps<'_> {
             },
             3 => Op::Reset,
             4 => Op::Retune { index: c.varint()? },
-            5 if version == VERSION_SCHEDULE => Op::Schedule {
+            5 if schedules(version) => Op::Schedule {
                 at: c.delta(prev.schedule_at)?,
             },
             other => return Err(FormatError::Op(other)),
@@ -627,9 +646,10 @@ impl Steps<'_> {
             Op::Schedule { at } => at,
             _ => prev.schedule_at,
         };
-        if version == VERSION_SLIM16 {
+        if sixteen_bit(version) {
             let actuator = match op {
                 Op::Engage { actuator } | Op::Track { actuator } => actuator,
+                Op::Schedule { at } => at,
                 _ => 0,
             };
             let fits = |x: i32| i16::try_from(x).is_ok();

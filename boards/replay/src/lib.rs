@@ -1,11 +1,13 @@
 //! Golden-vector replay for evenkeel, shared by every board firmware and by
 //! the host test `tests/tests/golden.rs`.
 //!
-//! The vector files (`shared/vectors/golden.ekv`, `schedule.ekv` and the
-//! 16-bit set `slim16.ekv`) are embedded and read in place ([`format`]);
+//! The vector files (`shared/vectors/golden.ekv`, `schedule.ekv`, the
+//! 16-bit set `slim16.ekv` and the 16-bit schedule set
+//! `slim16_schedule.ekv`) are embedded and read in place ([`format`]);
 //! each scenario's configuration is evaluated at compile time
-//! ([`tables`]); [`replay::run`], [`replay::run_schedules`] and
-//! [`replay::run_slim16`] drive the controller through [`probe`] and
+//! ([`tables`]); [`replay::run`], [`replay::run_schedules`],
+//! [`replay::run_slim16`] and [`replay::run_slim16_schedules`] drive the
+//! controller through [`probe`] and
 //! report every bit difference to a [`replay::Report`];
 //! [`cost`] times single steps against a [`cost::Clock`]; [`floor`] is
 //! the 16-bit step written by hand for the two cost workloads.
@@ -26,7 +28,7 @@ pub type Slim16 = evenkeel::Slim16;
 
 /// Compile-time tables generated from the vector files by `build.rs`: one
 /// module per file ([`tables::golden`], [`tables::schedule`],
-/// [`tables::slim16`]).
+/// [`tables::slim16`], [`tables::slim16_schedule`]).
 pub mod tables {
     use evenkeel::fixed::types::I16F16;
     use evenkeel::{

@@ -6,14 +6,11 @@ use evenkeel::{Backend, Config, Controller, Input, Layout, Output, Schedule, Sli
 
 use crate::format::{File, FormatError, Op, Scenario, Step};
 use crate::probe;
-use crate::tables::{ConfigVisitor, SCHEDULE_ROWS, golden, schedule, slim16};
+use crate::tables::{ConfigVisitor, SCHEDULE_ROWS, golden, schedule, slim16, slim16_schedule};
 
 /// A signal as the vector files store it: Q16.16 bits, or a 16-bit raw
-/// value sign-extended (format version 3).
+/// value sign-extended (format versions 3 and 4).
 pub trait Word: Backend {
-    /// Whether the backend's vector files may schedule (`false` keeps the
-    /// schedule code out of a firmware that replays only 16-bit files).
-    const SCHEDULES: bool;
     /// The signal stored as `word`; `None` if it does not fit the backend.
     fn from_word(word: i32) -> Option<Self>;
     /// The stored form of the signal.
@@ -21,7 +18,6 @@ pub trait Word: Backend {
 }
 
 impl Word for I16F16 {
-    const SCHEDULES: bool = true;
     fn from_word(word: i32) -> Option<Self> {
         Some(I16F16::from_bits(word))
     }
@@ -31,8 +27,6 @@ impl Word for I16F16 {
 }
 
 impl Word for Slim16 {
-    // FORMATS.md §8: no gain schedules for this format yet.
-    const SCHEDULES: bool = false;
     fn from_word(word: i32) -> Option<Self> {
         i16::try_from(word).ok().map(Slim16::from_raw)
     }
@@ -92,8 +86,7 @@ pub enum ReplayError {
     /// The vector file is malformed.
     Format(FormatError),
     /// The file and the compile-time tables disagree (scenario count or
-    /// name, or a schedule step without a schedule or in a backend without
-    /// schedules).
+    /// name, or a schedule step in a scenario without a schedule).
     Tables,
     /// A retune refers to a gain the scenario does not have, or the
     /// controller refused it.
@@ -185,6 +178,16 @@ pub fn run_schedules(report: &mut impl Report) -> Result<Summary, ReplayError> {
 /// As [`run`].
 pub fn run_slim16(report: &mut impl Report) -> Result<Summary, ReplayError> {
     replay_file!(slim16, report)
+}
+
+/// Replay the embedded 16-bit schedule set (`slim16_schedule.ekv`, format
+/// version 4): every schedule step applies the scenario's compile-time
+/// schedule (`schedule!(Slim16: …)`) with `Controller::schedule`.
+///
+/// # Errors
+/// As [`run`].
+pub fn run_slim16_schedules(report: &mut impl Report) -> Result<Summary, ReplayError> {
+    replay_file!(slim16_schedule, report)
 }
 
 /// One scenario, replayed with whatever configuration it is handed.
@@ -305,9 +308,6 @@ pub fn apply<B: Word, L: Layout>(
             run(pi)
         }
         Op::Schedule { at } => {
-            if !B::SCHEDULES {
-                return Err(ReplayError::Tables);
-            }
             let table = table.ok_or(ReplayError::Tables)?;
             probe::schedule(pi, table, q(at)?);
             run(pi)

@@ -1,6 +1,7 @@
 //! Writer for the vector files, format versions 1 (golden), 2 (with
-//! schedule rows and the schedule operation) and 3 (the 16-bit backend:
-//! scaling, raw 16-bit signals)
+//! schedule rows and the schedule operation), 3 (the 16-bit backend:
+//! scaling, raw 16-bit signals) and 4 (version 3 with schedule rows and
+//! the schedule operation)
 //! (`shared/vectors/FORMAT.md`; the reader is `boards/replay/src/format.rs`).
 
 use evenkeel::{AntiWindup, Settings};
@@ -16,6 +17,19 @@ pub const VERSION_SCHEDULE: u8 = 2;
 /// Format version of the 16-bit set (`Slim16`): version 1 plus each
 /// scenario's scaling; signals are raw 16-bit values.
 pub const VERSION_SLIM16: u8 = 3;
+/// Format version of the 16-bit schedule set: version 3 plus breakpoint
+/// rows and the schedule operation (its scheduling value raw, 16 bits).
+pub const VERSION_SLIM16_SCHEDULE: u8 = 4;
+
+/// The version stores breakpoint rows and may schedule.
+const fn schedules(version: u8) -> bool {
+    matches!(version, VERSION_SCHEDULE | VERSION_SLIM16_SCHEDULE)
+}
+
+/// The version is a 16-bit one (scaling stored, raw 16-bit signals).
+const fn sixteen_bit_version(version: u8) -> bool {
+    matches!(version, VERSION_SLIM16 | VERSION_SLIM16_SCHEDULE)
+}
 
 /// Scaling flag (version 3): the command is whole actuator counts.
 const COMMAND_COUNTS: u8 = 1 << 0;
@@ -40,7 +54,7 @@ pub enum EncodeError {
     /// A scenario with more than 255 retune gains or rows, or 65 535 steps.
     TooLarge(String),
     /// Schedule rows or steps in a version-1 or version-3 file.
-    NeedsVersion2(String),
+    NeedsSchedule(String),
     /// A signal outside 16 bits in a version-3 file.
     NotSixteenBit(String),
 }
@@ -51,7 +65,9 @@ impl std::fmt::Display for EncodeError {
             Self::TooManyScenarios => f.write_str("more than 255 scenarios"),
             Self::Name(n) => write!(f, "scenario name {n:?} is not short ASCII"),
             Self::TooLarge(n) => write!(f, "scenario {n} has too many gains, rows or steps"),
-            Self::NeedsVersion2(n) => write!(f, "scenario {n} has a schedule: format version 2"),
+            Self::NeedsSchedule(n) => {
+                write!(f, "scenario {n} has a schedule: format version 2 or 4")
+            }
             Self::NotSixteenBit(n) => write!(f, "scenario {n} has a signal outside 16 bits"),
         }
     }
@@ -67,7 +83,7 @@ pub fn encode(recordings: &[Recording]) -> Result<Vec<u8>, EncodeError> {
     encode_version(recordings, VERSION)
 }
 
-/// The whole file for `recordings` in format `version` (1, 2 or 3).
+/// The whole file for `recordings` in format `version` (1 … 4).
 ///
 /// # Errors
 /// [`EncodeError`] if a count or name does not fit the format.
@@ -75,10 +91,10 @@ pub fn encode_version(recordings: &[Recording], version: u8) -> Result<Vec<u8>, 
     let mut body = Vec::new();
     for r in recordings {
         let scheduled = r.steps.iter().any(|s| matches!(s.op, Op::Schedule(_)));
-        if version != VERSION_SCHEDULE && (scheduled || !r.rows.is_empty()) {
-            return Err(EncodeError::NeedsVersion2(r.name.clone()));
+        if !schedules(version) && (scheduled || !r.rows.is_empty()) {
+            return Err(EncodeError::NeedsSchedule(r.name.clone()));
         }
-        if version == VERSION_SLIM16 && !r.steps.iter().all(sixteen_bit) {
+        if sixteen_bit_version(version) && !r.steps.iter().all(sixteen_bit) {
             return Err(EncodeError::NotSixteenBit(r.name.clone()));
         }
         scenario(&mut body, r, version)?;
@@ -96,7 +112,7 @@ pub fn encode_version(recordings: &[Recording], version: u8) -> Result<Vec<u8>, 
 /// Every signal of `s` is a 16-bit raw value.
 fn sixteen_bit(s: &Recorded) -> bool {
     let actuator = match s.op {
-        Op::Engage(a) | Op::Track(a) => a,
+        Op::Engage(a) | Op::Track(a) | Op::Schedule(a) => a,
         _ => 0,
     };
     [
@@ -136,7 +152,7 @@ fn scenario(out: &mut Vec<u8>, r: &Recording, version: u8) -> Result<(), EncodeE
             out.push(u8::try_from(c.shift).map_err(|_| too_large())?);
         }
     }
-    if version == VERSION_SCHEDULE {
+    if schedules(version) {
         out.push(u8::try_from(r.rows.len()).map_err(|_| too_large())?);
         for row in &r.rows {
             for x in [row.at, row.kp, row.ki_per_s] {
@@ -190,7 +206,7 @@ fn settings(out: &mut Vec<u8>, s: &Settings, version: u8) {
     for x in optional.iter().filter_map(|(_, v)| *v) {
         out.extend_from_slice(&x.to_bits().to_le_bytes());
     }
-    if version == VERSION_SLIM16 {
+    if sixteen_bit_version(version) {
         let c = &s.scaling;
         for x in [
             c.measurement.per_unit,

@@ -1,9 +1,11 @@
 //! Run a 16-bit (`Slim16`) scenario on the host and record every input
 //! and output bit, as [`super::record`] does for Q16.16.
 
-use evenkeel::{Config, ConfigError, Controller, Input, Output, Settings, Slim16};
+use evenkeel::{
+    Breakpoint, Config, ConfigError, Controller, Input, Output, Schedule, Settings, Slim16,
+};
 
-use super::record::{Op, Recorded, Recording};
+use super::record::{Op, Recorded, Recording, SCHEDULE_ROWS};
 
 /// An operation on a 16-bit controller, in raw units.
 #[derive(Clone, Copy, Debug, Default)]
@@ -25,6 +27,10 @@ pub enum SlimEvent {
         /// Integral gain per second.
         ki_per_s: f64,
     },
+    /// Apply the scenario's gain schedule at this raw scheduling value
+    /// (`Controller::schedule`), then step; recorded as the schedule
+    /// operation.
+    Schedule(Slim16),
 }
 
 /// Inputs of one 16-bit step beyond setpoint and measurement.
@@ -41,6 +47,7 @@ pub struct SlimExtra {
 /// Drives a 16-bit controller and records it.
 pub struct SlimRecorder {
     pi: Controller<Slim16>,
+    schedule: Option<Schedule<Slim16, SCHEDULE_ROWS>>,
     recording: Recording,
 }
 
@@ -52,6 +59,7 @@ impl SlimRecorder {
     pub fn new(name: &str, settings: Settings) -> Result<Self, ConfigError> {
         Ok(Self {
             pi: Controller::new(Config::try_new(&settings)?),
+            schedule: None,
             recording: Recording {
                 name: name.to_owned(),
                 settings,
@@ -60,6 +68,24 @@ impl SlimRecorder {
                 steps: Vec::new(),
             },
         })
+    }
+
+    /// A recorder for `settings` with the gain schedule of `rows`, built
+    /// by the `const` builder as the firmware builds it; the rows are
+    /// recorded with the scenario.
+    ///
+    /// # Errors
+    /// The configuration error of `settings` or of the schedule.
+    pub fn scheduled(
+        name: &str,
+        settings: Settings,
+        rows: &[Breakpoint],
+    ) -> Result<Self, ConfigError> {
+        let table = Schedule::slim16(&settings, rows)?;
+        let mut rec = Self::new(name, settings)?;
+        rec.schedule = Some(table);
+        rec.recording.rows = rows.to_vec();
+        Ok(rec)
     }
 
     /// The last command.
@@ -114,6 +140,11 @@ impl SlimRecorder {
                 self.pi.retune(self.pi.config().with_gains(kp, ki_ts)?);
                 let index = self.recording.gain_index(kp.into(), ki_ts.into());
                 (Op::Retune(index), run(&mut self.pi))
+            }
+            SlimEvent::Schedule(at) => {
+                let table = self.schedule.as_ref().ok_or(ConfigError::Schedule)?;
+                self.pi.schedule(table, at);
+                (Op::Schedule(word(at)), run(&mut self.pi))
             }
         };
         self.recording.steps.push(Recorded {

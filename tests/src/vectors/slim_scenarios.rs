@@ -1,4 +1,5 @@
-//! The scenarios of the 16-bit set (`slim16.ekv`, format version 3): the
+//! The scenarios of the 16-bit set (`slim16.ekv`, format version 3) and of
+//! the 16-bit schedule set (`slim16_schedule.ekv`, version 4): the
 //! `Slim16` backend through every anti-windup mode, slew limit, filter,
 //! deadband and setpoint weight, engage/track/reset/retune, an ADC and a
 //! PWM counter with offsets, sub-LSB integration, and hostile inputs.
@@ -8,7 +9,7 @@
 //! `f64` (and `round`, which is exact), so every host writes the same
 //! bytes. The loops and numbers are invented for the tests.
 
-use evenkeel::{AntiWindup, ConfigError, Scale, Scaling, Settings, Slim16};
+use evenkeel::{AntiWindup, Breakpoint, ConfigError, Scale, Scaling, Settings, Slim16};
 
 use super::record::Recording;
 use super::scenarios::Noise;
@@ -532,6 +533,203 @@ fn random_everything() -> Result<Recording, ConfigError> {
             event,
         };
         rec.step(units.y(r), units.y(y), extra)?;
+    }
+    Ok(rec.finish())
+}
+
+/// Every scenario of the 16-bit schedule set (`slim16_schedule.ekv`,
+/// format version 4): the gain schedule applied with
+/// `Controller::schedule` on (almost) every step, from a table the
+/// firmware builds at compile time from the stored rows
+/// (`schedule!(Slim16: …)`).
+///
+/// # Errors
+/// A configuration error if a scenario's settings or rows are invalid (a
+/// bug here).
+pub fn schedules() -> Result<Vec<Recording>, ConfigError> {
+    Ok(vec![
+        schedule_blower()?,
+        schedule_all_features()?,
+        schedule_extremes()?,
+    ])
+}
+
+/// A small blower holding a duct pressure (invented for the tests): a
+/// 12-bit ADC reads 0 … 500 Pa as 400 … 3680 counts, the controller
+/// writes a PWM compare value of 0 … 1000, and the gains are scheduled on
+/// the blower's tachometer reading in counts (0 … 4000, raw), because the
+/// pressure gained per duty step grows with speed.
+fn schedule_blower() -> Result<Recording, ConfigError> {
+    let settings = Settings::new(0.002, 0.8, 6.0, 0.0, 100.0)
+        .with_measurement_range(0.0, 520.0)
+        .with_scaling(
+            Scaling::NONE
+                .with_adc(12, Scale::new(6.56, 400.0))
+                .with_pwm(Scale::new(10.0, 0.0)),
+        );
+    let rows = [
+        Breakpoint {
+            at: 500.0,
+            kp: 1.6,
+            ki_per_s: 12.0,
+        },
+        Breakpoint {
+            at: 2000.0,
+            kp: 0.8,
+            ki_per_s: 6.0,
+        },
+        Breakpoint {
+            at: 3600.0,
+            kp: 0.35,
+            ki_per_s: 2.5,
+        },
+    ];
+    let scaling = settings.scaling;
+    let units = Units::of(&settings);
+    let mut rec = SlimRecorder::scheduled("slim_schedule_blower", settings, &rows)?;
+    let mut pressure = 0.0;
+    let mut speed = 0.0; // tachometer counts
+    let mut noise = Noise(0x0b10_3e55);
+    for k in 0..600 {
+        let r = [80.0, 300.0, 480.0, 20.0, 200.0, 520.0][k / 100];
+        let tach = raw(speed + 15.0 * noise.centred());
+        let extra = SlimExtra {
+            event: SlimEvent::Schedule(tach),
+            ..SlimExtra::default()
+        };
+        let reading = scaling.adc_reading(pressure + 2.0 * noise.centred());
+        let out = rec.step(units.y(r), raw(reading), extra)?;
+        let duty = units.physical(out.command);
+        // Speed follows the duty (4400 counts at full duty, so the table's
+        // ends are passed); pressure grows with the square of speed.
+        speed += 0.05 * (44.0 * duty - speed);
+        pressure += 0.04 * (5.2 * (speed / 4000.0) * (speed / 4000.0) * 100.0 - pressure);
+    }
+    Ok(rec.finish())
+}
+
+/// Every feature with a four-row schedule whose gains span a decade (so
+/// the segments have different shifts), the scheduling variable following
+/// the measurement beyond both ends, with engage, track and reset between
+/// the schedule steps.
+fn schedule_all_features() -> Result<Recording, ConfigError> {
+    let settings = Settings::new(0.005, 2.0, 5.0, -20.0, 60.0)
+        .with_slew_per_s(400.0)
+        .with_filter_time_s(0.02)
+        .with_deadband(0.05)
+        .with_setpoint_weight(0.6)
+        .with_anti_windup(back(0.05))
+        .with_measurement_range(-50.0, 150.0)
+        .with_scaling(Scaling::covering(-50.0, 150.0, -20.0, 60.0));
+    let rows = [
+        Breakpoint {
+            at: -8000.0,
+            kp: 0.4,
+            ki_per_s: 1.0,
+        },
+        Breakpoint {
+            at: -1000.0,
+            kp: 1.5,
+            ki_per_s: 4.0,
+        },
+        Breakpoint {
+            at: 6000.0,
+            kp: 4.0,
+            ki_per_s: 9.0,
+        },
+        Breakpoint {
+            at: 12000.0,
+            kp: 12.0,
+            ki_per_s: 30.0,
+        },
+    ];
+    let units = Units::of(&settings);
+    let mut rec = SlimRecorder::scheduled("slim_schedule_all_features", settings, &rows)?;
+    let mut plant = Lag {
+        y: 0.0,
+        a: 0.03,
+        k: 0.8,
+    };
+    let mut noise = Noise(0x5c4e_d01e);
+    for k in 0..500 {
+        let r = [20.0, 70.0, -10.0, 120.0, 40.0][k / 100];
+        let y = units.y(plant.y + 0.05 * noise.centred());
+        // The scheduling variable: the raw measurement, stretched and noisy.
+        let at = raw(12.0 * f64::from(y.raw()) - 10_000.0 + 1500.0 * noise.centred());
+        let event = match k % 97 {
+            13 => SlimEvent::Engage(units.u(10.0)),
+            41 => SlimEvent::Track(rec.last_command()),
+            77 => SlimEvent::Reset,
+            _ => SlimEvent::Schedule(at),
+        };
+        let extra = SlimExtra {
+            feed_forward: units.du(0.1 * r),
+            applied: (k % 7 != 0).then(|| rec.last_command().min(units.u(50.0))),
+            event,
+        };
+        let out = rec.step(units.y(r), y, extra)?;
+        plant.advance(units.physical(out.command).min(50.0), 0.0);
+    }
+    Ok(rec.finish())
+}
+
+/// Breakpoints at both ends of the 16-bit range (a segment 65 535 wide)
+/// and a one-LSB segment; scheduling values and inputs at the extremes.
+fn schedule_extremes() -> Result<Recording, ConfigError> {
+    let settings = Settings::new(0.01, 1.0, 1.0, -30_000.0, 30_000.0).with_slew_per_s(500_000.0);
+    let rows = [
+        Breakpoint {
+            at: -32_768.0,
+            kp: 0.5,
+            ki_per_s: 1.0,
+        },
+        Breakpoint {
+            at: 0.0,
+            kp: 8.0,
+            ki_per_s: 20.0,
+        },
+        Breakpoint {
+            at: 1.0,
+            kp: 3.0,
+            ki_per_s: 5.0,
+        },
+        Breakpoint {
+            at: 32_767.0,
+            kp: 6.0,
+            ki_per_s: 9.0,
+        },
+    ];
+    let mut rec = SlimRecorder::scheduled("slim_schedule_extremes", settings, &rows)?;
+    let mut noise = Noise(0xe3e3_0001);
+    let pick = |n: &mut Noise| match n.next() % 7 {
+        0 => Slim16::MIN,
+        1 => Slim16::MAX,
+        2 => Slim16::ZERO,
+        3 => Slim16::from_raw(1),
+        4 => Slim16::from_raw(-1),
+        _ => Slim16::from_raw(n.next() as i16),
+    };
+    for _ in 0..300 {
+        let at = pick(&mut noise);
+        let (r, y) = if noise.chance(20) {
+            (pick(&mut noise), pick(&mut noise))
+        } else {
+            let r = (noise.next() % 2001) as i16 - 1000;
+            (
+                Slim16::from_raw(r),
+                Slim16::from_raw(r.saturating_add((noise.next() % 41) as i16 - 20)),
+            )
+        };
+        let extra = SlimExtra {
+            feed_forward: if noise.chance(30) {
+                pick(&mut noise)
+            } else {
+                Slim16::ZERO
+            },
+            applied: noise.chance(30).then(|| pick(&mut noise)),
+            event: SlimEvent::Schedule(at),
+        };
+        rec.step(r, y, extra)?;
     }
     Ok(rec.finish())
 }
