@@ -66,7 +66,7 @@ pub use layout::{Features, Layout, Runtime, Shape};
 pub use parts::{CoefParts, ConfigParts};
 pub use q::FixedCoef;
 pub use scaling::{Scale, Scaling};
-pub use schedule::{Breakpoint, Schedule, ScheduleError};
+pub use schedule::{Breakpoint, SCHEDULE_GAIN_TOLERANCE, Schedule, ScheduleError};
 pub use settings::{AntiWindup, PerSample, Settings};
 pub use slim::{Slim16, SlimCoef};
 pub use status::Status;
