@@ -163,14 +163,124 @@ evenkeel::frozen!(SlimFrozenMinimal: Slim16 = SLIM_MINIMAL);
 /// same bits.
 fn bench_frozen(c: &mut Criterion) {
     let full = inputs::<I16F16>();
-    bench_steps(c, "step/fixed-frozen/minimal", FrozenMinimal::CONFIG, &plain(&full));
+    bench_steps(
+        c,
+        "step/fixed-frozen/minimal",
+        FrozenMinimal::CONFIG,
+        &plain(&full),
+    );
     bench_steps(c, "step/fixed-frozen/full", FrozenFull::CONFIG, &full);
     let full = slim_inputs();
-    bench_steps(c, "step/slim16-frozen/minimal", SlimFrozenMinimal::CONFIG, &plain(&full));
+    bench_steps(
+        c,
+        "step/slim16-frozen/minimal",
+        SlimFrozenMinimal::CONFIG,
+        &plain(&full),
+    );
     bench_steps(c, "step/slim16-frozen/full", SlimFrozenFull::CONFIG, &full);
 }
 
+/// A step bench as on the boards: every step one out-of-line call
+/// (`evenkeel_replay::probe`, `#[inline(never)]`), as the hand-written
+/// floor's steps are; `step` for inputs without feed-forward and applied
+/// value.
+fn probe_steps<B: Backend, L: evenkeel::Layout>(
+    c: &mut Criterion,
+    name: &str,
+    config: Config<B, L>,
+    inputs: &[Input<B>],
+) {
+    use evenkeel_replay::probe;
+    let mut pi = probe::new(config);
+    let mut k = 0usize;
+    c.bench_function(name, |b| {
+        b.iter(|| {
+            k = (k + 1) & 255;
+            let input = black_box(
+                inputs
+                    .get(k)
+                    .copied()
+                    .unwrap_or(Input::new(B::ZERO, B::ZERO)),
+            );
+            if input.applied.is_none() && input.feed_forward == B::ZERO {
+                black_box(probe::step(&mut pi, input.setpoint, input.measurement))
+            } else {
+                black_box(probe::step_with(&mut pi, &input))
+            }
+        })
+    });
+}
+
+/// The boards' cost workloads on the host (`evenkeel_replay::cost`): `f64`
+/// with the physical settings, the frozen 16-bit configuration, and the
+/// 16-bit step written by hand for these settings
+/// (`evenkeel_replay::floor`, the same bits as the library), on the same
+/// 256 inputs (the bench profile at 512 raw per unit, the workloads'
+/// scale); every step one out-of-line call, as on the boards. The floor
+/// shows what a 16-bit step with these semantics costs here, written
+/// without the library's generic structure.
+fn bench_workload_floor(c: &mut Criterion) {
+    use evenkeel_replay::{cost, floor};
+    evenkeel::frozen!(WorkFull: Slim16 = cost::SLIM_FULL);
+    evenkeel::frozen!(WorkMinimal: Slim16 = cost::SLIM_MINIMAL);
+    let physical = inputs::<f64>();
+    let raw = |x: f64| Slim16::from_f64(x * cost::SLIM_SCALE);
+    let slim: Vec<Input<Slim16>> = physical
+        .iter()
+        .map(|i| {
+            Input::new(raw(i.setpoint), raw(i.measurement))
+                .with_feed_forward(raw(i.feed_forward))
+                .with_applied(raw(i.applied.unwrap_or(0.0)))
+        })
+        .collect();
+    let f64_full = Config::<f64>::try_new(&cost::FULL).expect("valid workload");
+    let f64_minimal = Config::<f64>::try_new(&cost::MINIMAL).expect("valid workload");
+    probe_steps(c, "workload/f64/minimal", f64_minimal, &plain(&physical));
+    probe_steps(c, "workload/f64/full", f64_full, &physical);
+    probe_steps(
+        c,
+        "workload/slim16-frozen/minimal",
+        WorkMinimal::CONFIG,
+        &plain(&slim),
+    );
+    probe_steps(c, "workload/slim16-frozen/full", WorkFull::CONFIG, &slim);
+    let pick = |k: usize| {
+        slim.get(k)
+            .copied()
+            .unwrap_or(Input::new(Slim16::ZERO, Slim16::ZERO))
+    };
+    let mut state = floor::Minimal::new();
+    let mut k = 0usize;
+    c.bench_function("workload/slim16-floor/minimal", |b| {
+        b.iter(|| {
+            k = (k + 1) & 255;
+            let i = black_box(pick(k));
+            black_box(floor::minimal_step(
+                &mut state,
+                i.setpoint.raw(),
+                i.measurement.raw(),
+            ))
+        })
+    });
+    let mut state = floor::Full::new();
+    c.bench_function("workload/slim16-floor/full", |b| {
+        b.iter(|| {
+            k = (k + 1) & 255;
+            let i = black_box(pick(k));
+            let applied = i.applied.unwrap_or(Slim16::ZERO).raw();
+            black_box(floor::full_step(
+                &mut state,
+                i.setpoint.raw(),
+                i.measurement.raw(),
+                i.feed_forward.raw(),
+                applied,
+            ))
+        })
+    });
+}
+
 fn benches(c: &mut Criterion) {
+    bench_workload_floor(c);
     bench_frozen(c);
     bench_layout(c);
     bench_slim16(c);
