@@ -892,24 +892,31 @@ pub const fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(FixedCoef, Fix
     ) else {
         return None;
     };
-    let shift = match (a != 0.0, b != 0.0) {
-        (true, true) => {
-            if ca.shift < cb.shift {
-                ca.shift as u32
-            } else {
-                cb.shift as u32
-            }
-        }
-        (true, false) => ca.shift as u32,
-        (false, true) => cb.shift as u32,
-        (false, false) => min_shift,
-    };
+    let shift = common_shift(a, b, ca.shift as u32, cb.shift as u32, min_shift);
     match (
         FixedCoef::with_shift(a, shift),
         FixedCoef::with_shift(b, shift),
     ) {
         (Some(x), Some(y)) => Some((x, y)),
         _ => None,
+    }
+}
+
+/// The shift a pair of coefficients shares, from their natural shifts `sa`
+/// and `sb`: the smaller (finer that holds both), a zero's taken from the
+/// other, `min_shift` for two zeros. Both fixed formats' pairs use it.
+pub(crate) const fn common_shift(a: f64, b: f64, sa: u32, sb: u32, min_shift: u32) -> u32 {
+    match (a != 0.0, b != 0.0) {
+        (true, true) => {
+            if sa < sb {
+                sa
+            } else {
+                sb
+            }
+        }
+        (true, false) => sa,
+        (false, true) => sb,
+        (false, false) => min_shift,
     }
 }
 

@@ -625,18 +625,7 @@ pub(crate) const fn coef_pair(a: f64, b: f64, min_shift: u32) -> Option<(SlimCoe
     ) else {
         return None;
     };
-    let shift = match (a != 0.0, b != 0.0) {
-        (true, true) => {
-            if ca.shift < cb.shift {
-                ca.shift as u32
-            } else {
-                cb.shift as u32
-            }
-        }
-        (true, false) => ca.shift as u32,
-        (false, true) => cb.shift as u32,
-        (false, false) => min_shift,
-    };
+    let shift = crate::q::common_shift(a, b, ca.shift as u32, cb.shift as u32, min_shift);
     coef_pair_at(a, b, shift + 16)
 }
 
