@@ -448,6 +448,28 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     fn frozen<L: Layout>() -> Option<&'static Config<Self, L>> {
         None
     }
+    /// Under a [`crate::frozen!`] layout whose configuration proves it at
+    /// compile time, the error `r − y_f` and the sum `P + I` of a step with
+    /// the zero feed-forward, computed without the intermediate
+    /// saturations of the format: `(e, v)`, each equal to the step's own
+    /// `e`, and `v` on the same side of each output limit as the step's
+    /// own sum (equal to it whenever that is within the limits). Every
+    /// other layout, and any configuration the proof does not cover:
+    /// `None` (the step computes both itself). `integral` is the
+    /// integrator state, within its range or zero. The default is `None`.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Runtime, Settings, Slim16};
+    /// evenkeel::frozen!(Fan: Slim16 = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0));
+    /// let (r, y) = (Slim16::from_raw(60), Slim16::from_raw(20));
+    /// assert_eq!(Slim16::frozen_sum::<Fan>(r, y, 0), Some((Slim16::from_raw(40), Slim16::from_raw(40))));
+    /// assert_eq!(Slim16::frozen_sum::<Runtime>(r, y, 0), None);
+    /// ```
+    #[inline(always)]
+    fn frozen_sum<L: Layout>(r: Self, y_f: Self, integral: Self::Accum) -> Option<(Self, Self)> {
+        let _ = (r, y_f, integral);
+        None
+    }
     /// `acc` clamped into `[lo, hi]` (`lo ≤ hi`): the integrator's clamp.
     /// The default compares the accumulators; Q16.16 first compares only
     /// their upper 32 bits, which decides every value whose integer part

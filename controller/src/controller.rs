@@ -455,7 +455,18 @@ impl<B: Backend, L: Layout> Controller<B, L> {
 
         // The integrator is within its range (or zero before the first
         // step), where the state's own narrowing applies.
-        let mut v = p.add(B::narrow_state(self.integral)).add(ff);
+        // A frozen configuration that proves it (`Backend::frozen_sum`):
+        // `e` and `P + I` without the intermediate saturations; `P` itself is
+        // then read only by an engage.
+        let wide = if B::EXACT_SUMS && input.feed_forward == B::ZERO {
+            B::frozen_sum::<L>(r, y_f, self.integral)
+        } else {
+            None
+        };
+        let (e, mut v) = match wide {
+            Some(ev) => ev,
+            None => (e, p.add(B::narrow_state(self.integral)).add(ff)),
+        };
         if state & ENGAGE != 0 {
             let actuator = self.engage_at;
             // Bumpless engage: the command continues from the actuator's

@@ -540,6 +540,35 @@ impl Backend for Slim16 {
     fn frozen<L: Layout>() -> Option<&'static Config<Self, L>> {
         const { &L::FROZEN_SLIM16 }.as_ref()
     }
+    /// The proof is [`wide_sums_hold`], evaluated once per layout at
+    /// compile time; with it, `e = sat(r − y_f)` and `v = sat(Kp·(r − y_f)
+    /// + I + ff)` in `i32` with one saturation each, instead of the
+    /// saturations after the difference, the product, the narrowing of
+    /// `I` and the sum.
+    #[inline(always)]
+    fn frozen_sum<L: Layout>(r: Self, y_f: Self, integral: i32) -> Option<(Self, Self)> {
+        if !const {
+            match &L::FROZEN_SLIM16 {
+                Some(c) => wide_sums_hold(c),
+                None => false,
+            }
+        } {
+            return None;
+        }
+        let c = const { &L::FROZEN_SLIM16 }.as_ref()?;
+        // No sum or product below wraps: `wide_sums_hold` bounds
+        // |r − y_f| · Kp + ½ and |P| + 2¹⁶ below 2³¹, and |integral| < 2³⁰.
+        let e = i32::from(r.0).wrapping_sub(i32::from(y_f.0));
+        let p = round_half_added(
+            e.wrapping_mul(i32::from(c.kp.mantissa)),
+            u32::from(c.kp.shift),
+        );
+        let i = round_half_added(integral, SLIM_STATE_FRAC_BITS);
+        let v = p
+            .wrapping_add(i)
+            .wrapping_add(i32::from(c.feed_forward_zero.0));
+        Some((Self(saturate_i16(e)), Self(saturate_i16(v))))
+    }
     #[inline(always)]
     fn narrow_state(acc: i32) -> Self {
         Self(saturate_i16(round_half_added(acc, SLIM_STATE_FRAC_BITS)))
@@ -724,6 +753,134 @@ impl<L: Layout> Config<Slim16, L> {
             rest,
             layout: core::marker::PhantomData,
         }
+    }
+}
+
+/// Whether, for the configuration `c`, a step with the zero feed-forward
+/// may compute `e = r − y_f` and `v = P + I + ff` in `i32` and saturate
+/// each once ([`Backend::frozen_sum`]) with the same command, status and
+/// state as the step's own 16-bit chain `e = r ⊖ y_f`, `P = sat(Kp·e)`,
+/// `v = (P ⊕ sat(I)) ⊕ ff` (⊖, ⊕: saturating).
+///
+/// Only conditional integration without deadband and setpoint weight (the
+/// step then reads `e` for the integrator's product and the sign of the
+/// hold test, and `v` only through its comparisons with the output
+/// limits and the command). `e`: the wide difference saturated once is
+/// the chain's `e` exactly. `v`: if no saturation of the chain acts, both
+/// are the exact sum. If one acts upward, take the first that does:
+/// (a) `r − y_f` > 32 767, (b) Kp·e > 32 767, (c) P + I > 32 767, (d) the
+/// last sum > 32 767. For (d) both give 32 767. For (a)–(c) the proof
+/// requires both above `output_max`, from the lower bound of each after
+/// that event (each step of both chains is monotone in every operand, Kp
+/// ≥ 0): chain (a) `((sat(Kp·32 767) ⊕ I_lo) ⊕ ff`, wide `Kp·32 768 + I_lo +
+/// ff`; (b) `(32 767 ⊕ I_lo) ⊕ ff`, `32 768 + I_lo + ff`; (c) `32 767 ⊕
+/// ff`, `32 768 + ff`, where `I_lo` is the least rounded integrator (its
+/// range and zero, the value before the first step) and `ff` the clamped
+/// zero feed-forward. Then both commands are `output_max` with the same
+/// flag, both sums exceed every command the slew limit can give, so the
+/// hold test decides alike, and the error is positive: the integrator is
+/// held, and never sees a saturated error. The same, mirrored, downward.
+/// An event that the measurement range, Kp and the integrator range rule
+/// out is not required. Also: |r − y_f| · Kp + ½ and the wide sum fit
+/// `i32`, and the rounded integrator fits 16 bits without saturation.
+pub(crate) const fn wide_sums_hold<L: Layout>(c: &Config<Slim16, L>) -> bool {
+    use crate::layout::Features;
+    let f = c.features;
+    if f.contains(Features::DEADBAND)
+        || f.contains(Features::SETPOINT_WEIGHT)
+        || f.contains(Features::BACK_CALCULATION)
+        || c.kp.mantissa < 0
+    {
+        return false;
+    }
+    const MIN: i64 = -32_768;
+    const MAX: i64 = 32_767;
+    let m = c.kp.mantissa as i64;
+    let s = c.kp.shift as u32;
+    let half = if s == 0 { 0 } else { 1i64 << (s - 1) };
+    let (omin, omax) = (c.output_min.0 as i64, c.output_max.0 as i64);
+    let ff = c.feed_forward_zero.0 as i64;
+    let (rlo, rhi) = (c.measurement_min.0 as i64, c.measurement_max.0 as i64);
+    // The filtered measurement is any 16-bit value; the plain one lies in
+    // the measurement range.
+    let (ylo, yhi) = if f.contains(Features::FILTER) {
+        (MIN, MAX)
+    } else {
+        (rlo, rhi)
+    };
+    let (elo, ehi) = (rlo - yhi, rhi - ylo);
+    let emag = if -elo > ehi { -elo } else { ehi };
+    if emag * m + half > i32::MAX as i64 || ((emag * m + half) >> s) + 65_537 > i32::MAX as i64 {
+        return false;
+    }
+    // The integrator, rounded: its range and zero.
+    let acc_lo = if (c.integral_min as i64) < 0 {
+        c.integral_min as i64
+    } else {
+        0
+    };
+    let acc_hi = if (c.integral_max as i64) > 0 {
+        c.integral_max as i64
+    } else {
+        0
+    };
+    let narrow = 1i64 << (SLIM_STATE_FRAC_BITS - 1);
+    let (ilo, ihi) = (
+        (acc_lo + narrow) >> SLIM_STATE_FRAC_BITS,
+        (acc_hi + narrow) >> SLIM_STATE_FRAC_BITS,
+    );
+    if ilo < MIN || ihi > MAX || acc_lo <= -(1 << 30) || acc_hi >= 1 << 30 {
+        return false;
+    }
+    // Upward events: (a) possible if `ehi` > MAX, (b) if Kp·e can pass MAX
+    // for an unsaturated e, (c) if P + I can.
+    let p_hi = sat(prod(if ehi < MAX { ehi } else { MAX }, m, s, half));
+    if ehi > MAX
+        && !(sat(sat(sat(prod(MAX, m, s, half)) + ilo) + ff) > omax
+            && prod(MAX + 1, m, s, half) + ilo + ff > omax)
+    {
+        return false;
+    }
+    if prod(if ehi < MAX { ehi } else { MAX }, m, s, half) > MAX
+        && !(sat(sat(MAX + ilo) + ff) > omax && MAX + 1 + ilo + ff > omax)
+    {
+        return false;
+    }
+    if p_hi + ihi > MAX && !(sat(MAX + ff) > omax && MAX + 1 + ff > omax) {
+        return false;
+    }
+    // Downward, mirrored.
+    let p_lo = sat(prod(if elo > MIN { elo } else { MIN }, m, s, half));
+    if elo < MIN
+        && !(sat(sat(sat(prod(MIN, m, s, half)) + ihi) + ff) < omin
+            && prod(MIN - 1, m, s, half) + ihi + ff < omin)
+    {
+        return false;
+    }
+    if prod(if elo > MIN { elo } else { MIN }, m, s, half) < MIN
+        && !(sat(sat(MIN + ihi) + ff) < omin && MIN - 1 + ihi + ff < omin)
+    {
+        return false;
+    }
+    if p_lo + ilo < MIN && !(sat(MIN + ff) < omin && MIN - 1 + ff < omin) {
+        return false;
+    }
+    true
+}
+
+/// `floor((x · m + half) / 2^s)`, exact in `i64` for |x| ≤ 2¹⁷.
+const fn prod(x: i64, m: i64, s: u32, half: i64) -> i64 {
+    (x * m + half) >> s
+}
+
+/// Saturated to 16 bits.
+const fn sat(x: i64) -> i64 {
+    if x < -32_768 {
+        -32_768
+    } else if x > 32_767 {
+        32_767
+    } else {
+        x
     }
 }
 
