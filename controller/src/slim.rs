@@ -556,18 +556,7 @@ impl Backend for Slim16 {
             return None;
         }
         let c = const { &L::FROZEN_SLIM16 }.as_ref()?;
-        // No sum or product below wraps: `wide_sums_hold` bounds
-        // |r − y_f| · Kp + ½ and |P| + 2¹⁶ below 2³¹, and |integral| < 2³⁰.
-        let e = i32::from(r.0).wrapping_sub(i32::from(y_f.0));
-        let p = round_half_added(
-            e.wrapping_mul(i32::from(c.kp.mantissa)),
-            u32::from(c.kp.shift),
-        );
-        let i = round_half_added(integral, SLIM_STATE_FRAC_BITS);
-        let v = p
-            .wrapping_add(i)
-            .wrapping_add(i32::from(c.feed_forward_zero.0));
-        Some((Self(saturate_i16(e)), Self(saturate_i16(v))))
+        Some(wide_sum(c, r, y_f, integral))
     }
     #[inline(always)]
     fn narrow_state(acc: i32) -> Self {
@@ -868,6 +857,31 @@ pub(crate) const fn wide_sums_hold<L: Layout>(c: &Config<Slim16, L>) -> bool {
     true
 }
 
+/// `(sat(r − y_f), sat(Kp·(r − y_f) + I + ff))` in `i32` for the zero
+/// feed-forward `ff` of `c`: [`Backend::frozen_sum`] once
+/// [`wide_sums_hold`] holds for `c`. No sum or product here wraps then:
+/// the proof bounds |r − y_f| · Kp + ½ and |P| + 2¹⁶ + 1 below 2³¹, and
+/// |integral| < 2³⁰. For other configurations the result is unspecified
+/// (never a panic).
+#[inline(always)]
+fn wide_sum<L: Layout>(
+    c: &Config<Slim16, L>,
+    r: Slim16,
+    y_f: Slim16,
+    integral: i32,
+) -> (Slim16, Slim16) {
+    let e = i32::from(r.0).wrapping_sub(i32::from(y_f.0));
+    let p = round_half_added(
+        e.wrapping_mul(i32::from(c.kp.mantissa)),
+        u32::from(c.kp.shift),
+    );
+    let i = round_half_added(integral, SLIM_STATE_FRAC_BITS);
+    let v = p
+        .wrapping_add(i)
+        .wrapping_add(i32::from(c.feed_forward_zero.0));
+    (Slim16(saturate_i16(e)), Slim16(saturate_i16(v)))
+}
+
 /// `floor((x · m + half) / 2^s)`, exact in `i64` for |x| ≤ 2¹⁷.
 const fn prod(x: i64, m: i64, s: u32, half: i64) -> i64 {
     (x * m + half) >> s
@@ -1041,6 +1055,125 @@ mod tests {
         for acc in (-805_298_176..=805_298_176).step_by(4_093) {
             assert_eq!(Slim16::narrow_state(acc), Slim16::narrow(acc), "acc={acc}");
         }
+    }
+
+    /// The step's own chain: `(e, v)` with every 16-bit saturation.
+    fn chain(c: &Config<Slim16>, r: Slim16, y: Slim16, acc: i32) -> (Slim16, Slim16) {
+        let e = r.sub(y);
+        let v =
+            c.kp.scale(e)
+                .add(Slim16::narrow_state(acc))
+                .add(c.feed_forward_zero);
+        (e, v)
+    }
+
+    /// Where `v` falls against the output limits: above, below, or within
+    /// (then the value itself).
+    fn side(c: &Config<Slim16>, v: Slim16) -> (i8, i16) {
+        if v > c.output_max {
+            (1, 0)
+        } else if v < c.output_min {
+            (-1, 0)
+        } else {
+            (0, v.0)
+        }
+    }
+
+    #[test]
+    fn wide_sums_match_the_chain_wherever_proved() {
+        // Configurations around the proof's edges: Kp across the minimal
+        // workload's threshold (0.625 raw per raw: sat(Kp·32 767) − 15 360
+        // must pass 5 120) and beyond 1 (P itself saturates), limits up to
+        // the format's edge, narrow and wide measurement ranges, with and
+        // without filter. For each one the proof accepts, every input on a
+        // grid with the edges (setpoint, measurement, the integrator's range
+        // and zero) must give the chain's `e`, and `v` on the same side of
+        // the limits (equal within them); for some it refuses, some input
+        // must not (the proof is needed there).
+        let scalings = [
+            crate::Scaling::covering(-60.0, 60.0, -10.0, 10.0),
+            crate::Scaling::covering(-60.0, 60.0, -60.0, 60.0),
+            crate::Scaling::covering(-10.0, 10.0, -10.0, 10.0),
+        ];
+        let (mut proved, mut refused, mut refused_observable) = (0, 0, 0);
+        for kp in [
+            0.03, 0.05, 0.07, 0.1, 0.12, 0.2, 0.6, 0.62, 0.625, 0.626, 0.63, 0.7, 1.0, 1.01, 2.0,
+            3.9, 20.0,
+        ] {
+            for (lo, hi) in [
+                (-10.0, 10.0),
+                (0.0, 10.0),
+                (-10.0, 2.0),
+                (-59.9, 59.9),
+                (8.0, 10.0),
+                (-10.0, -8.0),
+                (-3.0, 3.0),
+            ] {
+                for scaling in scalings {
+                    for filter in [false, true] {
+                        let mut s = Settings::new(0.01, kp, 5.0, lo, hi)
+                            .with_measurement_range(-60.0, 60.0)
+                            .with_scaling(scaling);
+                        if filter {
+                            s = s.with_filter_time_s(0.02);
+                        }
+                        let Ok(c) = Config::<Slim16>::new(&s) else {
+                            continue;
+                        };
+                        let holds = wide_sums_hold(&c);
+                        let (mlo, mhi) = (c.measurement_min.0, c.measurement_max.0);
+                        let (ylo, yhi) = if filter {
+                            (i16::MIN, i16::MAX)
+                        } else {
+                            (mlo, mhi)
+                        };
+                        let grid = |lo: i16, hi: i16| {
+                            let (lo, hi) = (i32::from(lo), i32::from(hi));
+                            let step = ((hi - lo) / 41).max(1) as usize;
+                            (lo..=hi)
+                                .step_by(step)
+                                .chain([lo, lo + 1, -1, 0, 1, hi - 1, hi])
+                                .filter(move |x| (lo..=hi).contains(x))
+                                .map(|x| Slim16(x as i16))
+                        };
+                        let accs = [
+                            c.integral_min,
+                            c.integral_min + 4095,
+                            -4097,
+                            0,
+                            4096,
+                            c.integral_max - 4096,
+                            c.integral_max,
+                        ];
+                        let mut differs = false;
+                        for r in grid(mlo, mhi) {
+                            for y in grid(ylo, yhi) {
+                                for acc in accs {
+                                    let (e, v) = chain(&c, r, y, acc);
+                                    let (e_w, v_w) = wide_sum(&c, r, y, acc);
+                                    let same = e == e_w && side(&c, v) == side(&c, v_w);
+                                    assert!(
+                                        same || !holds,
+                                        "kp={kp} lo={lo} hi={hi} r={r:?} y={y:?} acc={acc}: {v:?} {v_w:?}"
+                                    );
+                                    differs |= !same;
+                                }
+                            }
+                        }
+                        if holds {
+                            proved += 1;
+                        } else {
+                            refused += 1;
+                            refused_observable += usize::from(differs);
+                        }
+                    }
+                }
+            }
+        }
+        assert!(
+            proved >= 20 && refused >= 20 && refused_observable >= 5,
+            "proved {proved}, refused {refused}, of which observable {refused_observable}"
+        );
     }
 
     #[test]
