@@ -357,6 +357,24 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     fn inside(self, lo: Self, hi: Self) -> bool {
         self >= lo && self <= hi
     }
+    /// [`Backend::inside`] for the step of a [`crate::frozen!`] layout,
+    /// whose bounds are constants: the same result (for `lo ≤ hi`). The
+    /// 16-bit format compares the distance from `lo` in 32 bits without
+    /// sign (one subtraction and one comparison per value); the default is
+    /// [`Backend::inside`].
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Slim16};
+    /// let (lo, hi) = (Slim16::from_raw(-30_720), Slim16::from_raw(30_720));
+    /// for x in [i16::MIN, -30_721, -30_720, 0, 30_720, 30_721, i16::MAX] {
+    ///     let x = Slim16::from_raw(x);
+    ///     assert_eq!(x.inside_frozen(lo, hi), x >= lo && x <= hi);
+    /// }
+    /// ```
+    #[inline(always)]
+    fn inside_frozen(self, lo: Self, hi: Self) -> bool {
+        self.inside(lo, hi)
+    }
     /// The largest value not above `self + step`, for `step ≥ 0`: the
     /// slew limiter's upper bound, which must never be further from `self`
     /// than the stored step (float rounding of `self + step` alone can be,

@@ -387,7 +387,9 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         // check is the backend's (Q16.16: unsigned distances from `lo`,
         // valid because configuration keeps lo < hi); the run-time step
         // keeps its four comparisons.
-        let inside = if L::SHAPE.is_some() {
+        let inside = if frozen.is_some() {
+            y.inside_frozen(lo, hi) && r.inside_frozen(lo, hi)
+        } else if L::SHAPE.is_some() {
             y.inside(lo, hi) && r.inside(lo, hi)
         } else {
             y >= lo && y <= hi && r >= lo && r <= hi

@@ -509,6 +509,13 @@ impl Backend for Slim16 {
     fn integrate(acc: i32, x: Self, c: SlimCoef) -> i32 {
         c.integrate(acc, x)
     }
+    /// `(x − lo) mod 2³² ≤ hi − lo` unsigned, in 32 bits: for `lo ≤ hi`
+    /// exactly `lo ≤ x ≤ hi` (below `lo` the difference wraps above 2³¹).
+    #[inline(always)]
+    fn inside_frozen(self, lo: Self, hi: Self) -> bool {
+        let lo = i32::from(lo.0);
+        (i32::from(self.0).wrapping_sub(lo) as u32) <= (i32::from(hi.0).wrapping_sub(lo) as u32)
+    }
     #[inline(always)]
     fn raise_by(self, step: Self) -> Self {
         self.add(step)
@@ -1174,6 +1181,31 @@ mod tests {
             proved >= 20 && refused >= 20 && refused_observable >= 5,
             "proved {proved}, refused {refused}, of which observable {refused_observable}"
         );
+    }
+
+    #[test]
+    fn frozen_range_check_is_the_two_comparisons() {
+        // Every 16-bit value against bounds at and near the format's edges.
+        let bounds = [
+            (i16::MIN, i16::MAX),
+            (i16::MIN, i16::MIN + 1),
+            (-30_720, 30_720),
+            (-1, 0),
+            (0, 0),
+            (7, 9),
+            (i16::MAX - 1, i16::MAX),
+        ];
+        for (lo, hi) in bounds {
+            let (lo, hi) = (Slim16(lo), Slim16(hi));
+            for x in i16::MIN..=i16::MAX {
+                let x = Slim16(x);
+                assert_eq!(
+                    x.inside_frozen(lo, hi),
+                    x >= lo && x <= hi,
+                    "{x:?} {lo:?} {hi:?}"
+                );
+            }
+        }
     }
 
     #[test]
