@@ -488,6 +488,25 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
         let _ = (r, y_f, integral);
         None
     }
+    /// Whether, under a [`crate::frozen!`] layout whose configuration
+    /// proves it at compile time, the integrator updated by a step that
+    /// took [`Backend::frozen_sum`] (an engage step too) always lies within its
+    /// range (so that its clamp can be left out). The default is `false`.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Runtime, Settings, Slim16};
+    /// evenkeel::frozen!(Fan: Slim16 = Settings::new(0.01, 1.0, 0.5, 0.0, 100.0));
+    /// assert!(Slim16::frozen_integral_stays::<Fan>());
+    /// // Twice the integral gain: an engage that leaves the integrator at
+    /// // its lowest, then the largest increment, could pass its top.
+    /// evenkeel::frozen!(Fast: Slim16 = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0));
+    /// assert!(!Slim16::frozen_integral_stays::<Fast>());
+    /// assert!(!Slim16::frozen_integral_stays::<Runtime>());
+    /// ```
+    #[inline(always)]
+    fn frozen_integral_stays<L: Layout>() -> bool {
+        false
+    }
     /// `acc` clamped into `[lo, hi]` (`lo ≤ hi`): the integrator's clamp.
     /// The default compares the accumulators; Q16.16 first compares only
     /// their upper 32 bits, which decides every value whose integer part

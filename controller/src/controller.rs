@@ -563,12 +563,17 @@ impl<B: Backend, L: Layout> Controller<B, L> {
                 })
             }
         };
+        // A frozen configuration that proves it keeps the integrator of a
+        // wide-sum step in range (`Backend::frozen_integral_stays`).
+        let stays = wide.is_some() && B::frozen_integral_stays::<L>();
         if let Some(integral) = integral {
             // Under a compile-time layout, the backend's fast clamp; the
             // run-time step keeps the plain one (measured: the C interface
             // inlines the run-time step, and on Armv6-M its copy got slower
             // with the fast clamp; boards/README.md).
-            self.integral = if L::SHAPE.is_some() {
+            self.integral = if stays {
+                integral
+            } else if L::SHAPE.is_some() {
                 B::clamp_state(integral, c.integral_min, c.integral_max)
             } else {
                 clamp(integral, c.integral_min, c.integral_max)

@@ -547,11 +547,11 @@ impl Backend for Slim16 {
     fn frozen<L: Layout>() -> Option<&'static Config<Self, L>> {
         const { &L::FROZEN_SLIM16 }.as_ref()
     }
-    /// The proof is [`wide_sums_hold`], evaluated once per layout at
-    /// compile time; with it, `e = sat(r − y_f)` and `v = sat(Kp·(r − y_f)
-    /// + I + ff)` in `i32` with one saturation each, instead of the
-    /// saturations after the difference, the product, the narrowing of
-    /// `I` and the sum.
+    /// The proof is `slim::wide_sums_hold` (crate-private), evaluated once per layout at
+    /// compile time; with it, `e = sat(r − y_f)` and
+    /// `v = sat(Kp·(r − y_f) + I + ff)` in `i32` with one saturation each,
+    /// instead of the saturations after the difference, the product, the
+    /// narrowing of `I` and the sum.
     #[inline(always)]
     fn frozen_sum<L: Layout>(r: Self, y_f: Self, integral: i32) -> Option<(Self, Self)> {
         if !const {
@@ -564,6 +564,17 @@ impl Backend for Slim16 {
         }
         let c = const { &L::FROZEN_SLIM16 }.as_ref()?;
         Some(wide_sum(c, r, y_f, integral))
+    }
+    /// The proof is `slim::integral_stays` (crate-private), evaluated once per layout at
+    /// compile time.
+    #[inline(always)]
+    fn frozen_integral_stays<L: Layout>() -> bool {
+        const {
+            match &L::FROZEN_SLIM16 {
+                Some(c) => integral_stays(c),
+                None => false,
+            }
+        }
     }
     #[inline(always)]
     fn narrow_state(acc: i32) -> Self {
@@ -862,6 +873,65 @@ pub(crate) const fn wide_sums_hold<L: Layout>(c: &Config<Slim16, L>) -> bool {
         return false;
     }
     true
+}
+
+/// Whether for `c` (with [`wide_sums_hold`]) a step with the zero
+/// feed-forward `ff` and no engage that integrates leaves the integrator
+/// within `[integral_min, integral_max]`, so that its clamp cannot act.
+///
+/// Integrating with `e > 0` means the step did not hold: its sum `v` is not
+/// above `output_max` (the command is at most `output_max`, and not below
+/// `v`), and by [`wide_sums_hold`] then neither is the wide sum `P + I16 +
+/// ff`, with `e` unsaturated. In state LSB (2⁻¹³), with `I` the state and
+/// `I16 = floor((I + 4096) / 8192)` its rounding: `I ≤ 8192·I16 + 4095`,
+/// `P ≥ Kp·e − ½`, the integrator's increment at most `Ki·Ts·e·8192 + ½`.
+/// So the new state is at most `8192·(output_max − ff) + 8191.5 + e·(Ki·Ts
+/// − Kp)·8192`, and with `Ki·Ts ≤ Kp` (raw per raw; compared exactly on
+/// the mantissas) at most `8192·(output_max − ff + 1) − 1`, which the
+/// proof requires within `integral_max`. The same, mirrored, for `e < 0`
+/// and `integral_min` (`8192·(output_min − ff − 1)`). With `e > 0` the
+/// state only grows and with `e < 0` only falls (the rounded increment
+/// has the sign of `e`, or is zero), from a value within the range or
+/// zero (before the first step): the proof requires zero within it.
+///
+/// An engage step sets the state to `X = 8192·(target − P − ff)` clamped,
+/// with `target` within the output limits, and integrates any `e` (its
+/// command equals its sum). With `e > 0` and `X` not below the range, the
+/// new state is at most `X` plus the increment: below
+/// `8192·(target − ff) + 4096.5` if `P` is unsaturated (as above), below
+/// `8192·(target − ff) + ½` if `P` is 32 767 (Ki·Ts < 1, so the increment
+/// is below 8192·e ≤ 8192·32 767); within the bound above either way. With `X` below the
+/// range the state starts at `integral_min` and the proof requires
+/// `integral_min` plus the largest increment (at e = 32 767) within the
+/// range. Mirrored for `e < 0`.
+pub(crate) const fn integral_stays<L: Layout>(c: &Config<Slim16, L>) -> bool {
+    if !wide_sums_hold(c) || c.ki_ts.mantissa < 0 || (c.ki_ts.shift as u32) < SLIM_STATE_FRAC_BITS {
+        return false;
+    }
+    let (m, s) = (c.kp.mantissa as i128, c.kp.shift as u32);
+    let (k, sk) = (c.ki_ts.mantissa as i128, c.ki_ts.shift as u32);
+    // Ki·Ts ≤ Kp: k / 2^sk ≤ m / 2^s.
+    if k << s > m << sk {
+        return false;
+    }
+    let (imin, imax) = (c.integral_min as i64, c.integral_max as i64);
+    let ff = c.feed_forward_zero.0 as i64;
+    let (omin, omax) = (c.output_min.0 as i64, c.output_max.0 as i64);
+    // The increment's extremes, at e = 32 767 and e = −32 768.
+    let sk_state = sk - SLIM_STATE_FRAC_BITS;
+    let half = if sk_state == 0 {
+        0
+    } else {
+        1i128 << (sk_state - 1)
+    };
+    let ki_max = ((32_767 * k + half) >> sk_state) as i64;
+    let ki_min = ((-32_768 * k + half) >> sk_state) as i64;
+    imin <= 0
+        && imax >= 0
+        && 8192 * (omax - ff + 1) - 1 <= imax
+        && 8192 * (omin - ff - 1) >= imin
+        && imin + ki_max <= imax
+        && imax + ki_min >= imin
 }
 
 /// `(sat(r − y_f), sat(Kp·(r − y_f) + I + ff))` in `i32` for the zero
@@ -1206,6 +1276,117 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn the_integrator_stays_in_range_wherever_proved() {
+        // The step's integrator path with every 16-bit saturation (no slew,
+        // no downstream input: both only hold the integrator more often), on
+        // and off an engage: for each configuration the proof accepts, the
+        // integrated state must lie within its range for every input and
+        // state on a grid with the edges; for some it refuses, it must not.
+        let scalings = [
+            crate::Scaling::covering(-60.0, 60.0, -10.0, 10.0),
+            crate::Scaling::covering(-60.0, 60.0, -60.0, 60.0),
+            crate::Scaling::NONE
+                .with_measurement(crate::Scale::new(512.0, 0.0))
+                .with_command(crate::Scale::new(512.0, 0.0)),
+        ];
+        let (mut proved, mut refused, mut refused_observable) = (0, 0, 0);
+        for kp in [0.01, 0.03, 0.1, 0.15, 0.3, 0.62, 0.63, 1.0, 2.0, 20.0] {
+            for ki in [5.0, 50.0, 90.0] {
+                for (lo, hi) in [
+                    (-10.0, 10.0),
+                    (0.0, 10.0),
+                    (-10.0, 2.0),
+                    (8.0, 10.0),
+                    (-10.0, -8.0),
+                    (-3.0, 3.0),
+                ] {
+                    for scaling in scalings {
+                        for filter in [false, true] {
+                            let mut s = Settings::new(0.01, kp, ki, lo, hi)
+                                .with_measurement_range(-60.0, 60.0)
+                                .with_scaling(scaling);
+                            if filter {
+                                s = s.with_filter_time_s(0.02);
+                            }
+                            let Ok(c) = Config::<Slim16>::new(&s) else {
+                                continue;
+                            };
+                            let stays = integral_stays(&c);
+                            let (mlo, mhi) = (c.measurement_min.0, c.measurement_max.0);
+                            let (ylo, yhi) = if filter {
+                                (i16::MIN, i16::MAX)
+                            } else {
+                                (mlo, mhi)
+                            };
+                            let grid = |lo: i16, hi: i16| {
+                                let (lo, hi) = (i32::from(lo), i32::from(hi));
+                                let step = ((hi - lo) / 19).max(1) as usize;
+                                (lo..=hi)
+                                    .step_by(step)
+                                    .chain([lo, lo + 1, -1, 0, 1, hi - 1, hi])
+                                    .filter(move |x| (lo..=hi).contains(x))
+                                    .map(|x| Slim16(x as i16))
+                            };
+                            let (imin, imax) = (c.integral_min, c.integral_max);
+                            let accs = [imin, imin + 4095, -4097, 0, 4096, imax - 4096, imax];
+                            let (omin, omax) = (c.output_min, c.output_max);
+                            let mid = Slim16(((i32::from(omin.0) + i32::from(omax.0)) / 2) as i16);
+                            let engages = [None, Some(omin), Some(mid), Some(omax)];
+                            let ff = c.feed_forward_zero;
+                            let mut outside = false;
+                            for r in grid(mlo, mhi) {
+                                for y in grid(ylo, yhi) {
+                                    let e = r.sub(y);
+                                    let p = c.kp.scale(e);
+                                    for acc in accs {
+                                        for engage in engages {
+                                            let (acc, v) = match engage {
+                                                Some(t) => {
+                                                    let x = Slim16::deplete(
+                                                        Slim16::deplete(t.widen(), p),
+                                                        ff,
+                                                    );
+                                                    (x.clamp(imin, imax), t)
+                                                }
+                                                None => {
+                                                    (acc, p.add(Slim16::narrow_state(acc)).add(ff))
+                                                }
+                                            };
+                                            let u = v.clamp(omin, omax);
+                                            let held = (u < v && e > Slim16::ZERO)
+                                                || (u > v && e < Slim16::ZERO);
+                                            if held {
+                                                continue;
+                                            }
+                                            let new = c.ki_ts.integrate(acc, e);
+                                            let inside = (imin..=imax).contains(&new);
+                                            assert!(
+                                                inside || !stays,
+                                                "kp={kp} ki={ki} lo={lo} hi={hi} r={r:?} y={y:?} acc={acc} engage={engage:?}: {new}"
+                                            );
+                                            outside |= !inside;
+                                        }
+                                    }
+                                }
+                            }
+                            if stays {
+                                proved += 1;
+                            } else {
+                                refused += 1;
+                                refused_observable += usize::from(outside);
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        assert!(
+            proved >= 20 && refused >= 20 && refused_observable >= 5,
+            "proved {proved}, refused {refused}, of which observable {refused_observable}"
+        );
     }
 
     #[test]

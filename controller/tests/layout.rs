@@ -359,6 +359,13 @@ fn the_wide_sum_is_taken_only_where_proved() {
         assert_eq!(found, Some((Slim16::MAX, Slim16::MAX)), "{i}");
     }
     assert_eq!(Slim16::frozen_sum::<SlimFrozenBelow>(r, y, 0), None);
+    // And the integrator's clamp is idle in those three (Ki·Ts = 0.05 ≤ Kp,
+    // the range three output spans wide), never without the wide sum.
+    assert!(Slim16::frozen_integral_stays::<SlimFrozenWide>());
+    assert!(Slim16::frozen_integral_stays::<SlimFrozenNear>());
+    assert!(Slim16::frozen_integral_stays::<SlimFrozenFiltered>());
+    assert!(!Slim16::frozen_integral_stays::<SlimFrozenBelow>());
+    assert!(!Slim16::frozen_integral_stays::<SlimFrozenFull>());
     // Output ±10 240 raw, so the integrator spans ±30 720: with it at its
     // lowest, the saturated P (32 767) gives a sum inside the limits.
     assert_eq!(
