@@ -394,8 +394,13 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         } else {
             y >= lo && y <= hi && r >= lo && r <= hi
         };
+        // A frozen step clamps inline except on Armv6-M (measured: with
+        // constant bounds the inline clamp saves the out-of-line call's
+        // stack frame on Armv7-M, but costs more than it saves on Armv6-M;
+        // boards/README.md).
+        let inline_frozen = frozen.is_some() && !ARMV6M;
         if !inside {
-            if L::SHAPE.is_some() {
+            if L::SHAPE.is_some() && !inline_frozen {
                 (y, r, status) = clamp_range(y, r, lo, hi);
             } else {
                 y = clamp(y, lo, hi);
@@ -583,6 +588,9 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         Output { command: u, status }
     }
 }
+
+/// Armv6-M (the Arm targets without 32-bit atomics).
+const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
 /// Measurement `y` and setpoint `r` clamped into the measurement range
 /// `[lo, hi]`, with their flags: out of line and off the common path (a
