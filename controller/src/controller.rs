@@ -397,8 +397,11 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         // A frozen step clamps inline except on Armv6-M (measured: with
         // constant bounds the inline clamp saves the out-of-line call's
         // stack frame on Armv7-M, but costs more than it saves on Armv6-M;
-        // boards/README.md).
-        let inline_frozen = frozen.is_some() && !ARMV6M;
+        // boards/README.md). The target test comes first so that on
+        // Armv6-M the whole condition is a constant before inlining: with
+        // the order reversed the Armv6-M run-time step and its C copy
+        // were compiled differently (measured).
+        let inline_frozen = !ARMV6M && frozen.is_some();
         if !inside {
             if L::SHAPE.is_some() && !inline_frozen {
                 (y, r, status) = clamp_range(y, r, lo, hi);
