@@ -542,6 +542,10 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         };
         status.set_if(downstream != B::ZERO, Status::DOWNSTREAM);
 
+        // A frozen configuration that proves it keeps the integrator of a
+        // wide-sum step in range (`Backend::frozen_integral_stays`); its
+        // range then holds zero, the state before the first step.
+        let stays = wide.is_some() && B::frozen_integral_stays::<L>();
         let ki_ts = coef::<B, L>(c.ki_ts, Slot::KiTs);
         let integral = if on.contains(Features::BACK_CALCULATION) {
             let ratio = coef::<B, L>(c.tracking_ratio, Slot::TrackingRatio);
@@ -558,8 +562,9 @@ impl<B: Backend, L: Layout> Controller<B, L> {
             let held_low = u > v || downstream > B::ZERO;
             if (held_high && e > B::ZERO) || (held_low && e < B::ZERO) {
                 status |= Status::INTEGRATOR_HELD;
-                // Unchanged, so already in range except on the first step.
-                if first {
+                // Unchanged, so already in range except on the first step
+                // (and then too where `stays`: zero, or set by an engage).
+                if first && !stays {
                     self.integral = clamp(self.integral, c.integral_min, c.integral_max);
                 }
                 None
@@ -571,9 +576,6 @@ impl<B: Backend, L: Layout> Controller<B, L> {
                 })
             }
         };
-        // A frozen configuration that proves it keeps the integrator of a
-        // wide-sum step in range (`Backend::frozen_integral_stays`).
-        let stays = wide.is_some() && B::frozen_integral_stays::<L>();
         if let Some(integral) = integral {
             // Under a compile-time layout, the backend's fast clamp; the
             // run-time step keeps the plain one (measured: the C interface
