@@ -357,6 +357,24 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     fn inside(self, lo: Self, hi: Self) -> bool {
         self >= lo && self <= hi
     }
+    /// [`Backend::inside`] for the step of a [`crate::frozen!`] layout,
+    /// whose bounds are constants: the same result (for `lo ≤ hi`). The
+    /// 16-bit format compares the distance from `lo` in 32 bits without
+    /// sign (one subtraction and one comparison per value); the default is
+    /// [`Backend::inside`].
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Slim16};
+    /// let (lo, hi) = (Slim16::from_raw(-30_720), Slim16::from_raw(30_720));
+    /// for x in [i16::MIN, -30_721, -30_720, 0, 30_720, 30_721, i16::MAX] {
+    ///     let x = Slim16::from_raw(x);
+    ///     assert_eq!(x.inside_frozen(lo, hi), x >= lo && x <= hi);
+    /// }
+    /// ```
+    #[inline(always)]
+    fn inside_frozen(self, lo: Self, hi: Self) -> bool {
+        self.inside(lo, hi)
+    }
     /// The largest value not above `self + step`, for `step ≥ 0`: the
     /// slew limiter's upper bound, which must never be further from `self`
     /// than the stored step (float rounding of `self + step` alone can be,
@@ -447,6 +465,47 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     #[inline(always)]
     fn frozen<L: Layout>() -> Option<&'static Config<Self, L>> {
         None
+    }
+    /// Under a [`crate::frozen!`] layout whose configuration proves it at
+    /// compile time, the error `r − y_f` and the sum `P + I` of a step with
+    /// the zero feed-forward, computed without the intermediate
+    /// saturations of the format: `(e, v)`, each equal to the step's own
+    /// `e`, and `v` on the same side of each output limit as the step's
+    /// own sum (equal to it whenever that is within the limits). Every
+    /// other layout, and any configuration the proof does not cover:
+    /// `None` (the step computes both itself). `integral` is the
+    /// integrator state, within its range or zero. The default is `None`.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Runtime, Settings, Slim16};
+    /// evenkeel::frozen!(Fan: Slim16 = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0));
+    /// let (r, y) = (Slim16::from_raw(60), Slim16::from_raw(20));
+    /// assert_eq!(Slim16::frozen_sum::<Fan>(r, y, 0), Some((Slim16::from_raw(40), Slim16::from_raw(40))));
+    /// assert_eq!(Slim16::frozen_sum::<Runtime>(r, y, 0), None);
+    /// ```
+    #[inline(always)]
+    fn frozen_sum<L: Layout>(r: Self, y_f: Self, integral: Self::Accum) -> Option<(Self, Self)> {
+        let _ = (r, y_f, integral);
+        None
+    }
+    /// Whether, under a [`crate::frozen!`] layout whose configuration
+    /// proves it at compile time, the integrator updated by a step that
+    /// took [`Backend::frozen_sum`] (an engage step too) always lies within its
+    /// range (so that its clamp can be left out). The default is `false`.
+    ///
+    /// ```
+    /// use evenkeel::{Backend, Runtime, Settings, Slim16};
+    /// evenkeel::frozen!(Fan: Slim16 = Settings::new(0.01, 1.0, 0.5, 0.0, 100.0));
+    /// assert!(Slim16::frozen_integral_stays::<Fan>());
+    /// // Twice the integral gain: an engage that leaves the integrator at
+    /// // its lowest, then the largest increment, could pass its top.
+    /// evenkeel::frozen!(Fast: Slim16 = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0));
+    /// assert!(!Slim16::frozen_integral_stays::<Fast>());
+    /// assert!(!Slim16::frozen_integral_stays::<Runtime>());
+    /// ```
+    #[inline(always)]
+    fn frozen_integral_stays<L: Layout>() -> bool {
+        false
     }
     /// `acc` clamped into `[lo, hi]` (`lo ≤ hi`): the integrator's clamp.
     /// The default compares the accumulators; Q16.16 first compares only

@@ -387,13 +387,23 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         // check is the backend's (Q16.16: unsigned distances from `lo`,
         // valid because configuration keeps lo < hi); the run-time step
         // keeps its four comparisons.
-        let inside = if L::SHAPE.is_some() {
+        let inside = if frozen.is_some() {
+            y.inside_frozen(lo, hi) && r.inside_frozen(lo, hi)
+        } else if L::SHAPE.is_some() {
             y.inside(lo, hi) && r.inside(lo, hi)
         } else {
             y >= lo && y <= hi && r >= lo && r <= hi
         };
+        // A frozen step clamps inline except on Armv6-M (measured: with
+        // constant bounds the inline clamp saves the out-of-line call's
+        // stack frame on Armv7-M, but costs more than it saves on Armv6-M;
+        // boards/README.md). The target test comes first so that on
+        // Armv6-M the whole condition is a constant before inlining: with
+        // the order reversed the Armv6-M run-time step and its C copy
+        // were compiled differently (measured).
+        let inline_frozen = !ARMV6M && frozen.is_some();
         if !inside {
-            if L::SHAPE.is_some() {
+            if L::SHAPE.is_some() && !inline_frozen {
                 (y, r, status) = clamp_range(y, r, lo, hi);
             } else {
                 y = clamp(y, lo, hi);
@@ -455,7 +465,18 @@ impl<B: Backend, L: Layout> Controller<B, L> {
 
         // The integrator is within its range (or zero before the first
         // step), where the state's own narrowing applies.
-        let mut v = p.add(B::narrow_state(self.integral)).add(ff);
+        // A frozen configuration that proves it (`Backend::frozen_sum`):
+        // `e` and `P + I` without the intermediate saturations; `P` itself is
+        // then read only by an engage.
+        let wide = if B::EXACT_SUMS && input.feed_forward == B::ZERO {
+            B::frozen_sum::<L>(r, y_f, self.integral)
+        } else {
+            None
+        };
+        let (e, mut v) = match wide {
+            Some(ev) => ev,
+            None => (e, p.add(B::narrow_state(self.integral)).add(ff)),
+        };
         if state & ENGAGE != 0 {
             let actuator = self.engage_at;
             // Bumpless engage: the command continues from the actuator's
@@ -521,6 +542,10 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         };
         status.set_if(downstream != B::ZERO, Status::DOWNSTREAM);
 
+        // A frozen configuration that proves it keeps the integrator of a
+        // wide-sum step in range (`Backend::frozen_integral_stays`); its
+        // range then holds zero, the state before the first step.
+        let stays = wide.is_some() && B::frozen_integral_stays::<L>();
         let ki_ts = coef::<B, L>(c.ki_ts, Slot::KiTs);
         let integral = if on.contains(Features::BACK_CALCULATION) {
             let ratio = coef::<B, L>(c.tracking_ratio, Slot::TrackingRatio);
@@ -537,8 +562,9 @@ impl<B: Backend, L: Layout> Controller<B, L> {
             let held_low = u > v || downstream > B::ZERO;
             if (held_high && e > B::ZERO) || (held_low && e < B::ZERO) {
                 status |= Status::INTEGRATOR_HELD;
-                // Unchanged, so already in range except on the first step.
-                if first {
+                // Unchanged, so already in range except on the first step
+                // (and then too where `stays`: zero, or set by an engage).
+                if first && !stays {
                     self.integral = clamp(self.integral, c.integral_min, c.integral_max);
                 }
                 None
@@ -555,7 +581,9 @@ impl<B: Backend, L: Layout> Controller<B, L> {
             // run-time step keeps the plain one (measured: the C interface
             // inlines the run-time step, and on Armv6-M its copy got slower
             // with the fast clamp; boards/README.md).
-            self.integral = if L::SHAPE.is_some() {
+            self.integral = if stays {
+                integral
+            } else if L::SHAPE.is_some() {
                 B::clamp_state(integral, c.integral_min, c.integral_max)
             } else {
                 clamp(integral, c.integral_min, c.integral_max)
@@ -565,6 +593,9 @@ impl<B: Backend, L: Layout> Controller<B, L> {
         Output { command: u, status }
     }
 }
+
+/// Armv6-M (the Arm targets without 32-bit atomics).
+const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
 /// Measurement `y` and setpoint `r` clamped into the measurement range
 /// `[lo, hi]`, with their flags: out of line and off the common path (a

@@ -551,6 +551,13 @@ impl Backend for Slim16 {
     fn integrate(acc: i32, x: Self, c: SlimCoef) -> i32 {
         c.integrate(acc, x)
     }
+    /// `(x − lo) mod 2³² ≤ hi − lo` unsigned, in 32 bits: for `lo ≤ hi`
+    /// exactly `lo ≤ x ≤ hi` (below `lo` the difference wraps above 2³¹).
+    #[inline(always)]
+    fn inside_frozen(self, lo: Self, hi: Self) -> bool {
+        let lo = i32::from(lo.0);
+        (i32::from(self.0).wrapping_sub(lo) as u32) <= (i32::from(hi.0).wrapping_sub(lo) as u32)
+    }
     #[inline(always)]
     fn raise_by(self, step: Self) -> Self {
         self.add(step)
@@ -581,6 +588,35 @@ impl Backend for Slim16 {
     #[inline(always)]
     fn frozen<L: Layout>() -> Option<&'static Config<Self, L>> {
         const { &L::FROZEN_SLIM16 }.as_ref()
+    }
+    /// The proof is `slim::wide_sums_hold` (crate-private), evaluated once per layout at
+    /// compile time; with it, `e = sat(r − y_f)` and
+    /// `v = sat(Kp·(r − y_f) + I + ff)` in `i32` with one saturation each,
+    /// instead of the saturations after the difference, the product, the
+    /// narrowing of `I` and the sum.
+    #[inline(always)]
+    fn frozen_sum<L: Layout>(r: Self, y_f: Self, integral: i32) -> Option<(Self, Self)> {
+        if !const {
+            match &L::FROZEN_SLIM16 {
+                Some(c) => wide_sums_hold(c),
+                None => false,
+            }
+        } {
+            return None;
+        }
+        let c = const { &L::FROZEN_SLIM16 }.as_ref()?;
+        Some(wide_sum(c, r, y_f, integral))
+    }
+    /// The proof is `slim::integral_stays` (crate-private), evaluated once per layout at
+    /// compile time.
+    #[inline(always)]
+    fn frozen_integral_stays<L: Layout>() -> bool {
+        const {
+            match &L::FROZEN_SLIM16 {
+                Some(c) => integral_stays(c),
+                None => false,
+            }
+        }
     }
     #[inline(always)]
     fn narrow_state(acc: i32) -> Self {
@@ -815,6 +851,218 @@ impl<L: Layout> Config<Slim16, L> {
     }
 }
 
+/// Whether, for the configuration `c`, a step with the zero feed-forward
+/// may compute `e = r − y_f` and `v = P + I + ff` in `i32` and saturate
+/// each once ([`Backend::frozen_sum`]) with the same command, status and
+/// state as the step's own 16-bit chain `e = r ⊖ y_f`, `P = sat(Kp·e)`,
+/// `v = (P ⊕ sat(I)) ⊕ ff` (⊖, ⊕: saturating).
+///
+/// Only conditional integration without deadband and setpoint weight (the
+/// step then reads `e` for the integrator's product and the sign of the
+/// hold test, and `v` only through its comparisons with the output
+/// limits and the command). `e`: the wide difference saturated once is
+/// the chain's `e` exactly. `v`: if no saturation of the chain acts, both
+/// are the exact sum. If one acts upward, take the first that does:
+/// (a) `r − y_f` > 32 767, (b) Kp·e > 32 767, (c) P + I > 32 767, (d) the
+/// last sum > 32 767. For (d) both give 32 767. For (a)–(c) the proof
+/// requires both above `output_max`, from the lower bound of each after
+/// that event (each step of both chains is monotone in every operand, Kp
+/// ≥ 0): chain (a) `((sat(Kp·32 767) ⊕ I_lo) ⊕ ff`, wide `Kp·32 768 + I_lo +
+/// ff`; (b) `(32 767 ⊕ I_lo) ⊕ ff`, `32 768 + I_lo + ff`; (c) `32 767 ⊕
+/// ff`, `32 768 + ff`, where `I_lo` is the least rounded integrator (its
+/// range and zero, the value before the first step) and `ff` the clamped
+/// zero feed-forward. Then both commands are `output_max` with the same
+/// flag, both sums exceed every command the slew limit can give, so the
+/// hold test decides alike, and the error is positive: the integrator is
+/// held, and never sees a saturated error. The same, mirrored, downward.
+/// An event that the measurement range, Kp and the integrator range rule
+/// out is not required. Also: |r − y_f| · Kp + ½ and the wide sum fit
+/// `i32`, and the rounded integrator fits 16 bits without saturation.
+pub(crate) const fn wide_sums_hold<L: Layout>(c: &Config<Slim16, L>) -> bool {
+    use crate::layout::Features;
+    let f = c.features;
+    if f.contains(Features::DEADBAND)
+        || f.contains(Features::SETPOINT_WEIGHT)
+        || f.contains(Features::BACK_CALCULATION)
+        || c.kp.mantissa < 0
+    {
+        return false;
+    }
+    const MIN: i64 = -32_768;
+    const MAX: i64 = 32_767;
+    let m = c.kp.mantissa as i64;
+    let s = c.kp.shift as u32;
+    let half = if s == 0 { 0 } else { 1i64 << (s - 1) };
+    let (omin, omax) = (c.output_min.0 as i64, c.output_max.0 as i64);
+    let ff = c.feed_forward_zero.0 as i64;
+    let (rlo, rhi) = (c.measurement_min.0 as i64, c.measurement_max.0 as i64);
+    // The filtered measurement is any 16-bit value; the plain one lies in
+    // the measurement range.
+    let (ylo, yhi) = if f.contains(Features::FILTER) {
+        (MIN, MAX)
+    } else {
+        (rlo, rhi)
+    };
+    let (elo, ehi) = (rlo - yhi, rhi - ylo);
+    let emag = if -elo > ehi { -elo } else { ehi };
+    if emag * m + half > i32::MAX as i64 || ((emag * m + half) >> s) + 65_537 > i32::MAX as i64 {
+        return false;
+    }
+    // The integrator, rounded: its range and zero.
+    let acc_lo = if (c.integral_min as i64) < 0 {
+        c.integral_min as i64
+    } else {
+        0
+    };
+    let acc_hi = if (c.integral_max as i64) > 0 {
+        c.integral_max as i64
+    } else {
+        0
+    };
+    let narrow = 1i64 << (SLIM_STATE_FRAC_BITS - 1);
+    let (ilo, ihi) = (
+        (acc_lo + narrow) >> SLIM_STATE_FRAC_BITS,
+        (acc_hi + narrow) >> SLIM_STATE_FRAC_BITS,
+    );
+    if ilo < MIN || ihi > MAX || acc_lo <= -(1 << 30) || acc_hi >= 1 << 30 {
+        return false;
+    }
+    // Upward events: (a) possible if `ehi` > MAX, (b) if Kp·e can pass MAX
+    // for an unsaturated e, (c) if P + I can.
+    let p_hi = sat(prod(if ehi < MAX { ehi } else { MAX }, m, s, half));
+    if ehi > MAX
+        && !(sat(sat(sat(prod(MAX, m, s, half)) + ilo) + ff) > omax
+            && prod(MAX + 1, m, s, half) + ilo + ff > omax)
+    {
+        return false;
+    }
+    if prod(if ehi < MAX { ehi } else { MAX }, m, s, half) > MAX
+        && !(sat(sat(MAX + ilo) + ff) > omax && MAX + 1 + ilo + ff > omax)
+    {
+        return false;
+    }
+    if p_hi + ihi > MAX && !(sat(MAX + ff) > omax && MAX + 1 + ff > omax) {
+        return false;
+    }
+    // Downward, mirrored.
+    let p_lo = sat(prod(if elo > MIN { elo } else { MIN }, m, s, half));
+    if elo < MIN
+        && !(sat(sat(sat(prod(MIN, m, s, half)) + ihi) + ff) < omin
+            && prod(MIN - 1, m, s, half) + ihi + ff < omin)
+    {
+        return false;
+    }
+    if prod(if elo > MIN { elo } else { MIN }, m, s, half) < MIN
+        && !(sat(sat(MIN + ihi) + ff) < omin && MIN - 1 + ihi + ff < omin)
+    {
+        return false;
+    }
+    if p_lo + ilo < MIN && !(sat(MIN + ff) < omin && MIN - 1 + ff < omin) {
+        return false;
+    }
+    true
+}
+
+/// Whether for `c` (with [`wide_sums_hold`]) a step with the zero
+/// feed-forward `ff` and no engage that integrates leaves the integrator
+/// within `[integral_min, integral_max]`, so that its clamp cannot act.
+///
+/// Integrating with `e > 0` means the step did not hold: its sum `v` is not
+/// above `output_max` (the command is at most `output_max`, and not below
+/// `v`), and by [`wide_sums_hold`] then neither is the wide sum `P + I16 +
+/// ff`, with `e` unsaturated. In state LSB (2⁻¹³), with `I` the state and
+/// `I16 = floor((I + 4096) / 8192)` its rounding: `I ≤ 8192·I16 + 4095`,
+/// `P ≥ Kp·e − ½`, the integrator's increment at most `Ki·Ts·e·8192 + ½`.
+/// So the new state is at most `8192·(output_max − ff) + 8191.5 + e·(Ki·Ts
+/// − Kp)·8192`, and with `Ki·Ts ≤ Kp` (raw per raw; compared exactly on
+/// the mantissas) at most `8192·(output_max − ff + 1) − 1`, which the
+/// proof requires within `integral_max`. The same, mirrored, for `e < 0`
+/// and `integral_min` (`8192·(output_min − ff − 1)`). With `e > 0` the
+/// state only grows and with `e < 0` only falls (the rounded increment
+/// has the sign of `e`, or is zero), from a value within the range or
+/// zero (before the first step): the proof requires zero within it.
+///
+/// An engage step sets the state to `X = 8192·(target − P − ff)` clamped,
+/// with `target` within the output limits, and integrates any `e` (its
+/// command equals its sum). With `e > 0` and `X` not below the range, the
+/// new state is at most `X` plus the increment: below
+/// `8192·(target − ff) + 4096.5` if `P` is unsaturated (as above), below
+/// `8192·(target − ff) + ½` if `P` is 32 767 (Ki·Ts < 1, so the increment
+/// is below 8192·e ≤ 8192·32 767); within the bound above either way. With `X` below the
+/// range the state starts at `integral_min` and the proof requires
+/// `integral_min` plus the largest increment (at e = 32 767) within the
+/// range. Mirrored for `e < 0`.
+pub(crate) const fn integral_stays<L: Layout>(c: &Config<Slim16, L>) -> bool {
+    if !wide_sums_hold(c) || c.ki_ts.mantissa < 0 || (c.ki_ts.shift as u32) < SLIM_STATE_FRAC_BITS {
+        return false;
+    }
+    let (m, s) = (c.kp.mantissa as i128, c.kp.shift as u32);
+    let (k, sk) = (c.ki_ts.mantissa as i128, c.ki_ts.shift as u32);
+    // Ki·Ts ≤ Kp: k / 2^sk ≤ m / 2^s.
+    if k << s > m << sk {
+        return false;
+    }
+    let (imin, imax) = (c.integral_min as i64, c.integral_max as i64);
+    let ff = c.feed_forward_zero.0 as i64;
+    let (omin, omax) = (c.output_min.0 as i64, c.output_max.0 as i64);
+    // The increment's extremes, at e = 32 767 and e = −32 768.
+    let sk_state = sk - SLIM_STATE_FRAC_BITS;
+    let half = if sk_state == 0 {
+        0
+    } else {
+        1i128 << (sk_state - 1)
+    };
+    let ki_max = ((32_767 * k + half) >> sk_state) as i64;
+    let ki_min = ((-32_768 * k + half) >> sk_state) as i64;
+    imin <= 0
+        && imax >= 0
+        && 8192 * (omax - ff + 1) - 1 <= imax
+        && 8192 * (omin - ff - 1) >= imin
+        && imin + ki_max <= imax
+        && imax + ki_min >= imin
+}
+
+/// `(sat(r − y_f), sat(Kp·(r − y_f) + I + ff))` in `i32` for the zero
+/// feed-forward `ff` of `c`: [`Backend::frozen_sum`] once
+/// [`wide_sums_hold`] holds for `c`. No sum or product here wraps then:
+/// the proof bounds |r − y_f| · Kp + ½ and |P| + 2¹⁶ + 1 below 2³¹, and
+/// |integral| < 2³⁰. For other configurations the result is unspecified
+/// (never a panic).
+#[inline(always)]
+fn wide_sum<L: Layout>(
+    c: &Config<Slim16, L>,
+    r: Slim16,
+    y_f: Slim16,
+    integral: i32,
+) -> (Slim16, Slim16) {
+    let e = i32::from(r.0).wrapping_sub(i32::from(y_f.0));
+    let p = round_half_added(
+        e.wrapping_mul(i32::from(c.kp.mantissa)),
+        u32::from(c.kp.shift),
+    );
+    let i = round_half_added(integral, SLIM_STATE_FRAC_BITS);
+    let v = p
+        .wrapping_add(i)
+        .wrapping_add(i32::from(c.feed_forward_zero.0));
+    (Slim16(saturate_i16(e)), Slim16(saturate_i16(v)))
+}
+
+/// `floor((x · m + half) / 2^s)`, exact in `i64` for |x| ≤ 2¹⁷.
+const fn prod(x: i64, m: i64, s: u32, half: i64) -> i64 {
+    (x * m + half) >> s
+}
+
+/// Saturated to 16 bits.
+const fn sat(x: i64) -> i64 {
+    if x < -32_768 {
+        -32_768
+    } else if x > 32_767 {
+        32_767
+    } else {
+        x
+    }
+}
+
 const fn clamp_i32(x: i32, lo: i32, hi: i32) -> i32 {
     if x < lo {
         lo
@@ -972,6 +1220,261 @@ mod tests {
         for acc in (-805_298_176..=805_298_176).step_by(4_093) {
             assert_eq!(Slim16::narrow_state(acc), Slim16::narrow(acc), "acc={acc}");
         }
+    }
+
+    /// The step's own chain: `(e, v)` with every 16-bit saturation.
+    fn chain(c: &Config<Slim16>, r: Slim16, y: Slim16, acc: i32) -> (Slim16, Slim16) {
+        let e = r.sub(y);
+        let v =
+            c.kp.scale(e)
+                .add(Slim16::narrow_state(acc))
+                .add(c.feed_forward_zero);
+        (e, v)
+    }
+
+    /// Where `v` falls against the output limits: above, below, or within
+    /// (then the value itself).
+    fn side(c: &Config<Slim16>, v: Slim16) -> (i8, i16) {
+        if v > c.output_max {
+            (1, 0)
+        } else if v < c.output_min {
+            (-1, 0)
+        } else {
+            (0, v.0)
+        }
+    }
+
+    #[test]
+    fn wide_sums_match_the_chain_wherever_proved() {
+        // Configurations around the proof's edges: Kp across the minimal
+        // workload's threshold (0.625 raw per raw: sat(Kp·32 767) − 15 360
+        // must pass 5 120) and beyond 1 (P itself saturates), limits up to
+        // the format's edge, narrow and wide measurement ranges, with and
+        // without filter. For each one the proof accepts, every input on a
+        // grid with the edges (setpoint, measurement, the integrator's range
+        // and zero) must give the chain's `e`, and `v` on the same side of
+        // the limits (equal within them); for some it refuses, some input
+        // must not (the proof is needed there).
+        let scalings = [
+            crate::Scaling::covering(-60.0, 60.0, -10.0, 10.0),
+            crate::Scaling::covering(-60.0, 60.0, -60.0, 60.0),
+            crate::Scaling::covering(-10.0, 10.0, -10.0, 10.0),
+        ];
+        let (mut proved, mut refused, mut refused_observable) = (0, 0, 0);
+        for kp in [
+            0.03, 0.05, 0.07, 0.1, 0.12, 0.2, 0.6, 0.62, 0.625, 0.626, 0.63, 0.7, 1.0, 1.01, 2.0,
+            3.9, 20.0,
+        ] {
+            for (lo, hi) in [
+                (-10.0, 10.0),
+                (0.0, 10.0),
+                (-10.0, 2.0),
+                (-59.9, 59.9),
+                (8.0, 10.0),
+                (-10.0, -8.0),
+                (-3.0, 3.0),
+            ] {
+                for scaling in scalings {
+                    for filter in [false, true] {
+                        let mut s = Settings::new(0.01, kp, 5.0, lo, hi)
+                            .with_measurement_range(-60.0, 60.0)
+                            .with_scaling(scaling);
+                        if filter {
+                            s = s.with_filter_time_s(0.02);
+                        }
+                        let Ok(c) = Config::<Slim16>::new(&s) else {
+                            continue;
+                        };
+                        let holds = wide_sums_hold(&c);
+                        let (mlo, mhi) = (c.measurement_min.0, c.measurement_max.0);
+                        let (ylo, yhi) = if filter {
+                            (i16::MIN, i16::MAX)
+                        } else {
+                            (mlo, mhi)
+                        };
+                        let grid = |lo: i16, hi: i16| {
+                            let (lo, hi) = (i32::from(lo), i32::from(hi));
+                            let step = ((hi - lo) / 41).max(1) as usize;
+                            (lo..=hi)
+                                .step_by(step)
+                                .chain([lo, lo + 1, -1, 0, 1, hi - 1, hi])
+                                .filter(move |x| (lo..=hi).contains(x))
+                                .map(|x| Slim16(x as i16))
+                        };
+                        let accs = [
+                            c.integral_min,
+                            c.integral_min + 4095,
+                            -4097,
+                            0,
+                            4096,
+                            c.integral_max - 4096,
+                            c.integral_max,
+                        ];
+                        let mut differs = false;
+                        for r in grid(mlo, mhi) {
+                            for y in grid(ylo, yhi) {
+                                for acc in accs {
+                                    let (e, v) = chain(&c, r, y, acc);
+                                    let (e_w, v_w) = wide_sum(&c, r, y, acc);
+                                    let same = e == e_w && side(&c, v) == side(&c, v_w);
+                                    assert!(
+                                        same || !holds,
+                                        "kp={kp} lo={lo} hi={hi} r={r:?} y={y:?} acc={acc}: {v:?} {v_w:?}"
+                                    );
+                                    differs |= !same;
+                                }
+                            }
+                        }
+                        if holds {
+                            proved += 1;
+                        } else {
+                            refused += 1;
+                            refused_observable += usize::from(differs);
+                        }
+                    }
+                }
+            }
+        }
+        assert!(
+            proved >= 20 && refused >= 20 && refused_observable >= 5,
+            "proved {proved}, refused {refused}, of which observable {refused_observable}"
+        );
+    }
+
+    #[test]
+    fn frozen_range_check_is_the_two_comparisons() {
+        // Every 16-bit value against bounds at and near the format's edges.
+        let bounds = [
+            (i16::MIN, i16::MAX),
+            (i16::MIN, i16::MIN + 1),
+            (-30_720, 30_720),
+            (-1, 0),
+            (0, 0),
+            (7, 9),
+            (i16::MAX - 1, i16::MAX),
+        ];
+        for (lo, hi) in bounds {
+            let (lo, hi) = (Slim16(lo), Slim16(hi));
+            for x in i16::MIN..=i16::MAX {
+                let x = Slim16(x);
+                assert_eq!(
+                    x.inside_frozen(lo, hi),
+                    x >= lo && x <= hi,
+                    "{x:?} {lo:?} {hi:?}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn the_integrator_stays_in_range_wherever_proved() {
+        // The step's integrator path with every 16-bit saturation (no slew,
+        // no downstream input: both only hold the integrator more often), on
+        // and off an engage: for each configuration the proof accepts, the
+        // integrated state must lie within its range for every input and
+        // state on a grid with the edges; for some it refuses, it must not.
+        let scalings = [
+            crate::Scaling::covering(-60.0, 60.0, -10.0, 10.0),
+            crate::Scaling::covering(-60.0, 60.0, -60.0, 60.0),
+            crate::Scaling::NONE
+                .with_measurement(crate::Scale::new(512.0, 0.0))
+                .with_command(crate::Scale::new(512.0, 0.0)),
+        ];
+        let (mut proved, mut refused, mut refused_observable) = (0, 0, 0);
+        for kp in [0.01, 0.03, 0.1, 0.15, 0.3, 0.62, 0.63, 1.0, 2.0, 20.0] {
+            for ki in [5.0, 50.0, 90.0] {
+                for (lo, hi) in [
+                    (-10.0, 10.0),
+                    (0.0, 10.0),
+                    (-10.0, 2.0),
+                    (8.0, 10.0),
+                    (-10.0, -8.0),
+                    (-3.0, 3.0),
+                ] {
+                    for scaling in scalings {
+                        for filter in [false, true] {
+                            let mut s = Settings::new(0.01, kp, ki, lo, hi)
+                                .with_measurement_range(-60.0, 60.0)
+                                .with_scaling(scaling);
+                            if filter {
+                                s = s.with_filter_time_s(0.02);
+                            }
+                            let Ok(c) = Config::<Slim16>::new(&s) else {
+                                continue;
+                            };
+                            let stays = integral_stays(&c);
+                            let (mlo, mhi) = (c.measurement_min.0, c.measurement_max.0);
+                            let (ylo, yhi) = if filter {
+                                (i16::MIN, i16::MAX)
+                            } else {
+                                (mlo, mhi)
+                            };
+                            let grid = |lo: i16, hi: i16| {
+                                let (lo, hi) = (i32::from(lo), i32::from(hi));
+                                let step = ((hi - lo) / 19).max(1) as usize;
+                                (lo..=hi)
+                                    .step_by(step)
+                                    .chain([lo, lo + 1, -1, 0, 1, hi - 1, hi])
+                                    .filter(move |x| (lo..=hi).contains(x))
+                                    .map(|x| Slim16(x as i16))
+                            };
+                            let (imin, imax) = (c.integral_min, c.integral_max);
+                            let accs = [imin, imin + 4095, -4097, 0, 4096, imax - 4096, imax];
+                            let (omin, omax) = (c.output_min, c.output_max);
+                            let mid = Slim16(((i32::from(omin.0) + i32::from(omax.0)) / 2) as i16);
+                            let engages = [None, Some(omin), Some(mid), Some(omax)];
+                            let ff = c.feed_forward_zero;
+                            let mut outside = false;
+                            for r in grid(mlo, mhi) {
+                                for y in grid(ylo, yhi) {
+                                    let e = r.sub(y);
+                                    let p = c.kp.scale(e);
+                                    for acc in accs {
+                                        for engage in engages {
+                                            let (acc, v) = match engage {
+                                                Some(t) => {
+                                                    let x = Slim16::deplete(
+                                                        Slim16::deplete(t.widen(), p),
+                                                        ff,
+                                                    );
+                                                    (x.clamp(imin, imax), t)
+                                                }
+                                                None => {
+                                                    (acc, p.add(Slim16::narrow_state(acc)).add(ff))
+                                                }
+                                            };
+                                            let u = v.clamp(omin, omax);
+                                            let held = (u < v && e > Slim16::ZERO)
+                                                || (u > v && e < Slim16::ZERO);
+                                            if held {
+                                                continue;
+                                            }
+                                            let new = c.ki_ts.integrate(acc, e);
+                                            let inside = (imin..=imax).contains(&new);
+                                            assert!(
+                                                inside || !stays,
+                                                "kp={kp} ki={ki} lo={lo} hi={hi} r={r:?} y={y:?} acc={acc} engage={engage:?}: {new}"
+                                            );
+                                            outside |= !inside;
+                                        }
+                                    }
+                                }
+                            }
+                            if stays {
+                                proved += 1;
+                            } else {
+                                refused += 1;
+                                refused_observable += usize::from(outside);
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        assert!(
+            proved >= 20 && refused >= 20 && refused_observable >= 5,
+            "proved {proved}, refused {refused}, of which observable {refused_observable}"
+        );
     }
 
     #[test]

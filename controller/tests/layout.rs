@@ -294,3 +294,110 @@ fn a_frozen_layout_has_no_other_configuration() {
     assert_eq!(I16F16::frozen::<FrozenFull>(), Some(&FrozenFull::CONFIG));
     assert_eq!(I16F16::frozen::<Full>(), None);
 }
+
+// The 16-bit frozen step's wide sum (`Backend::frozen_sum`) on both sides
+// of its proof: the minimal settings with Kp just above the least that
+// proves it (with the integrator at its lowest, 15 360 raw below zero,
+// sat(Kp·32 767) − 15 360 must pass the output limit 5 120: Kp > 0.625) and
+// just below (the proof fails; the step keeps the 16-bit chain).
+/// 512 raw per unit on both sides (±10 output → ±5 120 raw, measurement
+/// range ±60 → ±30 720 raw), as in the boards' 16-bit workloads.
+const RAW_512: evenkeel::Scaling = evenkeel::Scaling::NONE
+    .with_measurement(evenkeel::Scale::new(512.0, 0.0))
+    .with_command(evenkeel::Scale::new(512.0, 0.0));
+const SLIM_WIDE: Settings = MINIMAL
+    .with_measurement_range(-60.0, 60.0)
+    .with_scaling(RAW_512);
+const SLIM_NEAR: Settings = Settings::new(0.01, 0.63, 5.0, -10.0, 10.0)
+    .with_measurement_range(-60.0, 60.0)
+    .with_scaling(RAW_512);
+const SLIM_BELOW: Settings = Settings::new(0.01, 0.62, 5.0, -10.0, 10.0)
+    .with_measurement_range(-60.0, 60.0)
+    .with_scaling(RAW_512);
+const SLIM_FILTERED: Settings = SLIM_WIDE.with_filter_time_s(0.02);
+evenkeel::frozen!(SlimFrozenWide: Slim16 = SLIM_WIDE);
+evenkeel::frozen!(SlimFrozenNear: Slim16 = SLIM_NEAR);
+evenkeel::frozen!(SlimFrozenBelow: Slim16 = SLIM_BELOW);
+evenkeel::frozen!(SlimFrozenFiltered: Slim16 = SLIM_FILTERED);
+
+/// Events for the wide sum: mostly steps with the zero feed-forward (the
+/// only ones it serves), inputs often at the format's extremes, and
+/// engages, tracks and feed-forward steps that move the integrator to the
+/// ends of its range.
+fn wide_events() -> impl Strategy<Value = Vec<Event>> {
+    let v = || {
+        prop_oneof![
+            4 => -2_100.0f64..2_100.0,
+            2 => prop_oneof![Just(-2_100.0), Just(2_100.0), Just(-1_920.0), Just(1_920.0)],
+            1 => Just(0.0),
+        ]
+    };
+    let event = prop_oneof![
+        12 => (v(), v(), prop::option::of(v()))
+            .prop_map(|(r, y, applied)| Event::Step { r, y, ff: 0.0, applied }),
+        4 => (v(), v(), v()).prop_map(|(r, y, ff)| Event::Step { r, y, ff, applied: None }),
+        2 => v().prop_map(Event::Engage),
+        1 => (v(), v(), v()).prop_map(|(r, y, a)| Event::Track { r, y, a }),
+        1 => Just(Event::Reset),
+    ];
+    prop::collection::vec(event, 1..200)
+}
+
+#[test]
+fn the_wide_sum_is_taken_only_where_proved() {
+    use evenkeel::Backend;
+    let (r, y) = (Slim16::from_raw(30_720), Slim16::from_raw(-30_720));
+    for (i, found) in [
+        Slim16::frozen_sum::<SlimFrozenWide>(r, y, 0),
+        Slim16::frozen_sum::<SlimFrozenNear>(r, y, 0),
+        Slim16::frozen_sum::<SlimFrozenFiltered>(r, y, 0),
+    ]
+    .into_iter()
+    .enumerate()
+    {
+        // e = 61 440 saturates; Kp·e + 0 far above the limit.
+        assert_eq!(found, Some((Slim16::MAX, Slim16::MAX)), "{i}");
+    }
+    assert_eq!(Slim16::frozen_sum::<SlimFrozenBelow>(r, y, 0), None);
+    // And the integrator's clamp is idle in those three (Ki·Ts = 0.05 ≤ Kp,
+    // the range three output spans wide), never without the wide sum.
+    assert!(Slim16::frozen_integral_stays::<SlimFrozenWide>());
+    assert!(Slim16::frozen_integral_stays::<SlimFrozenNear>());
+    assert!(Slim16::frozen_integral_stays::<SlimFrozenFiltered>());
+    assert!(!Slim16::frozen_integral_stays::<SlimFrozenBelow>());
+    assert!(!Slim16::frozen_integral_stays::<SlimFrozenFull>());
+    // Output ±10 240 raw, so the integrator spans ±30 720: with it at its
+    // lowest, the saturated P (32 767) gives a sum inside the limits.
+    assert_eq!(
+        SlimFrozenMinimal::CONFIG.output_limits(),
+        (Slim16::from_raw(-10_240), Slim16::from_raw(10_240))
+    );
+    assert_eq!(Slim16::frozen_sum::<SlimFrozenMinimal>(r, y, 0), None);
+    // Deadband, setpoint weight and back-calculation: never.
+    assert_eq!(Slim16::frozen_sum::<SlimFrozenFull>(r, y, 0), None);
+    // Below the proof the wide sum would differ: e = 61 440 with the
+    // integrator at −15 360 raw. The chain: P = sat(0.62·32 767) = 20 316,
+    // v = 4 956, inside the limits, integrating; wide: 38 093 − 15 360,
+    // clamped and held.
+    let c = Config::<Slim16>::try_new(&SLIM_BELOW).expect("valid");
+    let (kp, shift) = (i32::from(c.kp().mantissa()), c.kp().shift());
+    let chain = (i32::from(Slim16::MAX.raw()) * kp + (1 << (shift - 1))) >> shift;
+    let wide = (61_440 * kp + (1 << (shift - 1))) >> shift;
+    assert!(
+        chain - 15_360 <= 5_120 && wide - 15_360 > 5_120,
+        "{chain} {wide}"
+    );
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 400, ..ProptestConfig::default() })]
+
+    #[test]
+    fn frozen_wide_sums_give_the_run_time_bits(e in wide_events()) {
+        let run_time = |s: &Settings| Config::<Slim16>::try_new(s).expect("valid");
+        frozen_same_bits(run_time(&SLIM_WIDE), SlimFrozenWide::CONFIG, &e, slim)?;
+        frozen_same_bits(run_time(&SLIM_NEAR), SlimFrozenNear::CONFIG, &e, slim)?;
+        frozen_same_bits(run_time(&SLIM_BELOW), SlimFrozenBelow::CONFIG, &e, slim)?;
+        frozen_same_bits(run_time(&SLIM_FILTERED), SlimFrozenFiltered::CONFIG, &e, slim)?;
+    }
+}
