@@ -182,7 +182,12 @@ impl<B: Backend, const N: usize, L: Layout> Schedule<B, N, L> {
     /// Build from at least two breakpoints with strictly increasing `at`.
     /// Every row is validated as a full configuration (`base` with the row's
     /// gains, in layout `L`), so each scheduled gain is known to fit the
-    /// backend.
+    /// backend. The gains are stored in the loop's raw units (as the row's
+    /// configuration stores them), both ends of a segment at one shift; a
+    /// segment whose shared shift loses more than
+    /// [`SCHEDULE_GAIN_TOLERANCE`] of an end's gain is refused at that row
+    /// (`ConfigError::TooFine`). For [`crate::Slim16`], `at` is a raw
+    /// value of the scheduling variable (a whole number).
     ///
     /// ```
     /// use evenkeel::{Breakpoint, Schedule, ScheduleError, Settings};
