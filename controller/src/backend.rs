@@ -469,22 +469,33 @@ pub trait Backend: Copy + PartialOrd + Debug + 'static {
     /// Under a [`crate::frozen!`] layout whose configuration proves it at
     /// compile time, the error `r − y_f` and the sum `P + I` of a step with
     /// the zero feed-forward, computed without the intermediate
-    /// saturations of the format: `(e, v)`, each equal to the step's own
-    /// `e`, and `v` on the same side of each output limit as the step's
-    /// own sum (equal to it whenever that is within the limits). Every
-    /// other layout, and any configuration the proof does not cover:
-    /// `None` (the step computes both itself). `integral` is the
-    /// integrator state, within its range or zero. The default is `None`.
+    /// saturations of the format: `(e, v, sign)`. The step's hold test
+    /// reads the sign of `sign`, which is that of the step's own `e`; `e`
+    /// is the step's own `e` whenever `r − y_f` lies within the format
+    /// (else, on some targets, its wrapped value, which a step that does
+    /// not engage never reads, as it holds its integrator; an engage takes
+    /// its own `e`). `v` lies on the same side of each output limit as the
+    /// step's own sum (equal to it whenever that is within the limits).
+    /// Every other layout, and any configuration the proof does not
+    /// cover: `None` (the step computes all three itself). `integral` is
+    /// the integrator state, within its range or zero. The default is
+    /// `None`.
     ///
     /// ```
     /// use evenkeel::{Backend, Runtime, Settings, Slim16};
     /// evenkeel::frozen!(Fan: Slim16 = Settings::new(0.01, 1.0, 1.0, 0.0, 100.0));
     /// let (r, y) = (Slim16::from_raw(60), Slim16::from_raw(20));
-    /// assert_eq!(Slim16::frozen_sum::<Fan>(r, y, 0), Some((Slim16::from_raw(40), Slim16::from_raw(40))));
+    /// let (e, v, sign) = Slim16::frozen_sum::<Fan>(r, y, 0).unwrap();
+    /// assert_eq!((e, v), (Slim16::from_raw(40), Slim16::from_raw(40)));
+    /// assert!(sign > Slim16::from_raw(0));
     /// assert_eq!(Slim16::frozen_sum::<Runtime>(r, y, 0), None);
     /// ```
     #[inline(always)]
-    fn frozen_sum<L: Layout>(r: Self, y_f: Self, integral: Self::Accum) -> Option<(Self, Self)> {
+    fn frozen_sum<L: Layout>(
+        r: Self,
+        y_f: Self,
+        integral: Self::Accum,
+    ) -> Option<(Self, Self, Self)> {
         let _ = (r, y_f, integral);
         None
     }

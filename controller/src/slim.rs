@@ -19,6 +19,7 @@
 
 use crate::backend::Backend;
 use crate::config::Config;
+use crate::controller::WIDE_ERROR_TRUNCATED;
 use crate::error::{ConfigError, Setting};
 use crate::layout::Layout;
 use crate::settings::Settings;
@@ -595,7 +596,7 @@ impl Backend for Slim16 {
     /// instead of the saturations after the difference, the product, the
     /// narrowing of `I` and the sum.
     #[inline(always)]
-    fn frozen_sum<L: Layout>(r: Self, y_f: Self, integral: i32) -> Option<(Self, Self)> {
+    fn frozen_sum<L: Layout>(r: Self, y_f: Self, integral: i32) -> Option<(Self, Self, Self)> {
         if !const {
             match &L::FROZEN_SLIM16 {
                 Some(c) => wide_sums_hold(c),
@@ -605,7 +606,7 @@ impl Backend for Slim16 {
             return None;
         }
         let c = const { &L::FROZEN_SLIM16 }.as_ref()?;
-        Some(wide_sum(c, r, y_f, integral))
+        Some(wide_sum(c, r, y_f, integral, WIDE_ERROR_TRUNCATED))
     }
     /// The proof is `slim::integral_stays` (crate-private), evaluated once per layout at
     /// compile time.
@@ -1022,9 +1023,29 @@ pub(crate) const fn integral_stays<L: Layout>(c: &Config<Slim16, L>) -> bool {
         && imax + ki_min >= imin
 }
 
-/// `(sat(r − y_f), sat(Kp·(r − y_f) + I + ff))` in `i32` for the zero
+/// `(e, sat(Kp·(r − y_f) + I + ff), sign)` in `i32` for the zero
 /// feed-forward `ff` of `c`: [`Backend::frozen_sum`] once
-/// [`wide_sums_hold`] holds for `c`. No sum or product here wraps then:
+/// [`wide_sums_hold`] holds for `c`. Not `truncated`: `e = sat(r − y_f)`
+/// and `sign = e`. `truncated`: `e` is `r − y_f` truncated to 16 bits and
+/// `sign` is −1, 0 or 1, the sign of `r − y_f` (and of `sat(r − y_f)`),
+/// which the step's hold test reads instead of `e`'s.
+///
+/// The truncated `e` is the saturated one whenever `r − y_f` lies within
+/// 16 bits, and a step without engage reads it only then: by
+/// [`wide_sums_hold`] (event (a)), `r − y_f > 32 767` puts the step's sum
+/// `v` above `output_max` (the first saturation that acts upward is (a)
+/// itself, so the proof's bound applies); the command is at most
+/// `output_max` (the slew limit only tightens it), so `u < v`, `held_high`
+/// holds whatever the downstream difference, and with `sign` positive the
+/// step holds the integrator; the held path reads no `e` (the first
+/// step's clamp of a held integrator neither). Mirrored below −32 768.
+/// The filter does not matter: the proof takes every 16-bit filtered
+/// value. An engage step sets `v` to its target, so `u = v` and it may
+/// integrate: the step then takes its own saturated `e` and its sign
+/// (computed there, like `P`). The other readers of `e` (back-calculation,
+/// deadband, setpoint weight) are excluded by the proof.
+///
+/// No sum or product here wraps then:
 /// the proof bounds |r − y_f| · Kp + ½ and |P| + 2¹⁶ + 1 below 2³¹, and
 /// |integral| < 2³⁰. For other configurations the result is unspecified
 /// (never a panic).
@@ -1034,7 +1055,8 @@ fn wide_sum<L: Layout>(
     r: Slim16,
     y_f: Slim16,
     integral: i32,
-) -> (Slim16, Slim16) {
+    truncated: bool,
+) -> (Slim16, Slim16, Slim16) {
     let e = i32::from(r.0).wrapping_sub(i32::from(y_f.0));
     let p = round_half_added(
         e.wrapping_mul(i32::from(c.kp.mantissa)),
@@ -1044,7 +1066,14 @@ fn wide_sum<L: Layout>(
     let v = p
         .wrapping_add(i)
         .wrapping_add(i32::from(c.feed_forward_zero.0));
-    (Slim16(saturate_i16(e)), Slim16(saturate_i16(v)))
+    let v = Slim16(saturate_i16(v));
+    if truncated {
+        // Truncation, not saturation (see above).
+        (Slim16(e as i16), v, Slim16(clamp_i32(e, -1, 1) as i16))
+    } else {
+        let e = Slim16(saturate_i16(e));
+        (e, v, e)
+    }
 }
 
 /// `floor((x · m + half) / 2^s)`, exact in `i64` for |x| ≤ 2¹⁷.
@@ -1261,6 +1290,7 @@ mod tests {
             crate::Scaling::covering(-10.0, 10.0, -10.0, 10.0),
         ];
         let (mut proved, mut refused, mut refused_observable) = (0, 0, 0);
+        let mut truncated_differ = 0usize;
         for kp in [
             0.03, 0.05, 0.07, 0.1, 0.12, 0.2, 0.6, 0.62, 0.625, 0.626, 0.63, 0.7, 1.0, 1.01, 2.0,
             3.9, 20.0,
@@ -1315,13 +1345,28 @@ mod tests {
                             for y in grid(ylo, yhi) {
                                 for acc in accs {
                                     let (e, v) = chain(&c, r, y, acc);
-                                    let (e_w, v_w) = wide_sum(&c, r, y, acc);
-                                    let same = e == e_w && side(&c, v) == side(&c, v_w);
+                                    let (e_w, v_w, sign_w) = wide_sum(&c, r, y, acc, false);
+                                    let same =
+                                        e == e_w && sign_w == e && side(&c, v) == side(&c, v_w);
                                     assert!(
                                         same || !holds,
                                         "kp={kp} lo={lo} hi={hi} r={r:?} y={y:?} acc={acc}: {v:?} {v_w:?}"
                                     );
                                     differs |= !same;
+                                    // Truncated: the same sum, the sign of
+                                    // `e`, and `e` itself unless the step
+                                    // holds (the sum beyond the limit on
+                                    // `e`'s side).
+                                    let (e_t, v_t, sign_t) = wide_sum(&c, r, y, acc, true);
+                                    let sign = e.0.signum();
+                                    let held = side(&c, v).0 == sign as i8 && sign != 0;
+                                    let same_t =
+                                        v_t == v_w && sign_t.0 == sign && (e_t == e || held);
+                                    assert!(
+                                        same_t || !holds,
+                                        "kp={kp} lo={lo} hi={hi} r={r:?} y={y:?} acc={acc}: {e:?} {e_t:?} {sign_t:?}"
+                                    );
+                                    truncated_differ += usize::from(holds && e_t != e);
                                 }
                             }
                         }
@@ -1336,8 +1381,9 @@ mod tests {
             }
         }
         assert!(
-            proved >= 20 && refused >= 20 && refused_observable >= 5,
-            "proved {proved}, refused {refused}, of which observable {refused_observable}"
+            proved >= 20 && refused >= 20 && refused_observable >= 5 && truncated_differ > 0,
+            "proved {proved}, refused {refused}, of which observable {refused_observable}, \
+             truncated {truncated_differ}"
         );
     }
 
