@@ -349,8 +349,13 @@ impl FixedBound {
         }
     }
 
+    /// FORMATS.md §4: `(k + 1)·G + q`, plus 6q for the two derived ranges
+    /// (integrator and feed-forward: the output range widened by its span,
+    /// from the inward-rounded limits, each end within 3q), which a step
+    /// can meet at once: the integrator at its clamp and a zero
+    /// feed-forward clamped into a range that excludes zero.
     fn after(&self, k: usize) -> f64 {
-        (k as f64 + 1.0) * self.growth + Q
+        (k as f64 + 1.0) * self.growth + 7.0 * Q
     }
 }
 
@@ -431,8 +436,10 @@ impl SlimBound {
         }
     }
 
+    /// FORMATS.md §8: `(k + 1)·G + q` plus 6q for the derived ranges, as
+    /// in [`FixedBound::after`].
     fn after(&self, k: usize) -> f64 {
-        (k as f64 + 1.0) * self.growth + 1.0
+        (k as f64 + 1.0) * self.growth + 7.0
     }
 }
 
