@@ -1273,6 +1273,51 @@ mod tests {
         }
     }
 
+    /// A grid configuration of the two proofs' tests: `kp`, `ki`, output
+    /// `lo … hi`, measurement range ±60, `scaling`, with or without filter;
+    /// `None` if the format refuses it.
+    fn grid_config(
+        kp: f64,
+        ki: f64,
+        lo: f64,
+        hi: f64,
+        scaling: crate::Scaling,
+        filter: bool,
+    ) -> Option<Config<Slim16>> {
+        let mut s = Settings::new(0.01, kp, ki, lo, hi)
+            .with_measurement_range(-60.0, 60.0)
+            .with_scaling(scaling);
+        if filter {
+            s = s.with_filter_time_s(0.02);
+        }
+        Config::<Slim16>::new(&s).ok()
+    }
+
+    /// The raw ranges of the setpoint (the measurement range) and of the
+    /// filtered measurement (any 16-bit value with a filter).
+    fn input_ranges(c: &Config<Slim16>, filter: bool) -> ((i16, i16), (i16, i16)) {
+        let m = (c.measurement_min.0, c.measurement_max.0);
+        (m, if filter { (i16::MIN, i16::MAX) } else { m })
+    }
+
+    /// About `points` values evenly over `lo … hi`, with both edges, their
+    /// neighbours and −1, 0, 1 where they lie inside.
+    fn edge_grid(lo: i16, hi: i16, points: i32) -> impl Iterator<Item = Slim16> {
+        let (lo, hi) = (i32::from(lo), i32::from(hi));
+        let step = ((hi - lo) / points).max(1) as usize;
+        (lo..=hi)
+            .step_by(step)
+            .chain([lo, lo + 1, -1, 0, 1, hi - 1, hi])
+            .filter(move |x| (lo..=hi).contains(x))
+            .map(|x| Slim16(x as i16))
+    }
+
+    /// Integrator states at and near both ends of the range, and around zero.
+    fn edge_states(c: &Config<Slim16>) -> [i32; 7] {
+        let (lo, hi) = (c.integral_min, c.integral_max);
+        [lo, lo + 4095, -4097, 0, 4096, hi - 4096, hi]
+    }
+
     #[test]
     fn wide_sums_match_the_chain_wherever_proved() {
         // Configurations around the proof's edges: Kp across the minimal
@@ -1306,40 +1351,13 @@ mod tests {
             ] {
                 for scaling in scalings {
                     for filter in [false, true] {
-                        let mut s = Settings::new(0.01, kp, 5.0, lo, hi)
-                            .with_measurement_range(-60.0, 60.0)
-                            .with_scaling(scaling);
-                        if filter {
-                            s = s.with_filter_time_s(0.02);
-                        }
-                        let Ok(c) = Config::<Slim16>::new(&s) else {
+                        let Some(c) = grid_config(kp, 5.0, lo, hi, scaling, filter) else {
                             continue;
                         };
                         let holds = wide_sums_hold(&c);
-                        let (mlo, mhi) = (c.measurement_min.0, c.measurement_max.0);
-                        let (ylo, yhi) = if filter {
-                            (i16::MIN, i16::MAX)
-                        } else {
-                            (mlo, mhi)
-                        };
-                        let grid = |lo: i16, hi: i16| {
-                            let (lo, hi) = (i32::from(lo), i32::from(hi));
-                            let step = ((hi - lo) / 41).max(1) as usize;
-                            (lo..=hi)
-                                .step_by(step)
-                                .chain([lo, lo + 1, -1, 0, 1, hi - 1, hi])
-                                .filter(move |x| (lo..=hi).contains(x))
-                                .map(|x| Slim16(x as i16))
-                        };
-                        let accs = [
-                            c.integral_min,
-                            c.integral_min + 4095,
-                            -4097,
-                            0,
-                            4096,
-                            c.integral_max - 4096,
-                            c.integral_max,
-                        ];
+                        let ((mlo, mhi), (ylo, yhi)) = input_ranges(&c, filter);
+                        let grid = |lo, hi| edge_grid(lo, hi, 41);
+                        let accs = edge_states(&c);
                         let mut differs = false;
                         for r in grid(mlo, mhi) {
                             for y in grid(ylo, yhi) {
@@ -1439,33 +1457,14 @@ mod tests {
                 ] {
                     for scaling in scalings {
                         for filter in [false, true] {
-                            let mut s = Settings::new(0.01, kp, ki, lo, hi)
-                                .with_measurement_range(-60.0, 60.0)
-                                .with_scaling(scaling);
-                            if filter {
-                                s = s.with_filter_time_s(0.02);
-                            }
-                            let Ok(c) = Config::<Slim16>::new(&s) else {
+                            let Some(c) = grid_config(kp, ki, lo, hi, scaling, filter) else {
                                 continue;
                             };
                             let stays = integral_stays(&c);
-                            let (mlo, mhi) = (c.measurement_min.0, c.measurement_max.0);
-                            let (ylo, yhi) = if filter {
-                                (i16::MIN, i16::MAX)
-                            } else {
-                                (mlo, mhi)
-                            };
-                            let grid = |lo: i16, hi: i16| {
-                                let (lo, hi) = (i32::from(lo), i32::from(hi));
-                                let step = ((hi - lo) / 19).max(1) as usize;
-                                (lo..=hi)
-                                    .step_by(step)
-                                    .chain([lo, lo + 1, -1, 0, 1, hi - 1, hi])
-                                    .filter(move |x| (lo..=hi).contains(x))
-                                    .map(|x| Slim16(x as i16))
-                            };
+                            let ((mlo, mhi), (ylo, yhi)) = input_ranges(&c, filter);
+                            let grid = |lo, hi| edge_grid(lo, hi, 19);
                             let (imin, imax) = (c.integral_min, c.integral_max);
-                            let accs = [imin, imin + 4095, -4097, 0, 4096, imax - 4096, imax];
+                            let accs = edge_states(&c);
                             let (omin, omax) = (c.output_min, c.output_max);
                             let mid = Slim16(((i32::from(omin.0) + i32::from(omax.0)) / 2) as i16);
                             let engages = [None, Some(omin), Some(mid), Some(omax)];
